@@ -1,0 +1,5 @@
+import sys
+
+from steelyard.cli.main import main
+
+sys.exit(main())

@@ -1,0 +1,60 @@
+"""One error family for the whole program.
+
+Every problem a user can cause (a bad file, a bad value, an unknown loadout)
+is a `SteelyardError`. Its text is one line that says where the problem is
+(file, the item/loadout/envelope it belongs to, the field) and what is wrong,
+so the CLI can print it as is and exit 2, and the TUI can show it inline.
+"""
+
+from __future__ import annotations
+
+
+class SteelyardError(Exception):
+    """A problem with user input, located as precisely as we know."""
+
+    def __init__(
+        self,
+        message: str,
+        *,
+        file: str | None = None,
+        subject: str | None = None,
+        field: str | None = None,
+    ) -> None:
+        super().__init__(message)
+        self.message = message
+        self.file = file
+        self.subject = subject
+        self.field = field
+
+    def located(self, *, file: str | None = None, subject: str | None = None,
+                field: str | None = None) -> "SteelyardError":
+        """Fill in location parts that are still unknown; returns self."""
+        if self.file is None and file is not None:
+            self.file = file
+        if self.subject is None and subject is not None:
+            self.subject = subject
+        if self.field is None and field is not None:
+            self.field = field
+        return self
+
+    def __str__(self) -> str:
+        parts = [p for p in (self.file, self.subject, self.field) if p]
+        text = ": ".join(parts + [self.message])
+        # Always one line: a message must never smuggle a newline in.
+        return " ".join(text.split("\n"))
+
+
+class UnitError(SteelyardError):
+    """A value whose unit is unknown or of the wrong dimension."""
+
+
+class InertiaError(SteelyardError):
+    """An inertia that no physical body can have."""
+
+
+class FormatError(SteelyardError):
+    """The file is not a steelyard ledger (not TOML, wrong version...)."""
+
+
+def item_subject(item_id: object) -> str:
+    return f"item {item_id!r}" if isinstance(item_id, str) else f"item #{item_id}"

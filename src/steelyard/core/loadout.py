@@ -1,0 +1,103 @@
+"""Loadouts: how much of each variable item is on board.
+
+A loadout turns the ledger into a *state*: the mass, CG and own inertia of
+every row as carried. Variable items a loadout does not name are empty. A
+partly filled item keeps its CG and has its own inertia scaled by the fill
+fraction (documented in docs/conventions.md).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import SteelyardError
+from .model import Amount, Ledger, Loadout
+
+
+@dataclass(frozen=True)
+class State:
+    """The vehicle as loaded: per-row totals (quantity and fill applied), SI."""
+
+    name: str | None
+    mass: np.ndarray  # (n,)
+    cg: np.ndarray  # (n, 3)
+    own: np.ndarray  # (n, 3, 3)
+    fill: np.ndarray  # (n,) 1 for fixed items, 0..1 for variable ones
+
+
+def amount_fraction(ledger: Ledger, item_id: str, amount: Amount, where: str) -> float:
+    """Fill fraction of a variable item for one loadout amount."""
+    item = ledger.item(item_id)
+    full = item.mass * item.quantity
+    if amount.kind == "fraction":
+        f = amount.value
+    elif amount.kind == "mass":
+        f = amount.value / full if full > 0 else (0.0 if amount.value == 0 else np.inf)
+    elif amount.kind == "volume":
+        if item.density is None:
+            raise SteelyardError(f"{amount.given or 'a volume'} needs a density on item {item_id!r}",
+                                 subject=where, field=f"set.{item_id}")
+        m = amount.value * item.density
+        f = m / full if full > 0 else (0.0 if m == 0 else np.inf)
+    else:  # pragma: no cover - the loader builds only the kinds above
+        raise SteelyardError(f"unknown amount kind {amount.kind!r}", subject=where)
+    if not (0.0 <= f <= 1.0 + 1e-12):
+        shown = amount.given or f"{amount.value:g}"
+        raise SteelyardError(f"{shown} is more than item {item_id!r} holds" if f > 1 else
+                             f"{shown} is below empty", subject=where, field=f"set.{item_id}")
+    return min(float(f), 1.0)
+
+
+def chain(ledger: Ledger, name: str) -> list[Loadout]:
+    """The loadout and its bases, root first. A base loop is an error."""
+    seen: list[str] = []
+    out: list[Loadout] = []
+    current: str | None = name
+    while current is not None:
+        if current in seen:
+            loop = " -> ".join(seen + [current])
+            raise SteelyardError(f"base loop {loop}", subject=f"loadout {name!r}", field="base")
+        seen.append(current)
+        try:
+            lo = ledger.loadout(current)
+        except KeyError:
+            who = f"loadout {seen[-2]!r}" if len(seen) > 1 else None
+            if who is None:
+                known = ", ".join(repr(x.name) for x in ledger.loadouts) or "none"
+                raise SteelyardError(f"no loadout named {current!r} (loadouts: {known})",
+                                     field="--loadout") from None
+            raise SteelyardError(f"base {current!r} is not a loadout", subject=who, field="base") from None
+        out.append(lo)
+        current = lo.base
+    return out[::-1]
+
+
+def fill_fractions(ledger: Ledger, name: str | None) -> np.ndarray:
+    """Fill fraction of every row: 1 for fixed items, the loadout's for variable ones."""
+    a = ledger.arrays
+    fill = np.where(a.variable, 0.0, 1.0)
+    if name is None:
+        return fill
+    for lo in chain(ledger, name):
+        where = f"loadout {lo.name!r}"
+        for item_id, amount in lo.set.items():
+            if item_id not in ledger.index:
+                raise SteelyardError(f"names unknown item {item_id!r}", subject=where, field=f"set.{item_id}")
+            i = ledger.index[item_id]
+            if not a.variable[i]:
+                raise SteelyardError(f"item {item_id!r} is not variable", subject=where, field=f"set.{item_id}")
+            fill[i] = amount_fraction(ledger, item_id, amount, where)
+    return fill
+
+
+def state_from_fill(ledger: Ledger, fill: np.ndarray, name: str | None = None) -> State:
+    a = ledger.arrays
+    scale = a.quantity * fill
+    return State(name, a.unit_mass * scale, a.cg, a.own * scale[:, None, None], fill)
+
+
+def resolve(ledger: Ledger, name: str | None = None) -> State:
+    """The state of the vehicle under loadout `name` (None: variable items empty)."""
+    return state_from_fill(ledger, fill_fractions(ledger, name), name)
