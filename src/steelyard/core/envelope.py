@@ -80,15 +80,15 @@ def envelope_problem(points) -> str | None:
     if (span == 0).any():
         return "all points lie on one line: the envelope has no area"
     q = (p - p.min(axis=0)) / span  # unit box: one tolerance fits both axes
+    sv = np.linalg.svd(q - q.mean(axis=0), compute_uv=False)
+    if sv[-1] <= REL_TOL * sv[0]:
+        return "all points lie on one line: the envelope has no area"
     a, b = q, np.roll(q, -1, axis=0)
     n = lambda i: i % k + 1  # noqa: E731 - 1-based point number
     short = np.hypot(*(b - a).T) <= REL_TOL
     if short.any():
         i = int(np.argmax(short))
         return f"points {n(i)} and {n(i + 1)} are the same: zero-length edge"
-    area = 0.5 * np.sum(a[:, 0] * b[:, 1] - b[:, 0] * a[:, 1])
-    if abs(area) <= REL_TOL:
-        return "the envelope has no area"
     # Neighbouring edges i and i+1 share point i+1; they overlap if either far end lies on the other.
     a2, b2 = np.roll(a, -1, axis=0), np.roll(b, -1, axis=0)
     fold = (_seg_dist(a, a2, b2) <= REL_TOL) | (_seg_dist(b2, a, b) <= REL_TOL)
@@ -110,6 +110,9 @@ def envelope_problem(points) -> str | None:
             h = int(np.argmax(hit))
             return (f"the outline crosses or touches itself: edge {n(i[h])}-{n(i[h] + 1)} "
                     f"meets edge {n(j[h])}-{n(j[h] + 1)}")
+    area = 0.5 * np.sum(a[:, 0] * b[:, 1] - b[:, 0] * a[:, 1])
+    if abs(area) <= REL_TOL:
+        return "the envelope has no area"
     return None
 
 
@@ -205,6 +208,10 @@ class EnvelopeGeometry:
         p.setflags(write=False)
         return cls(p, float(REL_TOL * span[0]), float(REL_TOL * span[1]))
 
+    def without_tolerance(self) -> "EnvelopeGeometry":
+        """The same polygon with a zero boundary tolerance (solvers narrow onto exact crossings)."""
+        return EnvelopeGeometry(self.vertices, 0.0, 0.0)
+
     @property
     def mass_range(self) -> tuple[float, float]:
         return float(self.vertices[:, 1].min()), float(self.vertices[:, 1].max())
@@ -244,7 +251,7 @@ class EnvelopeGeometry:
         idx = np.maximum(count - 1, 0)
         top = np.where((count > 0) & np.isfinite(m), qhi[rows, idx], np.nan)
         mass_margin = top - m
-        mass_margin = np.where(inside, np.maximum(mass_margin, 0.0), np.minimum(mass_margin, 0.0))
+        mass_margin = np.where(inside, mass_margin, np.nan)
         return EnvelopeStatus(inside, lo, hi, margin, margin_lo, margin_hi, mass_margin)
 
 

@@ -161,14 +161,12 @@ def _allocations(ledger: Ledger) -> list[tuple[str, float]]:
     return out
 
 
-def _in_group(groups: Sequence[str], group: str) -> np.ndarray:
-    """Rows whose group is `group` or one of its subgroups ("" matches all)."""
+def _in_group(distinct: Sequence[str], group: str) -> np.ndarray:
+    """Which distinct group paths are `group` or one of its subgroups ("" matches all)."""
     if not group:
-        return np.ones(len(groups), dtype=bool)
+        return np.ones(len(distinct), dtype=bool)
     prefix = group + "/"
-    distinct = {g for g in groups}
-    hit = {g: (g.strip("/") == group or g.strip("/").startswith(prefix)) for g in distinct}
-    return np.fromiter((hit[g] for g in groups), bool, len(groups))
+    return np.fromiter((g == group or g.startswith(prefix) for g in distinct), bool, len(distinct))
 
 
 def allocation_margins(ledger: Ledger, row_mass: np.ndarray, fractions: np.ndarray) -> list[dict]:
@@ -183,12 +181,18 @@ def allocation_margins(ledger: Ledger, row_mass: np.ndarray, fractions: np.ndarr
         return []
     row_mass = np.asarray(row_mass, dtype=float).reshape(-1)
     predicted = row_mass * (1.0 + np.asarray(fractions, dtype=float).reshape(-1))
-    groups = [it.group for it in ledger.items]
+    # Sum per distinct group path once; each allocation then adds up a few paths.
+    codes: dict[str, int] = {}
+    inverse = np.fromiter((codes.setdefault(it.group.strip("/"), len(codes)) for it in ledger.items),
+                          np.intp, len(ledger.items))
+    basic_by = np.bincount(inverse, weights=row_mass, minlength=len(codes))
+    predicted_by = np.bincount(inverse, weights=predicted, minlength=len(codes))
+    distinct = list(codes)
     out = []
     for group, allocation in allocations:
-        rows = _in_group(groups, group)
-        basic_kg = float(row_mass[rows].sum())
-        predicted_kg = float(predicted[rows].sum())
+        hit = _in_group(distinct, group)
+        basic_kg = float(basic_by[hit].sum())
+        predicted_kg = float(predicted_by[hit].sum())
         out.append({"group": group, "allocation_kg": allocation, "basic_kg": basic_kg,
                     "predicted_kg": predicted_kg, "margin_kg": allocation - predicted_kg})
     return out

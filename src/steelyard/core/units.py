@@ -98,9 +98,10 @@ def parse_quantity(text: str, dimension: str) -> float:
         raise UnitError(f"{text!r} has no unit; write e.g. '{text} {DIMENSIONS[dimension][1]}'")
     if q.dimensionality != _dimensionality(dimension):
         raise UnitError(f"{text!r} is not a {dimension}")
-    value = q.to(DIMENSIONS[dimension][1]).magnitude
     try:
-        value = float(value)
+        value = float(q.to(DIMENSIONS[dimension][1]).magnitude)
+    except OverflowError:
+        raise UnitError(f"{text!r} is too large to represent") from None
     except (TypeError, ValueError) as exc:
         raise UnitError(f"cannot read {text!r} as a number") from exc
     return _finite(value, text)

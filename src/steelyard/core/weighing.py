@@ -18,7 +18,6 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from types import MappingProxyType
 
 import numpy as np
 import pint
@@ -315,4 +314,4 @@ def replaced_item(ledger: Ledger, inputs: WeighingInputs, result: WeighingResult
     if old.variable:
         raise SteelyardError("the empty vehicle is not a load item", subject=item_subject(old.id),
                              field="variable")
-    return old.evolve(mass=result.empty_mass, cg=cg, quantity=1, extra=MappingProxyType(extra))
+    return old.evolve(mass=result.empty_mass, cg=cg, quantity=1, extra=extra)

@@ -189,8 +189,9 @@ class _Items:
                 if type(v) is not bool:
                     raise self.fail(i, "variable", f"must be true or false, got {v!r}")
                 variable[i] = v
-        mass = np.where(mass_si, mass, mass * mass_f)
-        cg = np.where(cg_si[:, None], cg, cg * len_f)
+        with np.errstate(over="ignore", invalid="ignore"):  # overflow is reported below, by item
+            mass = np.where(mass_si, mass, mass * mass_f)
+            cg = np.where(cg_si[:, None], cg, cg * len_f)
         bad = ~np.isfinite(mass) | (mass < 0)
         if bad.any():
             i = int(np.argmax(bad))

@@ -41,9 +41,14 @@ def number(x: float, factor: float = 1.0) -> str:
     if not math.isfinite(x):
         return "nan" if math.isnan(x) else ("inf" if x > 0 else "-inf")
     v = x / factor
+    # Up to 12 significant digits are accepted when they read back within two
+    # units in the last place (a value read as "5.9 lb/gal" goes through pint's
+    # exact factor, not this float one); otherwise as many digits as needed.
+    tol = 2 * math.ulp(x)
     for digits in (12, 15, 16, 17):
         text = f"{v:.{digits}g}"
-        if float(text) * factor == x or digits == 17:
+        back = float(text) * factor
+        if back == x or (digits == 12 and abs(back - x) <= tol) or digits == 17:
             break
     if "e" not in text and "." not in text and "n" not in text:
         text += ".0"
