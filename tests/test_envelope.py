@@ -332,6 +332,20 @@ def test_rounding_tolerance_is_relative_to_span():
     assert evaluate_one(env, moment / (2000 * lb), 2000 * lb)["inside"]
 
 
+def test_masses_within_tolerance_of_a_vertex_level_use_that_level():
+    # shapely distance: these states lie within 1e-9 of the span from the boundary, outside it;
+    # docs/envelopes.md: such a mass is evaluated at the vertex's mass
+    poly = Polygon(DESIGN_EXAMPLE)
+    m = 650.0 + 1e-10
+    assert not poly.covers(Point(3.0, m)) and poly.distance(Point(3.0, m)) < 1e-9 * 350
+    r = evaluate_one(DESIGN_EXAMPLE, 3.0, m)
+    assert r["inside"] and r["limits"] == (2.95, 3.2)
+    # just above the notch's bottom vertex: evaluated on the vertex, so one piece, inside
+    r = evaluate_one(NOTCH, 2.0, 12.0 + 1e-12)
+    assert not Polygon(NOTCH).covers(Point(2.0, 12.0 + 1e-12))
+    assert r["inside"] and r["limits"] == (0.0, 4.0)
+
+
 def test_evaluate_one_keys():
     # rollup --json contract (DESIGN.md): inside, limits, margin; plus mass_margin
     r = evaluate_one(DESIGN_EXAMPLE, 2.8, 400.0)

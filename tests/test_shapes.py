@@ -116,7 +116,7 @@ def handbook(kind: str, p: dict, m: float) -> tuple[float, float, float]:
     if kind == "torus":  # REFERENCES.md: I_axis = m(R² + ¾a²) (from memory); diameter m(R²/2 + ⅝a²) (from memory; sympy below)
         big, a = p["major_radius"], p["minor_radius"]
         return m * (big**2 / 2 + 5 * a**2 / 8), m * (big**2 / 2 + 5 * a**2 / 8), m * (big**2 + 0.75 * a**2)
-    if kind == "plate":  # handbook table, thin rectangular plate a×b: normal m(a² + b²)/12, in-plane mb²/12, ma²/12
+    if kind == "plate":  # handbook table, thin rectangular plate a×b: normal m(a² + b²)/12, in-plane mb²/12, ma²/12 (from memory; sympy below)
         a, b = p["size"]
         return m * b**2 / 12, m * a**2 / 12, m * (a**2 + b**2) / 12
     if kind == "box":  # REFERENCES.md: box m(b² + c²)/12 and cyclic (body x y z, not u v w)

@@ -5,7 +5,11 @@ loading state we want: is it inside (the boundary counts as inside), which CG
 range is allowed at its mass (the chord of the polygon at that mass), how far
 the CG is from the nearer limit, and how much mass could still be added at the
 same CG. A burn or drop sequence is thousands of states, so everything is
-computed with numpy over (states × edges) arrays; nothing loops over states.
+computed with numpy arrays over all states at once; nothing loops over
+states. Between two vertex masses the polygon's crossing edges and their
+order never change, so they are sorted once per envelope and each state only
+looks up its band; states exactly on a vertex mass take a general
+(states × edges) path.
 
 Rounding: a state within ``REL_TOL`` × the envelope's span of the boundary
 (CG span on the CG axis, mass span on the mass axis) counts as on it, so a
@@ -15,7 +19,7 @@ See docs/envelopes.md for the exact rules.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -144,15 +148,14 @@ class EnvelopeStatus:
         return len(self.inside)
 
 
-def _pieces(x0, y0, x1, y1, level, tol_pos):
-    """The polygon's slice along each line y = level[i], as merged pieces.
+def _general_pieces(x0, y0, x1, y1, level, tol_pos):
+    """The polygon's slice along each line y = level[i], for lines through vertex levels.
 
-    Returns (plo, phi), each (n, J): piece j spans [plo, phi]; pieces are
-    sorted, and an entry is repeated for every raw interval it merged
-    (padding has plo = +inf). The slice of the closed polygon is the union of
-    the slices just above and just below the line (each found with a
-    half-open crossing rule, so a line through a vertex counts it once); a
-    horizontal edge on the line is always covered by one of them.
+    Returns (plo, phi), each (n, J): sorted pieces, an entry repeated for
+    every raw interval it merged (padding: +inf). The slice of the closed
+    polygon is the union of the slices just above and just below the line,
+    each found with a half-open crossing rule so a vertex is counted once; a
+    horizontal edge on the line is always covered by one of the two.
     """
     k = len(x0)
     lv = level[:, None]
@@ -181,11 +184,99 @@ def _pieces(x0, y0, x1, y1, level, tol_pos):
     return plo, phi
 
 
-def _snap(value: np.ndarray, levels: np.ndarray, tol: float) -> np.ndarray:
-    """Move values lying within tol of a vertex level onto it (rounding at vertices, flat edges)."""
-    near = np.abs(value[:, None] - levels[None, :]) <= tol
-    has = near.any(axis=1)
-    return np.where(has, levels[np.argmax(near, axis=1)], value)
+def _snap(value: np.ndarray, levels: np.ndarray, tol: float) -> tuple[np.ndarray, np.ndarray]:
+    """Values within tol of a vertex level moved onto it, and which ones are on a level.
+
+    `levels` is sorted. This absorbs rounding at vertices and on flat edges.
+    """
+    i = np.searchsorted(levels, value)
+    below = levels[np.clip(i - 1, 0, len(levels) - 1)]
+    above = levels[np.clip(i, 0, len(levels) - 1)]
+    d_below, d_above = np.abs(value - below), np.abs(above - value)
+    nearest = np.where(d_above < d_below, above, below)
+    at = np.minimum(d_below, d_above) <= tol
+    return np.where(at, nearest, value), at
+
+
+@dataclass(frozen=True, eq=False)
+class _Slicer:
+    """Cuts the polygon along lines of constant `level` (mass, or CG for the vertical cut).
+
+    Between two consecutive vertex levels (a slab) the same edges cross every
+    line, always in the same order, since edges of a simple polygon never
+    cross. So the crossing edges of each slab are sorted once, here, and a
+    state strictly inside a slab needs one lookup and one multiply-add per
+    crossing: its pieces are consecutive pairs. States exactly on a vertex
+    level take the general path.
+    """
+
+    edges: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]  # x0, y0, x1, y1
+    levels: np.ndarray  # sorted distinct vertex levels; slab s is [levels[s], levels[s+1])
+    ax: np.ndarray  # (slabs + 1, K) x of each crossing edge's lower end; last row empty
+    ay: np.ndarray  # (slabs + 1, K) y of that end
+    slope: np.ndarray  # (slabs + 1, K) dx/dy
+
+    @classmethod
+    def build(cls, pos: np.ndarray, lev: np.ndarray) -> "_Slicer":
+        x0, y0, x1, y1 = pos, lev, np.roll(pos, -1), np.roll(lev, -1)
+        levels = np.unique(lev)
+        ymin, ymax = np.minimum(y0, y1), np.maximum(y0, y1)
+        low0 = y0 <= y1
+        lx, ly = np.where(low0, x0, x1), np.where(low0, y0, y1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sl = np.where(y1 != y0, (x1 - x0) / (y1 - y0), 0.0)
+        slabs = []
+        for a, b in zip(levels[:-1], levels[1:]):  # once per envelope, over its few slabs
+            e = np.nonzero((ymin <= a) & (ymax >= b))[0]
+            e = e[np.argsort(lx[e] + (0.5 * (a + b) - ly[e]) * sl[e])]
+            slabs.append(e)
+        width = max(len(e) for e in slabs)
+        shape = (len(slabs) + 1, width)
+        ax, ay, slope = np.full(shape, np.inf), np.zeros(shape), np.zeros(shape)
+        for s, e in enumerate(slabs):
+            ax[s, : len(e)], ay[s, : len(e)], slope[s, : len(e)] = lx[e], ly[e], sl[e]
+        return cls((x0, y0, x1, y1), levels, ax, ay, slope)
+
+    def groups(self, level: np.ndarray, tol_level: float, tol_pos: float):
+        """[(rows, plo, phi)]: sorted pieces of the cut at each state's level, by group of rows."""
+        lev, at = _snap(level, self.levels, tol_level)
+        some = bool(at.any())
+        fast = ~at if some else slice(None)  # the usual case: no state on a vertex level
+        lv = lev[fast]
+        out = []
+        if len(lv):
+            last = len(self.levels) - 1
+            s = np.searchsorted(self.levels, lv, side="right") - 1
+            ok = np.isfinite(lv) & (s >= 0) & (s < last)
+            s = np.where(ok, s, last)
+            lv = np.where(ok, lv, 0.0)
+            x = np.take(self.ax, s, axis=0)
+            x += (lv[:, None] - np.take(self.ay, s, axis=0)) * np.take(self.slope, s, axis=0)
+            out.append((fast, x[:, 0::2], x[:, 1::2]))
+        if some:
+            out.append((at, *_general_pieces(*self.edges, lev[at], tol_pos)))
+        return out
+
+
+def _holding(plo: np.ndarray, phi: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(lo, hi) of the piece holding v, else the nearest (the lower on a tie); NaN if none."""
+    good = np.isfinite(v)
+    vv = np.where(good, v, 0.0)[:, None]
+    if plo.shape[1] == 1:
+        j = np.zeros(len(v), dtype=np.intp)
+    else:
+        j = np.argmin(np.maximum(np.maximum(plo - vv, vv - phi), 0.0), axis=1)
+    flat = np.arange(len(v)) * plo.shape[1] + j
+    lo, hi = np.take(plo, flat), np.take(phi, flat)
+    ok = good & np.isfinite(lo)
+    return np.where(ok, lo, np.nan), np.where(ok, hi, np.nan)
+
+
+def _top_below(plo: np.ndarray, phi: np.ndarray, v: np.ndarray, tol: float) -> np.ndarray:
+    """Top of the highest piece that starts at or below v (+tol); NaN if none."""
+    count = (plo <= v[:, None] + tol).sum(axis=1)
+    top = np.take(phi, np.arange(len(v)) * phi.shape[1] + np.maximum(count - 1, 0))
+    return np.where(count > 0, top, np.nan)
 
 
 @dataclass(frozen=True, eq=False)
@@ -195,6 +286,14 @@ class EnvelopeGeometry:
     vertices: np.ndarray  # (k, 2) [cg, mass], last != first
     tol_cg: float
     tol_mass: float
+    across: _Slicer | None = field(default=None, repr=False)  # lines of constant mass
+    upward: _Slicer | None = field(default=None, repr=False)  # lines of constant CG
+
+    def __post_init__(self) -> None:
+        if self.across is None:
+            object.__setattr__(self, "across", _Slicer.build(self.vertices[:, 0], self.vertices[:, 1]))
+        if self.upward is None:
+            object.__setattr__(self, "upward", _Slicer.build(self.vertices[:, 1], self.vertices[:, 0]))
 
     @classmethod
     def from_points(cls, points) -> "EnvelopeGeometry":
@@ -210,7 +309,7 @@ class EnvelopeGeometry:
 
     def without_tolerance(self) -> "EnvelopeGeometry":
         """The same polygon with a zero boundary tolerance (solvers narrow onto exact crossings)."""
-        return EnvelopeGeometry(self.vertices, 0.0, 0.0)
+        return EnvelopeGeometry(self.vertices, 0.0, 0.0, self.across, self.upward)
 
     @property
     def mass_range(self) -> tuple[float, float]:
@@ -226,32 +325,22 @@ class EnvelopeGeometry:
         if c.ndim != 1 or c.shape != m.shape:
             raise SteelyardError(f"cg and mass must be 1-D and the same length, got shapes "
                                  f"{c.shape} and {m.shape}")
-        vx, vy = self.vertices[:, 0], self.vertices[:, 1]
-        wx, wy = np.roll(vx, -1), np.roll(vy, -1)
-        rows = np.arange(len(c))
-
-        # Chord at each state's mass; the piece holding the CG, else the nearest (lower on a tie).
-        level = _snap(m, vy, self.tol_mass)
-        plo, phi = _pieces(vx, vy, wx, wy, level, self.tol_cg)
-        cc = c[:, None]
-        dist = np.maximum(np.maximum(plo - cc, cc - phi), 0.0)
-        j = np.argmin(np.nan_to_num(dist, nan=np.inf), axis=1)
-        lo, hi = plo[rows, j], phi[rows, j]
-        ok = np.isfinite(lo) & np.isfinite(c)
-        lo, hi = np.where(ok, lo, np.nan), np.where(ok, hi, np.nan)
-        inside = ok & (c >= lo - self.tol_cg) & (c <= hi + self.tol_cg)
+        n = len(c)
+        # Chord at each state's mass: the piece holding the CG, else the nearest.
+        lo, hi = np.full(n, np.nan), np.full(n, np.nan)
+        for rows, plo, phi in self.across.groups(m, self.tol_mass, self.tol_cg):
+            lo[rows], hi[rows] = _holding(plo, phi, c[rows])
+        inside = (c >= lo - self.tol_cg) & (c <= hi + self.tol_cg)  # False where NaN
         margin_lo, margin_hi = c - lo, hi - c
         margin = np.minimum(margin_lo, margin_hi)
         margin = np.where(inside, np.maximum(margin, 0.0), margin)
 
-        # Vertical slice at each CG: the piece holding the state, else the nearest one below it.
-        xlevel = _snap(c, vx, self.tol_cg)
-        qlo, qhi = _pieces(vy, vx, wy, wx, xlevel, self.tol_mass)
-        count = (qlo <= m[:, None] + self.tol_mass).sum(axis=1)
-        idx = np.maximum(count - 1, 0)
-        top = np.where((count > 0) & np.isfinite(m), qhi[rows, idx], np.nan)
+        # Vertical cut at each CG: the piece holding the state, else the nearest one below it.
+        top = np.full(n, np.nan)
+        for rows, plo, phi in self.upward.groups(c, self.tol_cg, self.tol_mass):
+            top[rows] = _top_below(plo, phi, m[rows], self.tol_mass)
         mass_margin = top - m
-        mass_margin = np.where(inside, mass_margin, np.nan)
+        mass_margin = np.where(inside, np.maximum(mass_margin, 0.0), np.minimum(mass_margin, 0.0))
         return EnvelopeStatus(inside, lo, hi, margin, margin_lo, margin_hi, mass_margin)
 
 

@@ -130,7 +130,7 @@ class ItemArrays:
 
     unit_mass: np.ndarray  # (n,)
     quantity: np.ndarray  # (n,) float
-    cg: np.ndarray  # (n, 3)
+    cg: np.ndarray  # (n, 3), column-major: the roll-up reads it as (3, n)
     own: np.ndarray  # (n, 3, 3)
     variable: np.ndarray  # (n,) bool
 
@@ -139,7 +139,7 @@ class ItemArrays:
         n = len(items)
         unit_mass = np.fromiter((it.mass for it in items), float, n)
         quantity = np.fromiter((it.quantity for it in items), float, n)
-        cg = np.array([it.cg for it in items], dtype=float).reshape(n, 3)
+        cg = np.asfortranarray(np.array([it.cg for it in items], dtype=float).reshape(n, 3))
         variable = np.fromiter((it.variable for it in items), bool, n)
         own = np.zeros((n, 3, 3))
         for i, it in enumerate(items):
@@ -149,7 +149,7 @@ class ItemArrays:
 
     def with_row(self, i: int, item: Item) -> "ItemArrays":
         """A copy with row i replaced: cheap enough for an edit on 100k items."""
-        out = ItemArrays(self.unit_mass.copy(), self.quantity.copy(), self.cg.copy(),
+        out = ItemArrays(self.unit_mass.copy(), self.quantity.copy(), self.cg.copy(order="F"),
                          self.own.copy(), self.variable.copy())
         out.unit_mass[i] = item.mass
         out.quantity[i] = item.quantity

@@ -39,6 +39,9 @@ class MassProperties:
         return radii_of_gyration(self.inertia_cg, self.mass)
 
 
+_BLOCK = 1 << 16  # rows per pass: offsets stay in cache instead of a full (n, 3) temporary
+
+
 def combined_cg(mass: np.ndarray, cg: np.ndarray) -> tuple[float, np.ndarray]:
     """Total mass and CG, refined once on offsets so far datums keep their digits."""
     total = float(mass.sum())
@@ -49,16 +52,44 @@ def combined_cg(mass: np.ndarray, cg: np.ndarray) -> tuple[float, np.ndarray]:
     return total, c
 
 
+def _second_moments(mass: np.ndarray, cg: np.ndarray, total: float) -> tuple[np.ndarray, np.ndarray]:
+    """CG and S = Σ m d dᵀ about it, d = r − CG, in cache-sized blocks.
+
+    Pass one gives a first CG c0; pass two sums m d and m d dᵀ about c0 and
+    corrects both exactly: CG = c0 + δ with δ = Σ m d / M, S = S0 − M δ δᵀ.
+    δ is rounding-sized, so the correction cannot cancel digits. Works on the
+    (3, n) view of the CGs: ledgers store them column-major for this.
+    """
+    x_all = cg.T if cg.T.flags.c_contiguous else np.ascontiguousarray(cg.T)
+    c0 = (x_all @ mass) / total
+    s = np.zeros((3, 3))
+    first = np.zeros(3)
+    for start in range(0, len(mass), _BLOCK):
+        x = x_all[:, start:start + _BLOCK] - c0[:, None]
+        xm = x * mass[start:start + _BLOCK]
+        first += xm.sum(axis=1)
+        s += xm @ x.T
+    delta = first / total
+    return c0 + delta, s - total * np.outer(delta, delta)
+
+
+def sum_tensors(own: np.ndarray) -> np.ndarray:
+    """Σ of (n, 3, 3) tensors; a BLAS product reads the array once, faster than .sum."""
+    n = own.shape[0]
+    if n == 0:
+        return np.zeros((3, 3))
+    return (np.ones(n) @ own.reshape(n, 9)).reshape(3, 3)
+
+
 def rollup(mass: np.ndarray, cg: np.ndarray, own: np.ndarray | None = None) -> MassProperties:
     """Mass properties of rows with masses (n,), CGs (n, 3), own inertia (n, 3, 3)."""
-    mass = np.asarray(mass, dtype=float)
+    mass = np.ascontiguousarray(mass, dtype=float)
     cg = np.asarray(cg, dtype=float).reshape(-1, 3)
-    total, c = combined_cg(mass, cg)
-    own_sum = np.zeros((3, 3)) if own is None or len(mass) == 0 else own.sum(axis=0)
+    own_sum = np.zeros((3, 3)) if own is None else sum_tensors(np.ascontiguousarray(own, dtype=float))
+    total = float(mass.sum())
     if total <= 0.0:
-        return MassProperties(total, c, own_sum, own_sum.copy())
-    d = cg - c
-    s = (d * mass[:, None]).T @ d  # Σ m d dᵀ, the second moments about the CG
+        return MassProperties(total, np.full(3, np.nan), own_sum, own_sum.copy())
+    c, s = _second_moments(mass, cg, total)
     i_cg = own_sum + np.trace(s) * np.eye(3) - s
     i_cg = 0.5 * (i_cg + i_cg.T)
     i_datum = i_cg + total * (float(c @ c) * np.eye(3) - np.outer(c, c))

@@ -269,7 +269,7 @@ class _Items:
             if item.rotate:
                 r = rotation_matrix(item.rotate)
                 own[i] = r @ own[i] @ r.T
-        return items, ItemArrays(mass, quantity, cg, own, variable)
+        return items, ItemArrays(mass, quantity, np.asfortranarray(cg), own, variable)
 
     def _inertia(self, i: int, raw: object, given: dict | None) -> tuple:
         if type(raw) is not dict:

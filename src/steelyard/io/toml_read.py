@@ -12,9 +12,13 @@ import tomllib
 
 from ..core.errors import FormatError
 
+import os
+
 try:  # optional speed-up, see pyproject's "fast" extra
     import rtoml as _rtoml
 except ImportError:  # pragma: no cover - exercised where rtoml is absent
+    _rtoml = None
+if os.environ.get("STEELYARD_TOML") == "tomllib":  # benchmarks and bug hunts
     _rtoml = None
 
 PARSER = "rtoml" if _rtoml is not None else "tomllib"

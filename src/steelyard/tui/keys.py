@@ -1,0 +1,69 @@
+"""Every key of the editor in one table: the App's bindings and the help screen read it.
+
+Plain letters work on the main screen (the table has focus); ctrl keys work
+everywhere. No binding needs ctrl+arrow, so terminals and tmux setups that
+send those differently lose nothing.
+"""
+
+from __future__ import annotations
+
+from textual.binding import Binding
+
+#: (keys, action, label in the footer, shown in the footer, help text)
+MAIN_KEYS: tuple[tuple[str, str, str, bool, str], ...] = (
+    ("f1,question_mark", "help", "Help", True, "this help: every key"),
+    ("ctrl+s", "save", "Save", True, "save the ledger (atomic; asks if the file changed on disk)"),
+    ("W", "save_as", "Save as", False, "save under another name"),
+    ("ctrl+o,O", "open", "Open", False, "open another ledger file"),
+    ("ctrl+q", "quit", "Quit", True, "quit (asks when there is unsaved work)"),
+    ("a,insert", "add", "Add", True, "add an item (form)"),
+    ("e", "edit", "Edit", True, "edit the item under the cursor (form; Enter works too)"),
+    ("d", "duplicate", "Duplicate", False, "duplicate the item under the cursor"),
+    ("delete,x", "delete", "Delete", False, "delete the item under the cursor (asks first)"),
+    ("m", "move", "Move", False, "move the item under the cursor to another group"),
+    ("ctrl+z,u", "undo", "Undo", True, "undo the last change (any number of steps)"),
+    ("ctrl+y,U", "redo", "Redo", False, "redo the change undone last"),
+    ("L", "loadout", "Loadout", True, "choose the loadout and edit its amounts"),
+    ("t", "units", "Units", True, "switch display units: file units, SI, US customary"),
+    ("slash,f", "filter", "Filter", False, "filter items by text in id, name or group (Esc clears)"),
+    ("s", "sort", "Sort", False, "sort by the next column (file order, id, name, ..., moment)"),
+    ("S", "reverse_sort", "Reverse", False, "reverse the sort order"),
+    ("g", "grouped", "Groups", False, "group rows with subtotals, or a flat list"),
+    ("minus", "fold_all(True)", "Fold all", False, "fold every group"),
+    ("plus,equals_sign", "fold_all(False)", "Unfold all", False, "unfold every group"),
+    ("1", "view('ledger')", "Ledger", False, "show the ledger table"),
+    ("2", "view('totals')", "Totals", False, "show totals: mass, CG, inertia, principal axes"),
+    ("3", "view('envelopes')", "Envelopes", False, "show envelope status, chart and caution"),
+    ("4", "view('log')", "Log", False, "show the change log"),
+    ("n", "envelope(1)", "Next envelope", False, "chart the next envelope (envelopes view)"),
+    ("p", "envelope(-1)", "Previous envelope", False, "chart the previous envelope (envelopes view)"),
+)
+
+#: keys handled by the widgets themselves, for the help screen only
+TABLE_KEYS = (
+    ("up / k, down / j", "move the cursor"),
+    ("page up, page down, home, end", "move by a page, to the first or last row"),
+    ("left / h, right / l", "scroll the table sideways"),
+    ("enter", "edit the item, or fold / unfold the group"),
+    ("space", "fold / unfold the group under the cursor"),
+)
+FORM_KEYS = (
+    ("tab, shift+tab", "next / previous field"),
+    ("enter", "apply the change (only when every field is valid)"),
+    ("escape", "cancel: nothing is changed"),
+)
+OTHER_KEYS = (
+    ("ctrl+p", "command palette: every main action by name"),
+    ("escape", "close a dialog, or leave the filter"),
+)
+
+
+def main_bindings() -> list[Binding]:
+    return [Binding(keys, action, label, show=show, tooltip=text)
+            for keys, action, label, show, text in MAIN_KEYS]
+
+
+def pretty_keys(keys: str) -> str:
+    names = {"question_mark": "?", "slash": "/", "minus": "-", "plus": "+", "equals_sign": "=",
+             "delete": "Del", "insert": "Ins"}
+    return " / ".join(names.get(k, k) for k in keys.split(","))

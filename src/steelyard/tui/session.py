@@ -1,0 +1,219 @@
+"""One editing session on one ledger: history, loadout, units, file and lock.
+
+No widgets here: the App asks the session for numbers and tells it what the
+user did, so every rule (what is unsaved, what may be written, who holds the
+file) can be tested without a terminal. Numbers come from core; files and
+locks from io.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+
+from ..core.changes import Change, History, ledger_with_log, log_from_ledger
+from ..core.display import DisplayUnits
+from ..core.errors import SteelyardError
+from ..core.loadout import State, resolve
+from ..core.model import Ledger
+from ..core.rollup import MassProperties, rollup_state
+from ..core.status import EnvelopeResult, envelope_results
+from ..io.ledger_file import LoadedLedger, save_ledger
+from ..io.lock import Lock, LockInfo, Locked, acquire, is_stale, take_over, who_am_i
+
+#: display unit systems the units key cycles through (None: the file's own)
+UNIT_SYSTEMS: tuple[str | None, ...] = (None, "si", "us")
+
+
+@dataclass(frozen=True)
+class Totals:
+    """Everything the panels show for one ledger under one loadout."""
+
+    loadout: str | None
+    state: State | None
+    mp: MassProperties | None
+    envelopes: tuple[EnvelopeResult, ...]
+    error: str | None = None  # why the loadout cannot be applied
+
+
+def compute_totals(ledger: Ledger, loadout: str | None) -> Totals:
+    """Roll-up and envelope status from core; a loadout problem becomes `error`."""
+    try:
+        state = resolve(ledger, loadout)
+    except SteelyardError as exc:
+        return Totals(loadout, None, None, (), str(exc))
+    mp = rollup_state(state)
+    return Totals(loadout, state, mp, tuple(envelope_results(ledger, mp)))
+
+
+class Session:
+    """State of the editor between keystrokes."""
+
+    def __init__(self, ledger: Ledger, *, loaded: LoadedLedger | None = None, path: str | None = None,
+                 demo: bool = False, author: str | None = None):
+        self.history = History(ledger, log=log_from_ledger(ledger))
+        self.loaded = loaded
+        self.path = path if path is not None else (loaded.path if loaded and not demo else None)
+        self.demo = demo
+        self.author = author or who_am_i()
+        self.saved: Ledger | None = None if demo or loaded is None else self.history.ledger
+        self.loadout: str | None = None
+        self.system: str | None = None
+        self.lock: Lock | None = None
+        self.holder: LockInfo | None = None  # who holds the file when we are read-only
+        self._cache: tuple[Ledger, str | None, Totals] | None = None
+
+    # ---------------------------------------------------------------- state
+    @property
+    def ledger(self) -> Ledger:
+        return self.history.ledger
+
+    @property
+    def dirty(self) -> bool:
+        """Unsaved work: the ledger is not the object last read or written."""
+        return self.ledger is not self.saved
+
+    @property
+    def read_only(self) -> bool:
+        return self.holder is not None
+
+    @property
+    def units(self) -> DisplayUnits:
+        return DisplayUnits.choose(self.ledger.units, self.system)
+
+    @property
+    def name(self) -> str:
+        if self.path:
+            return os.path.basename(self.path)
+        return "demo ledger" if self.demo else "new ledger"
+
+    def title(self) -> str:
+        """Window title: file name, then what is special about it."""
+        marks = []
+        if self.dirty:
+            marks.append("unsaved changes")
+        if self.demo and not self.path:
+            marks.append("copy of the demo")
+        if self.read_only:
+            h = self.holder
+            marks.append(f"read-only, locked by {h.user}@{h.host}")
+        return f"{'* ' if self.dirty else ''}{self.name}" + (f" ({'; '.join(marks)})" if marks else "")
+
+    def totals(self) -> Totals:
+        c = self._cache
+        if c is not None and c[0] is self.ledger and c[1] == self.loadout:
+            return c[2]
+        t = compute_totals(self.ledger, self.loadout)
+        self._cache = (self.ledger, self.loadout, t)
+        return t
+
+    def totals_for(self, ledger: Ledger) -> Totals:
+        return compute_totals(ledger, self.loadout)
+
+    def other_points(self) -> list[tuple[str, MassProperties]]:
+        """Roll-ups of the loadouts that are not active (for the chart)."""
+        out = []
+        for lo in self.ledger.loadouts:
+            if lo.name == self.loadout:
+                continue
+            t = compute_totals(self.ledger, lo.name)
+            if t.mp is not None and t.mp.mass > 0:
+                out.append((lo.name, t.mp))
+        return out
+
+    def set_loadout(self, name: str | None) -> None:
+        if name is not None:
+            self.ledger.loadout(name)  # KeyError for a name that is not there
+        self.loadout = name
+
+    def cycle_units(self) -> str | None:
+        k = UNIT_SYSTEMS.index(self.system)
+        self.system = UNIT_SYSTEMS[(k + 1) % len(UNIT_SYSTEMS)]
+        return self.system
+
+    # -------------------------------------------------------------- editing
+    def check_writable(self) -> None:
+        if self.read_only:
+            h = self.holder
+            raise SteelyardError(f"read-only: {h.user}@{h.host} is editing this file; "
+                                 "use Save as to keep your work elsewhere", file=self.path)
+
+    def apply(self, new_ledger: Ledger, *, action: str, item: str | None, summary: str) -> Change:
+        self.check_writable()
+        return self.history.apply(new_ledger, action=action, item=item, summary=summary,
+                                  loadout=self.loadout, author=self.author)
+
+    def undo(self) -> Change | None:
+        self.check_writable()
+        return self.history.undo()
+
+    def redo(self) -> Change | None:
+        self.check_writable()
+        return self.history.redo()
+
+    # ---------------------------------------------------------------- files
+    def save(self, path: str | None = None, *, allow_comment_loss: bool = False,
+             overwrite_changed: bool = False) -> str:
+        """Write the ledger and its change log atomically; returns the path written.
+
+        Raises ChangedOnDisk / CommentsWouldBeLost (from io) for the caller to
+        ask about, and SteelyardError when there is nowhere to save yet.
+        """
+        target = path or self.path
+        if target is None:
+            raise SteelyardError("no file yet: choose where to save (Save as)")
+        same = self.path is not None and os.path.realpath(target) == os.path.realpath(self.path)
+        new_lock = None
+        if same:
+            self.check_writable()
+        else:
+            try:
+                new_lock = acquire(target)
+            except Locked as exc:
+                i = exc.info
+                raise SteelyardError(f"{i.user}@{i.host} is editing that file; choose another name",
+                                     file=target) from None
+        ledger = self.ledger
+        try:
+            record = save_ledger(target, ledger_with_log(ledger, self.history.log),
+                                 loaded=self.loaded if same else None,
+                                 allow_comment_loss=allow_comment_loss, overwrite_changed=overwrite_changed)
+        except BaseException:
+            if new_lock is not None:
+                new_lock.release()
+            raise
+        self.loaded = record
+        self.saved = ledger
+        if new_lock is not None:
+            self.release_lock()
+            self.lock, self.holder, self.path, self.demo = new_lock, None, target, False
+        return target
+
+    # ----------------------------------------------------------------- lock
+    def claim_lock(self) -> LockInfo | None:
+        """Take the file's lock; on refusal go read-only and return who holds it."""
+        if self.path is None or self.lock is not None:
+            return None
+        try:
+            self.lock = acquire(self.path)
+        except Locked as exc:
+            self.holder = exc.info
+            return exc.info
+        self.holder = None
+        return None
+
+    def lock_is_stale(self) -> bool:
+        return self.holder is not None and is_stale(self.holder)
+
+    def take_over_lock(self) -> None:
+        if self.holder is None or self.path is None:
+            return
+        self.lock = take_over(self.path, self.holder)
+        self.holder = None
+
+    def release_lock(self) -> None:
+        if self.lock is not None:
+            try:
+                self.lock.release()
+            finally:
+                self.lock = None

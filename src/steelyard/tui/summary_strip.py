@@ -1,0 +1,54 @@
+"""The few lines under the ledger: total mass, CG and every envelope's status.
+
+They repaint on every edit, so an engineer sees the totals move without
+leaving the table. The caution sits here too, because envelope status does.
+"""
+
+from __future__ import annotations
+
+import time
+
+from rich.text import Text
+from textual.widgets import Static
+
+from ..core.caution import CAUTION
+from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from ..core.model import Frame
+from .session import Totals
+from .shown import envelope_line
+from .text import clean
+
+
+class SummaryStrip(Static):
+    def __init__(self, **kw) -> None:
+        super().__init__("", **kw)
+        self.painted_at: float | None = None
+
+    def show(self, totals: Totals, frame: Frame, du: DisplayUnits) -> None:
+        t = Text(no_wrap=False)
+        name = "none (variable items empty)" if totals.loadout is None else clean(totals.loadout)
+        if totals.error is not None:
+            t.append("Loadout cannot be applied: ", style="bold")
+            t.append(clean(totals.error))
+            self.update(t)
+            return
+        mp = totals.mp
+        lu = pretty_unit(du.length)
+        t.append("Mass ", style="bold")
+        t.append(f"{fmt(du.m(mp.mass))} {pretty_unit(du.mass)}")
+        t.append("  CG ", style="bold")
+        t.append("  ".join(f"{AXIS_NAMES[k]} {fmt(du.l(mp.cg[k]))} (+{frame.direction(k)})"
+                           for k in range(3)) + f" {lu}")
+        t.append("\nLoadout ", style="bold")
+        t.append(name)
+        for r in totals.envelopes:
+            t.append("\n")
+            t.append(clean(envelope_line(r, frame, du)))
+        if totals.envelopes:
+            t.append("\n")
+            t.append(CAUTION, style="italic")
+        self.update(t)
+
+    def render(self):
+        self.painted_at = time.perf_counter()
+        return super().render()

@@ -1,0 +1,79 @@
+"""The totals view: mass, CG with axis directions, %MAC, inertia, principal axes.
+
+Every number is from core's roll-up; this module only lays them out in the
+chosen display units and says which way each axis points.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from rich.text import Text
+from textual.containers import VerticalScroll
+from textual.widgets import Static
+
+from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from ..core.mac import percent_mac
+from ..core.model import Ledger
+from .session import Totals
+from .shown import axis_label, unit_label
+from .text import clean
+
+
+def mac_reference(ledger: Ledger) -> tuple[float, float] | None:
+    """(LEMAC station, MAC length) in metres when the ledger defines a MAC.
+
+    Seam: the file key for the MAC is defined by another issue; a ledger that
+    carries a `mac` attribute with `lemac` and `length` (SI) lights this up.
+    """
+    ref = getattr(ledger, "mac", None)
+    if ref is None:
+        return None
+    return float(ref.lemac), float(ref.length)
+
+
+def totals_text(totals: Totals, ledger: Ledger, du: DisplayUnits, system: str | None) -> Text:
+    t = Text()
+    mu, lu, iu = pretty_unit(du.mass), pretty_unit(du.length), pretty_unit(du.inertia)
+    lo = "none (variable items empty)" if totals.loadout is None else clean(totals.loadout)
+    t.append("Loadout: ", style="bold")
+    t.append(f"{lo}    ")
+    t.append("Units: ", style="bold")
+    t.append(unit_label(du, system) + "\n\n")
+    if totals.error is not None:
+        t.append("This loadout cannot be applied: " + clean(totals.error))
+        return t
+    mp = totals.mp
+    t.append("Mass ", style="bold")
+    t.append(f"{fmt(du.m(mp.mass))} {mu}\n\n")
+    t.append(f"CG (from the datum) [{lu}]\n", style="bold")
+    for k in range(3):
+        t.append(f"  {axis_label(ledger.frame, k):<28} {fmt(du.l(mp.cg[k])):>14}\n")
+    ref = mac_reference(ledger)
+    if ref is not None and np.isfinite(mp.cg[0]):
+        t.append(f"  {'CG in %MAC':<28} {fmt(percent_mac(mp.cg[0], *ref), 2):>14} %\n")
+    t.append(f"\nInertia about the CG [{iu}] (tensor; off-diagonals are minus the products)\n", style="bold")
+    t.append("      " + "".join(f"{a:>15}" for a in AXIS_NAMES) + "\n")
+    for r, a in enumerate(AXIS_NAMES):
+        t.append(f"  {a}   " + "".join(f"{fmt(du.i(mp.inertia_cg[r, c])):>15}" for c in range(3)) + "\n")
+    p = mp.inertia_cg
+    t.append(f"\nProducts of inertia [{iu}]: ", style="bold")
+    t.append(f"∫xy dm {fmt(du.i(-p[0, 1]))}   ∫xz dm {fmt(du.i(-p[0, 2]))}   ∫yz dm {fmt(du.i(-p[1, 2]))}\n")
+    if mp.mass > 0:
+        moments, axes = mp.principal
+        t.append(f"\nPrincipal moments [{iu}] and axes (unit vectors, body axes)\n", style="bold")
+        for k in range(3):
+            rg = np.sqrt(max(moments[k], 0.0) / mp.mass)
+            t.append(f"  I{k + 1} {fmt(du.i(moments[k])):>15}   axis "
+                     + " ".join(f"{v:+.4f}" for v in axes[k])
+                     + f"   radius of gyration {fmt(du.l(rg))} {lu}\n")
+    t.append("\nFrame: right-handed, origin at the datum; products of inertia are ∫xy dm about the CG.",
+             style="dim")
+    return t
+
+
+class TotalsPanel(VerticalScroll):
+    def compose(self):
+        yield Static("", id="totals-text")
+
+    def show(self, totals: Totals, ledger: Ledger, du: DisplayUnits, system: str | None) -> None:
+        self.query_one("#totals-text", Static).update(totals_text(totals, ledger, du, system))
