@@ -226,6 +226,10 @@ def test_evaluate_raises_steelyard_error_for_bad_polygon_and_shapes():
         evaluate([(0, 1), (1, 2), (1, 1), (0, 2)], [0.5], [1.5])
     with pytest.raises(SteelyardError):
         evaluate(DESIGN_EXAMPLE, [2.8, 2.9], [400.0])
+    with pytest.raises(SteelyardError):
+        evaluate(DESIGN_EXAMPLE, ["aft"], [400.0])
+    with pytest.raises(SteelyardError, match="pairs"):
+        evaluate([1.0, 2.0, 3.0], [2.8], [400.0])
 
 
 # ----------------------------------------------------------------------------- exact cases

@@ -137,6 +137,11 @@ def test_bad_numbers_raise_steelyard_errors():
         add_mass(10.0, math.nan, 1.0, 2.0)
     with pytest.raises(SteelyardError):
         payload_remaining([], None, 10.0, 1.0, 2.0)
+    with pytest.raises(SteelyardError):
+        payload_remaining([TAKEOFF], None, 400.0, "fwd", 2.9)
+    with pytest.raises(SteelyardError, match="one per envelope"):
+        payload_remaining([TAKEOFF], None, 400.0, [2.9, 0.0], 2.9)
+    assert payload_remaining([], 500.0, 400.0, 2.9, 3.0) == pytest.approx(100.0)  # max mass only
     err = pytest.raises(SteelyardError, ballast_for_limit, 10.0, 1.0, 2.0, 2.0).value
     assert "\n" not in str(err)
 

@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import numpy as np
+from rich import box
 from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
 from ..core.caution import CAUTION
-from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from ..core.display import AXIS_NAMES, DisplayUnits, fmt, fmt_sig, pretty_unit
 from ..core.groups import subtotals
 from ..core.status import envelope_results
 
@@ -22,15 +23,16 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
     ledger = loaded.ledger
     du = DisplayUnits.choose(ledger.units, system)
     mu, lu, iu = pretty_unit(du.mass), pretty_unit(du.length), pretty_unit(du.inertia)
+    dl, dm, dmo = du.decimals("length"), du.decimals("mass"), du.decimals("moment")
     title = f"Roll-up of {loaded.path} — loadout: {state.name or '(none: variable items empty)'}"
     console.print(Text(title, style="bold"))
 
     t = Table(title="Totals", title_justify="left", show_header=True)
     t.add_column("quantity")
     t.add_column("value", justify="right")
-    t.add_row(f"mass [{mu}]", fmt(du.m(mp.mass)))
+    t.add_row(f"mass [{mu}]", fmt(du.m(mp.mass), dm))
     for k in range(3):
-        t.add_row(f"CG {_axis_label(ledger.frame, k, du.length)}", fmt(du.l(mp.cg[k])))
+        t.add_row(f"CG {_axis_label(ledger.frame, k, du.length)}", fmt(du.l(mp.cg[k]), dl + 1))
     console.print(t)
 
     it = Table(title=f"Inertia about the CG [{iu}] (tensor; off-diagonals are minus the products)",
@@ -39,11 +41,11 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
     for a in AXIS_NAMES:
         it.add_column(a, justify="right")
     for r, a in enumerate(AXIS_NAMES):
-        it.add_row(a, *(fmt(du.i(mp.inertia_cg[r, c])) for c in range(3)))
+        it.add_row(a, *(fmt_sig(du.i(mp.inertia_cg[r, c])) for c in range(3)))
     console.print(it)
     p = mp.inertia_cg
     console.print(Text(f"Products of inertia ∫xy dm, ∫xz dm, ∫yz dm [{iu}]: "
-                       f"{fmt(du.i(-p[0, 1]))}, {fmt(du.i(-p[0, 2]))}, {fmt(du.i(-p[1, 2]))}"))
+                       f"{fmt_sig(du.i(-p[0, 1]))}, {fmt_sig(du.i(-p[0, 2]))}, {fmt_sig(du.i(-p[1, 2]))}"))
     if mp.mass > 0:
         moments, axes = mp.principal
         pt = Table(title=f"Principal moments [{iu}] and axes (unit vectors in body axes)", title_justify="left")
@@ -51,40 +53,48 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
             pt.add_column(col, justify="right")
         for k in range(3):
             rg = np.sqrt(max(moments[k], 0.0) / mp.mass)
-            pt.add_row(fmt(du.i(moments[k])), *(f"{v:+.5f}" for v in axes[k]), fmt(du.l(rg)))
+            pt.add_row(fmt_sig(du.i(moments[k])), *(f"{v:+.5f}" for v in axes[k]), fmt(du.l(rg), dl))
         console.print(pt)
 
     groups = [g for g in ledger.items]
     st = subtotals([g.group for g in groups], state.mass, state.cg, state.own)
     if st:
-        ws = Table(title="Weight statement by group", title_justify="left")
-        ws.add_column("group")
-        ws.add_column("items", justify="right")
-        ws.add_column(f"mass [{mu}]", justify="right")
-        ws.add_column("% of total", justify="right")
-        for k in range(3):
-            ws.add_column(f"{AXIS_NAMES[k]} [{lu}]", justify="right")
-        ws.add_column(f"moment x [{pretty_unit(du.moment)}]", justify="right")
+        ws = Table(title="Weight statement by group", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
+        wide = console.width >= 100  # item count and share only where they fit
+        heads = (*(("items",) if wide else ()), f"mass [{mu}]", *(("%",) if wide else ()),
+                 *(f"{a} [{lu}]" for a in AXIS_NAMES), f"moment [{pretty_unit(du.moment)}]")
+        widths = [max(len(h), 7) for h in heads]
+        room = console.width - sum(widths) - 3 * len(heads) - 4  # padding and separators
+        ws.add_column("group", no_wrap=True, width=max(8, min(30, room)), overflow="ellipsis")
+        for head, w in zip(heads, widths):
+            ws.add_column(head, justify="right", no_wrap=True, min_width=w)
         for g in st:
             label = "  " * g.depth + g.path.rsplit("/", 1)[-1]
             share = 100.0 * g.mass / mp.mass if mp.mass > 0 else float("nan")
-            ws.add_row(Text(label), str(g.count), fmt(du.m(g.mass)), fmt(share, 1),
-                       *(fmt(du.l(g.cg[k])) for k in range(3)), fmt(du.mom(g.mass * g.cg[0]) if g.mass else 0.0))
-        ws.add_row(Text("total", style="bold"), str(len(groups)), fmt(du.m(mp.mass)), fmt(100.0, 1),
-                   *(fmt(du.l(mp.cg[k])) for k in range(3)), fmt(du.mom(mp.mass * mp.cg[0])))
+            ws.add_row(Text(label), *((str(g.count),) if wide else ()), fmt(du.m(g.mass), dm),
+                       *((fmt(share, 1),) if wide else ()), *(fmt(du.l(g.cg[k]), dl) for k in range(3)),
+                       fmt(du.mom(g.mass * g.cg[0]) if g.mass else 0.0, dmo))
+        ws.add_row(Text("total", style="bold"), *((str(len(groups)),) if wide else ()), fmt(du.m(mp.mass), dm),
+                   *((fmt(100.0, 1),) if wide else ()), *(fmt(du.l(mp.cg[k]), dl) for k in range(3)),
+                   fmt(du.mom(mp.mass * mp.cg[0]), dmo))
         console.print(ws)
 
     results = envelope_results(ledger, mp)
     if results:
-        et = Table(title="CG envelopes", title_justify="left")
-        for col in ("envelope", "axis", "status", f"CG [{lu}]", f"allowed [{lu}]", f"margin [{lu}]",
-                    f"mass margin [{mu}]"):
-            et.add_column(col, justify="left" if col in ("envelope", "axis", "status") else "right")
+        et = Table(title="CG envelopes", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
+        heads = ("axis", "status", f"CG [{lu}]", f"allowed [{lu}]", f"margin [{lu}]", f"+mass [{mu}]")
+        widths = [4, 7, max(len(heads[2]), 7), max(len(heads[3]), 2 * dl + 9), max(len(heads[4]), 7),
+                  max(len(heads[5]), 7)]
+        room = console.width - sum(widths) - 3 * len(heads) - 4  # padding and separators
+        et.add_column("envelope", no_wrap=True, width=max(8, min(24, room)), overflow="ellipsis")
+        for head, w in zip(heads, widths):
+            et.add_column(head, justify="left" if head in ("axis", "status") else "right", no_wrap=True,
+                          min_width=w)
         for r in results:
-            allowed = "outside mass range" if r.limits is None else f"{fmt(du.l(r.lo))} … {fmt(du.l(r.hi))}"
+            allowed = "off range" if r.limits is None else f"{fmt(du.l(r.lo), dl)}…{fmt(du.l(r.hi), dl)}"
             status = "INSIDE" if r.inside else "OUTSIDE"
-            et.add_row(Text(r.name), r.axis, status, fmt(du.l(r.cg)), allowed,
-                       fmt(None if r.margin is None else du.l(r.margin)),
-                       fmt(None if r.mass_margin is None else du.m(r.mass_margin)))
+            et.add_row(Text(r.name), r.axis, status, fmt(du.l(r.cg), dl), allowed,
+                       fmt(None if r.margin is None else du.l(r.margin), dl),
+                       fmt(None if r.mass_margin is None else du.m(r.mass_margin), dm))
         console.print(et)
         console.print(Text(CAUTION, style="italic"))

@@ -6,6 +6,7 @@ in SI or US customary on request. Pure: it formats, it never prints.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from .model import FileUnits
@@ -33,6 +34,14 @@ class DisplayUnits:
     def moment(self) -> str:
         return f"{self.mass}*{self.length}"
 
+    def decimals(self, dimension: str) -> int:
+        """Decimals that resolve about 0.25 mm, 5 g and 1e-4 kg·m² in this unit (common practice)."""
+        unit, res = {"length": (self.length, 2.5e-4), "mass": (self.mass, 5e-3),
+                     "inertia": (self.inertia, 1e-4), "moment": (None, 1e-3)}[dimension]
+        factor = (unit_factor(unit, dimension) if unit else
+                  unit_factor(self.mass, "mass") * unit_factor(self.length, "length"))
+        return max(0, min(6, round(-math.log10(res / factor))))
+
     def m(self, kg: float) -> float:
         return kg / unit_factor(self.mass, "mass")
 
@@ -52,12 +61,25 @@ def pretty_unit(unit: str) -> str:
 
 
 def fmt(x: float | None, digits: int = 4) -> str:
-    """A number for a table: fixed decimals scaled to its size, '—' for none."""
+    """A number for a table with `digits` decimals and thousands separators; '—' for none."""
     if x is None or x != x:
         return "—"
+    if abs(x) >= 1e12:
+        return f"{x:.4e}"
+    out = f"{x:,.{digits}f}"
+    if out.startswith("-") and not out.strip("-0.,"):
+        out = out[1:]  # no "-0.00"
+    return out
+
+
+def fmt_sig(x: float | None, sig: int = 5) -> str:
+    """A number to `sig` significant figures (inertia spans many decades)."""
+    if x is None or x != x:
+        return "—"
+    if x == 0:
+        return "0"
     ax = abs(x)
-    if ax != 0 and (ax >= 1e7 or ax < 1e-4):
-        return f"{x:.{digits}e}"
-    if ax >= 1000:
-        return f"{x:,.{max(digits - 3, 1)}f}"
-    return f"{x:.{digits}f}"
+    if ax >= 1e9 or ax < 1e-4:
+        return f"{x:.{sig - 1}e}"
+    decimals = max(0, sig - 1 - math.floor(math.log10(ax)))
+    return f"{x:,.{decimals}f}"

@@ -320,8 +320,11 @@ class EnvelopeGeometry:
         return float(self.vertices[:, 0].min()), float(self.vertices[:, 0].max())
 
     def evaluate(self, cg, mass) -> EnvelopeStatus:
-        c = np.atleast_1d(np.asarray(cg, dtype=float))
-        m = np.atleast_1d(np.asarray(mass, dtype=float))
+        try:
+            c = np.atleast_1d(np.asarray(cg, dtype=float))
+            m = np.atleast_1d(np.asarray(mass, dtype=float))
+        except (TypeError, ValueError):
+            raise SteelyardError("cg and mass must be numbers") from None
         if c.ndim != 1 or c.shape != m.shape:
             raise SteelyardError(f"cg and mass must be 1-D and the same length, got shapes "
                                  f"{c.shape} and {m.shape}")

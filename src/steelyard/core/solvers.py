@@ -179,7 +179,10 @@ def ballast_to_enter(points, total_mass, cg, station) -> float:
 
 
 def _per_envelope(name: str, value, n: int) -> np.ndarray:
-    arr = np.asarray(value, dtype=float)
+    try:
+        arr = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise SteelyardError(f"{name} must be a number or one number per envelope", field=name) from None
     if arr.ndim == 0:
         arr = np.full(n, float(arr))
     if arr.shape != (n,):
@@ -211,8 +214,6 @@ def payload_remaining(points_list: Sequence, max_mass, total_mass, cg, station) 
     ss = _per_envelope("station", station, len(geoms))
     for g in geoms:
         cap = min(cap, g.mass_range[1] - w)
-    if cap <= 0 and not geoms:
-        return 0.0
 
     def inside(b: np.ndarray, exact: bool = False) -> np.ndarray:
         ok = np.ones(len(b), bool)
@@ -222,7 +223,8 @@ def payload_remaining(points_list: Sequence, max_mass, total_mass, cg, station) 
 
     if not inside(np.zeros(1))[0] or cap <= 0:
         return 0.0
-    cross = np.concatenate([_edge_crossings(g, w, x, s) for g, x, s in zip(geoms, xs, ss)])
+    cross = np.concatenate([np.empty(0)] + [_edge_crossings(g, w, x, s)
+                                            for g, x, s in zip(geoms, xs, ss)])
     b = _samples(cross, cap)
     v = inside(b, exact=True)
     v[0] = True  # inside within the boundary tolerance, checked above

@@ -52,6 +52,12 @@ FORM_KEYS = (
     ("enter", "apply the change (only when every field is valid)"),
     ("escape", "cancel: nothing is changed"),
 )
+LOADOUT_KEYS = (
+    ("up, down, enter", "choose the loadout to work with (it applies at once)"),
+    ("tab", "go to the amounts of the chosen loadout"),
+    ("enter on an amount", "type a new amount: 0.75 (fraction), 75%, 82 kg, 16 gal; empty = none"),
+    ("escape", "back to the ledger"),
+)
 OTHER_KEYS = (
     ("ctrl+p", "command palette: every main action by name"),
     ("escape", "close a dialog, or leave the filter"),

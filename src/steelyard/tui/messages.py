@@ -1,0 +1,29 @@
+"""Messages the loading and subtotal workers post to the App (from their threads)."""
+
+from __future__ import annotations
+
+from textual.message import Message
+
+
+class LoadProgress(Message):
+    def __init__(self, phase: str, fraction: float | None) -> None:
+        super().__init__()
+        self.phase, self.fraction = phase, fraction
+
+
+class Loaded(Message):
+    def __init__(self, loaded, demo: bool, groups, path: str | None) -> None:
+        super().__init__()
+        self.loaded, self.demo, self.groups, self.path = loaded, demo, groups, path
+
+
+class LoadFailed(Message):
+    def __init__(self, error: str, first: bool) -> None:
+        super().__init__()
+        self.error, self.first = error, first
+
+
+class SubtotalsReady(Message):
+    def __init__(self, ledger, loadout, groups) -> None:
+        super().__init__()
+        self.ledger, self.loadout, self.groups = ledger, loadout, groups
