@@ -169,8 +169,3 @@ class MainScreen(Screen):
     def action_fold_all(self, fold: bool) -> None:
         self.table.fold_all(fold)
         self._status()
-
-    @on(LedgerTable.EditRequested)
-    def _edit(self, event: LedgerTable.EditRequested) -> None:
-        event.stop()
-        self.app.edit_item(event.item_id)

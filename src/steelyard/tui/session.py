@@ -56,7 +56,7 @@ class Session:
         self.path = path if path is not None else (loaded.path if loaded and not demo else None)
         self.demo = demo
         self.author = author or who_am_i()
-        self.saved: Ledger | None = None if demo or loaded is None else self.history.ledger
+        self.saved: Ledger = self.history.ledger  # a demo copy is unsaved only once it is edited
         self.loadout: str | None = None
         self.system: str | None = None
         self.lock: Lock | None = None

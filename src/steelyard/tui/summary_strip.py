@@ -19,35 +19,35 @@ from .shown import envelope_line
 from .text import clean
 
 
+def summary_text(totals: Totals, frame: Frame, du: DisplayUnits) -> Text:
+    t = Text(no_wrap=False)
+    if totals.error is not None:
+        t.append("Loadout cannot be applied: ", style="bold")
+        t.append(clean(totals.error))
+        return t
+    mp = totals.mp
+    lu = pretty_unit(du.length)
+    t.append("Mass ", style="bold")
+    t.append(f"{fmt(du.m(mp.mass))} {pretty_unit(du.mass)}")
+    t.append("  CG ", style="bold")
+    t.append("  ".join(f"{AXIS_NAMES[k]} {fmt(du.l(mp.cg[k]))} (+{frame.direction(k)})"
+                       for k in range(3)) + f" {lu}")
+    for r in totals.envelopes:
+        t.append("\n")
+        t.append(clean(envelope_line(r, frame, du)))
+    if totals.envelopes:
+        t.append("\n")
+        t.append(CAUTION, style="italic")
+    return t
+
+
 class SummaryStrip(Static):
     def __init__(self, **kw) -> None:
         super().__init__("", **kw)
         self.painted_at: float | None = None
 
     def show(self, totals: Totals, frame: Frame, du: DisplayUnits) -> None:
-        t = Text(no_wrap=False)
-        name = "none (variable items empty)" if totals.loadout is None else clean(totals.loadout)
-        if totals.error is not None:
-            t.append("Loadout cannot be applied: ", style="bold")
-            t.append(clean(totals.error))
-            self.update(t)
-            return
-        mp = totals.mp
-        lu = pretty_unit(du.length)
-        t.append("Mass ", style="bold")
-        t.append(f"{fmt(du.m(mp.mass))} {pretty_unit(du.mass)}")
-        t.append("  CG ", style="bold")
-        t.append("  ".join(f"{AXIS_NAMES[k]} {fmt(du.l(mp.cg[k]))} (+{frame.direction(k)})"
-                           for k in range(3)) + f" {lu}")
-        t.append("\nLoadout ", style="bold")
-        t.append(name)
-        for r in totals.envelopes:
-            t.append("\n")
-            t.append(clean(envelope_line(r, frame, du)))
-        if totals.envelopes:
-            t.append("\n")
-            t.append(CAUTION, style="italic")
-        self.update(t)
+        self.update(summary_text(totals, frame, du))
 
     def render(self):
         self.painted_at = time.perf_counter()
