@@ -174,11 +174,7 @@ def test_apply_records_author_time_action_and_fields():
 def test_undo_is_bit_identical_and_redo_returns():
     h = History(LEDGER)
     start = totals(LEDGER, "half")
-    steps = [
-        _edit(LEDGER, "motor", mass=12.2500001),
-        None, None,
-    ]
-    l1 = steps[0]
+    l1 = _edit(LEDGER, "motor", mass=12.2500001)
     h.apply(l1, action="edit", item="motor", summary="s1", loadout="half", author="a")
     l2 = l1.with_item(Item("ballast", 2.0 / 3.0, (5.123456789, 0.0, 0.1)))
     h.apply(l2, action="add", item="ballast", summary="s2", loadout="half", author="a")

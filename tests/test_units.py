@@ -69,3 +69,29 @@ def test_boolean_is_not_a_mass():
 def test_unit_factor_rejects_wrong_dimension():
     with pytest.raises(UnitError, match="not a mass unit"):
         unit_factor("m", "mass")
+
+
+def test_exact_table_agrees_with_pint():
+    # The fast table of common units must give exactly what pint (exact rationals) gives.
+    from fractions import Fraction
+
+    from steelyard.core.units import DIMENSIONS, EXACT, registry
+
+    reg = registry()
+    for unit, (dim, factor) in EXACT.items():
+        q = reg.Quantity(Fraction(1), unit)
+        assert q.dimensionality == reg.get_dimensionality(DIMENSIONS[dim][0]), unit
+        assert Fraction(q.to(DIMENSIONS[dim][1]).magnitude) == factor, unit
+
+
+def test_fast_string_path_matches_pint():
+    # reference: pint with exact rational factors
+    from fractions import Fraction
+
+    from steelyard.core.units import registry
+
+    si = {"mass": "kg", "length": "m", "density": "kg/m**3", "volume": "m**3", "inertia": "kg*m**2"}
+    for text, dim in [("41.5 lb", "mass"), ("122 in", "length"), ("-3.25e-2 ft", "length"),
+                      ("6 lb/gal", "density"), ("30 gal", "volume"), ("0.8 slug*ft**2", "inertia")]:
+        q = registry().parse_expression(text)
+        assert parse_quantity(text, dim) == float(Fraction(q.to(si[dim]).magnitude)), text

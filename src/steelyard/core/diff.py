@@ -341,7 +341,7 @@ def _rank(a: Carried, b: Carried, kinds: list[str], ids: list[str], ra: np.ndarr
         moment = (m_b[:, None] * np.where(has_b[:, None], r_b - c, 0.0)
                   - m_a[:, None] * np.where(has_a[:, None], r_a - c, 0.0))
         shift = moment / new_m[:, None]
-    undefined = ~(big_m > 0) | ~(new_m > 0)
+    undefined = ~(new_m > 0) if big_m > 0 else np.ones(k, bool)
     shift[undefined] = np.nan
     norm = np.sqrt((shift * shift).sum(axis=1))
     key = np.where(np.isnan(norm), -1.0, norm)

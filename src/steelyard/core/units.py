@@ -4,6 +4,10 @@ Pint parses a unit string in tens of microseconds, far too slow to do per
 field on a 100,000-item file. So: a file's bare numbers are converted in bulk
 with one cached factor per (unit, dimension), and a value written as a string
 with its unit ("41.5 lb") is parsed once per distinct string (cached).
+
+Building the registry itself takes about half a second, so it is built only
+when a unit outside the table of common exact factors below is met; a test
+checks every table entry against pint.
 """
 
 from __future__ import annotations
@@ -17,10 +21,45 @@ import pint
 
 from .errors import UnitError
 
-# Exact rational conversion factors: 1 lb is exactly 0.45359237 kg (NIST SP 811),
-# and chains such as slug*ft**2 stay exact until the final rounding to float.
-ureg = pint.UnitRegistry(non_int_type=Fraction)
-Q_ = ureg.Quantity
+_REGISTRY: pint.UnitRegistry | None = None
+
+
+def registry() -> pint.UnitRegistry:
+    """The one registry, built on first use. Its factors are exact rationals: 1 lb is
+    exactly 0.45359237 kg (NIST SP 811), and chains such as slug*ft**2 stay exact
+    until the final rounding to float."""
+    global _REGISTRY
+    if _REGISTRY is None:
+        _REGISTRY = pint.UnitRegistry(non_int_type=Fraction)
+    return _REGISTRY
+
+
+def __getattr__(name: str):  # `from .units import ureg, Q_` builds the registry lazily
+    if name == "ureg":
+        return registry()
+    if name == "Q_":
+        return registry().Quantity
+    raise AttributeError(name)
+
+
+_LB = Fraction("0.45359237")  # NIST SP 811, exact
+_IN = Fraction("0.0254")  # NIST SP 811, exact
+_FT = 12 * _IN
+_SLUG = _LB * Fraction("9.80665") / _FT  # lbf·s²/ft
+_GAL = 231 * _IN**3  # US gallon
+#: unit text -> (dimension, exact SI factor); each entry is checked against pint in the tests
+EXACT: dict[str, tuple[str, Fraction]] = {
+    "kg": ("mass", Fraction(1)), "g": ("mass", Fraction(1, 1000)), "t": ("mass", Fraction(1000)),
+    "lb": ("mass", _LB), "oz": ("mass", _LB / 16), "slug": ("mass", _SLUG),
+    "m": ("length", Fraction(1)), "mm": ("length", Fraction(1, 1000)), "cm": ("length", Fraction(1, 100)),
+    "in": ("length", _IN), "ft": ("length", _FT),
+    "kg*m**2": ("inertia", Fraction(1)), "kg*mm**2": ("inertia", Fraction(1, 10**6)),
+    "g*cm**2": ("inertia", Fraction(1, 10**7)), "lb*in**2": ("inertia", _LB * _IN**2),
+    "lb*ft**2": ("inertia", _LB * _FT**2), "slug*ft**2": ("inertia", _SLUG * _FT**2),
+    "m**3": ("volume", Fraction(1)), "L": ("volume", Fraction(1, 1000)), "gal": ("volume", _GAL),
+    "kg/m**3": ("density", Fraction(1)), "kg/L": ("density", Fraction(1000)), "lb/gal": ("density", _LB / _GAL),
+}
+_SIMPLE = re.compile(r"^\s*([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z*/0-9]+)\s*$")
 
 #: dimension name -> (pint dimensionality, SI unit string)
 DIMENSIONS: dict[str, tuple[str, str]] = {
@@ -47,7 +86,7 @@ _TERM = re.compile(rf"\s*({_NUMBER})\s*([A-Za-z_][A-Za-z_0-9*/^ ]*?)\s*(?=$|{_NU
 
 def _dimensionality(dimension: str):
     try:
-        return ureg.get_dimensionality(DIMENSIONS[dimension][0])
+        return registry().get_dimensionality(DIMENSIONS[dimension][0])
     except KeyError:  # programming error, not user input
         raise ValueError(f"unknown dimension {dimension!r}") from None
 
@@ -60,8 +99,13 @@ def unit_factor(unit: str, dimension: str) -> float:
     """
     if not isinstance(unit, str) or not unit.strip():
         raise UnitError(f"unit must be a non-empty string, got {unit!r}")
+    known = EXACT.get(unit.replace(" ", ""))
+    if known is not None:
+        if known[0] != dimension:
+            raise UnitError(f"unit {unit!r} is not a {dimension} unit")
+        return float(known[1])
     try:
-        q = Q_(Fraction(1), unit)
+        q = registry().Quantity(Fraction(1), unit)
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError) as exc:
         raise UnitError(f"unknown unit {unit!r}") from exc
     except Exception as exc:  # pint raises assorted errors on odd strings
@@ -83,6 +127,15 @@ def parse_quantity(text: str, dimension: str) -> float:
     s = text.strip()
     if not s:
         raise UnitError("empty value")
+    simple = _SIMPLE.match(s)
+    if simple and simple.group(2) in EXACT:
+        dim, factor = EXACT[simple.group(2)]
+        if dim != dimension:
+            raise UnitError(f"{text!r} is not a {dimension}")
+        try:
+            return _finite(float(Fraction(simple.group(1)) * factor), text)
+        except OverflowError:
+            raise UnitError(f"{text!r} is too large to represent") from None
     terms = _TERM.findall(s)
     if len(terms) > 1 and "".join(f"{n}{u}" for n, u in terms).replace(" ", "") == s.replace(" ", ""):
         # "3 ft 2 in": a sum of terms of one dimension
@@ -91,7 +144,7 @@ def parse_quantity(text: str, dimension: str) -> float:
             total += float(number) * unit_factor(unit.strip(), dimension)
         return _finite(total, text)
     try:
-        q = ureg.parse_expression(s)
+        q = registry().parse_expression(s)
     except Exception as exc:
         raise UnitError(f"cannot read {text!r} as a {dimension}") from exc
     if not isinstance(q, pint.Quantity):

@@ -24,7 +24,7 @@ import pint
 
 from .errors import SteelyardError, UnitError, item_subject
 from .model import FileUnits, Item, Ledger
-from .units import DIMENSIONS, to_si, ureg
+from .units import DIMENSIONS, registry, to_si
 
 #: standard gravity, m/s^2 (NIST SP 811, exact): turns a force reading into mass
 G_N = 9.80665
@@ -168,10 +168,10 @@ def _load(value: object, unit: str, subject: str, field: str) -> float:
     except UnitError as exc:
         if isinstance(value, str):
             try:
-                q = ureg.parse_expression(value)
+                q = registry().parse_expression(value)
             except Exception:
                 q = None
-            if isinstance(q, pint.Quantity) and q.dimensionality == ureg.newton.dimensionality:
+            if isinstance(q, pint.Quantity) and q.dimensionality == registry().newton.dimensionality:
                 return float(q.to("newton").magnitude) / G_N
         raise exc.located(subject=subject, field=field)
 

@@ -216,6 +216,7 @@ class _Items:
         q_l = quantity.tolist()
         six_rows: list[int] = []
         six_vals: list[list[float]] = []
+        fast_six = self._bulk_inertia()
         for i, it in enumerate(raw):
             ident = ids[i]
             g = given[i]
@@ -235,7 +236,9 @@ class _Items:
                     raise self.fail(i, "inertia", "give inertia or shape, not both")
                 if g is None:
                     g = given[i] = {}
-                inertia = self._inertia(i, it["inertia"], g)
+                inertia = fast_six.get(i)
+                if inertia is None:
+                    inertia = self._inertia(i, it["inertia"], g)
                 six_rows.append(i)
                 six_vals.append(list(inertia))
             if "shape" in it:
@@ -270,6 +273,25 @@ class _Items:
                 r = rotation_matrix(item.rotate)
                 own[i] = r @ own[i] @ r.T
         return items, ItemArrays(mass, quantity, np.asfortranarray(cg), own, variable)
+
+    def _bulk_inertia(self) -> dict[int, tuple]:
+        """Inertia tables of bare numbers with xx, yy, zz present, converted in one array pass."""
+        rows, values = [], []
+        keys = set(COMPONENTS)
+        for i, it in enumerate(self.raw):
+            t = it.get("inertia") if type(it) is dict else None
+            if type(t) is not dict or "xx" not in t or "yy" not in t or "zz" not in t or not keys.issuperset(t):
+                continue
+            v = [t.get(k, 0.0) for k in COMPONENTS]
+            if all(type(x) is float or type(x) is int for x in v):
+                rows.append(i)
+                values.append(v)
+        if not rows:
+            return {}
+        with np.errstate(over="ignore", invalid="ignore"):
+            si = np.array(values, dtype=float) * unit_factor(self.units.inertia, "inertia")
+        finite = np.all(np.isfinite(si), axis=1)
+        return {i: tuple(row) for i, row, ok in zip(rows, si.tolist(), finite.tolist()) if ok}
 
     def _inertia(self, i: int, raw: object, given: dict | None) -> tuple:
         if type(raw) is not dict:

@@ -361,7 +361,7 @@ class EnvelopeChart(Widget):
         if self._cache is not None and self._cache[0] == key:
             return self._cache[1]
         base = self.visual_style.rich_style
-        styles = [base] + [base + self.get_component_rich_style(c, partial=True) for c in _COMPONENTS[1:]]
+        styles = [base] + [base + self.get_component_rich_style(c) for c in _COMPONENTS[1:]]
         strips = []
         picture = _Picture(width, height, self._data)
         for i, runs in enumerate(picture.rows()):

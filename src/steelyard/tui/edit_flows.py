@@ -25,14 +25,13 @@ from .text import clean
 class EditFlows:
     """Needs `self.session` and `self.refresh_views()` from the App."""
 
-    def _ready(self, *, write: bool = True) -> bool:
+    def _may_edit(self, *, write: bool = True) -> bool:
         s = self.session
         if s is None:
             return False
         if write and s.read_only:
-            h = s.holder
-            self.notify(f"Read-only: {clean(h.user)}@{clean(h.host)} holds this file. Use Save as (W) to keep "
-                        "your work elsewhere.", severity="warning", markup=False)
+            self.notify(f"Read-only: {clean(s.read_only_reason())}. Use Save as (W) to keep your work "
+                        "elsewhere.", severity="warning", markup=False)
             return False
         return True
 
@@ -54,7 +53,7 @@ class EditFlows:
 
     # ------------------------------------------------------------ the form
     def action_add(self) -> None:
-        if self._ready():
+        if self._may_edit():
             self.push_screen(ItemForm(self.session.ledger, None, self._preview), self._form_done)
 
     def action_edit(self) -> None:
@@ -63,7 +62,7 @@ class EditFlows:
             self.edit_item(item_id)
 
     def edit_item(self, item_id: str) -> None:
-        if self._ready():
+        if self._may_edit():
             item = self.session.ledger.item(item_id)
             self.push_screen(ItemForm(self.session.ledger, item, self._preview), self._form_done)
 
@@ -79,14 +78,14 @@ class EditFlows:
     # ------------------------------------------------------ other item edits
     def action_duplicate(self) -> None:
         item_id = self._current()
-        if item_id is None or not self._ready():
+        if item_id is None or not self._may_edit():
             return
         new, copy = duplicate_item(self.session.ledger, item_id)
         self._apply(new, action="duplicate", item=copy.id, summary=f"duplicated {item_id} as {copy.id}")
 
     def action_delete(self) -> None:
         item_id = self._current()
-        if item_id is None or not self._ready():
+        if item_id is None or not self._may_edit():
             return
 
         def done(answer: str | None) -> None:
@@ -99,7 +98,7 @@ class EditFlows:
 
     def action_move(self) -> None:
         item_id = self._current()
-        if item_id is None or not self._ready():
+        if item_id is None or not self._may_edit():
             return
         old = self.session.ledger.item(item_id).group
 
@@ -114,14 +113,14 @@ class EditFlows:
                                     "power/storage; empty for no group"), done)
 
     def action_undo(self) -> None:
-        if self._ready():
+        if self._may_edit():
             change = self.session.undo()
             self.notify("nothing to undo" if change is None else f"undid: {change.summary}", markup=False,
                         timeout=3)
             self.refresh_views(focus_item=None if change is None else change.item)
 
     def action_redo(self) -> None:
-        if self._ready():
+        if self._may_edit():
             change = self.session.redo()
             self.notify("nothing to redo" if change is None else f"redid: {change.summary}", markup=False,
                         timeout=3)
@@ -129,7 +128,7 @@ class EditFlows:
 
     # ------------------------------------------------------ loadouts, units
     def action_loadout(self) -> None:
-        if self._ready(write=False):
+        if self._may_edit(write=False):
             s = self.session
             self.push_screen(LoadoutScreen(s.ledger, s.loadout, s.units, self._summary()))
 
@@ -145,7 +144,7 @@ class EditFlows:
         self.refresh_views()
 
     def on_loadout_screen_amount_set(self, event: LoadoutScreen.AmountSet) -> None:
-        if not self._ready():
+        if not self._may_edit():
             return
         new = set_amount(self.session.ledger, event.loadout, event.item_id, event.amount)
         self._apply(new, action="amount", item=event.item_id,
@@ -158,7 +157,7 @@ class EditFlows:
             screen.show(s.ledger, s.loadout, s.units, self._summary())
 
     def action_units(self) -> None:
-        if self._ready(write=False):
+        if self._may_edit(write=False):
             self.session.cycle_units()
             self.refresh_views()
 

@@ -86,9 +86,9 @@ class EnvelopePanel(Vertical):
         if totals.mp is not None and totals.mp.mass > 0 and np.isfinite(totals.mp.cg[k]):
             point = (du.l(float(totals.mp.cg[k])), du.m(totals.mp.mass))
         other = [(clean(name), du.l(float(mp.cg[k])), du.m(mp.mass)) for name, mp in others]
-        more = " (n / p: next / previous envelope)" if len(ledger.envelopes) > 1 else ""
-        choice.update(Text(f"Chart: {clean(env.name)}", style="bold") + Text(
-            f" — this loadout and the other loadouts{more}"))
+        more = f" ({self.choice + 1} of {len(ledger.envelopes)}; n / p: next / previous)" if len(
+            ledger.envelopes) > 1 else ""
+        choice.update(Text(f"Chart: {clean(env.name)}", style="bold") + Text(more, style="dim"))
         chart.set_data(polygon, point, other, path, worst,
                        x_label=f"CG {axis_label(ledger.frame, k)} [{pretty_unit(du.length)}]",
                        y_label=f"mass [{pretty_unit(du.mass)}]")

@@ -44,7 +44,7 @@ def _fit(text: str, width: int, right: bool = False) -> str:
 
 
 def _num(x: float, width: int) -> str:
-    for digits in (4, 3, 2, 1, 0):
+    for digits in (3, 2, 1, 0):
         text = fmt(x, digits)
         if len(text) <= width:
             return text
@@ -165,22 +165,24 @@ class LedgerTable(ScrollView, can_focus=True):
 
     # ---------------------------------------------------------------- layout
     def columns(self) -> list[Column]:
-        width = max(self.size.width, 40)
+        width = max(self.scrollable_content_region.width, 40)
         du = self.du
         mu = pretty_unit(du.mass) if du else ""
         lu = pretty_unit(du.length) if du else ""
         show_group = not self.spec.grouped or width >= 110
-        fixed = [Column("qty", "qty", 5), Column("mass", f"mass {mu}", 10), Column("x", f"x {lu}", 9),
-                 Column("y", f"y {lu}", 8), Column("z", f"z {lu}", 8), Column("moment", "moment x", 11)]
-        used = sum(c.width + 1 for c in fixed) + 13 + (15 if show_group else 0) + 1
-        name_w = max(10, width - used)
+        fixed = [Column("qty", "qty", 4), Column("mass", f"mass {mu}", 9), Column("x", f"x {lu}", 8),
+                 Column("y", f"y {lu}", 7), Column("z", f"z {lu}", 7), Column("moment", "moment", 10)]
+        group_w = 14 if show_group else 0
+        seps = len(fixed) + (3 if show_group else 2) - 1
+        name_w = max(10, width - 12 - group_w - sum(c.width for c in fixed) - seps)
         cols = [Column("id", "id", 12, False), Column("name", "name", name_w, False)]
         if show_group:
-            cols.append(Column("group", "group", 14, False))
+            cols.append(Column("group", "group", group_w, False))
         return cols + fixed
 
     def _total_width(self) -> int:
-        return sum(c.width + 1 for c in self.columns())
+        cols = self.columns()
+        return sum(c.width for c in cols) + len(cols) - 1
 
     def on_resize(self) -> None:
         self.virtual_size = Size(self._total_width(), len(self.rows) + 1)

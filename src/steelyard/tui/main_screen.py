@@ -18,7 +18,7 @@ from .envelope_panel import EnvelopePanel
 from .keys import MAIN_KEYS
 from .ledger_table import LedgerTable
 from .log_view import LogView
-from .shown import unit_label
+from .shown import short_units
 from .summary_strip import SummaryStrip
 from .text import clean
 from .totals_panel import TotalsPanel
@@ -99,8 +99,8 @@ class MainScreen(Screen):
         spec = self.table.spec
         lo = "none" if s.loadout is None else clean(s.loadout)
         sort = SORT_WORDS.get(spec.sort, spec.sort) + (" (reversed)" if spec.descending else "")
-        parts = [f"loadout {lo}", unit_label(s.units, s.system), f"sort {sort}",
-                 "grouped" if spec.grouped else "flat list", f"{len(self.table.rows)} rows"]
+        parts = [f"loadout {lo}", short_units(s.units, s.system), sort,
+                 "grouped" if spec.grouped else "flat", f"{len(self.table.rows)} rows"]
         if spec.filter:
             parts.append(f"filter '{clean(spec.filter)}'")
         if s.read_only:

@@ -19,7 +19,7 @@ from ..core.model import Ledger
 from ..core.rollup import MassProperties, rollup_state
 from ..core.status import EnvelopeResult, envelope_results
 from ..io.ledger_file import LoadedLedger, save_ledger
-from ..io.lock import Lock, LockInfo, Locked, acquire, is_stale, take_over, who_am_i
+from ..io.lock import Lock, LockInfo, Locked, LockUnavailable, acquire, is_stale, take_over, who_am_i
 
 #: display unit systems the units key cycles through (None: the file's own)
 UNIT_SYSTEMS: tuple[str | None, ...] = (None, "si", "us")
@@ -61,6 +61,7 @@ class Session:
         self.system: str | None = None
         self.lock: Lock | None = None
         self.holder: LockInfo | None = None  # who holds the file when we are read-only
+        self.no_lock: str | None = None  # why no lock could be made (a read-only folder)
         self._cache: tuple[Ledger, str | None, Totals] | None = None
 
     # ---------------------------------------------------------------- state
@@ -75,7 +76,13 @@ class Session:
 
     @property
     def read_only(self) -> bool:
-        return self.holder is not None
+        return self.holder is not None or self.no_lock is not None
+
+    def read_only_reason(self) -> str:
+        if self.holder is not None:
+            h = self.holder
+            return f"{h.user}@{h.host} is editing this file"
+        return self.no_lock or ""
 
     @property
     def units(self) -> DisplayUnits:
@@ -94,9 +101,10 @@ class Session:
             marks.append("unsaved changes")
         if self.demo and not self.path:
             marks.append("copy of the demo")
-        if self.read_only:
-            h = self.holder
-            marks.append(f"read-only, locked by {h.user}@{h.host}")
+        if self.holder is not None:
+            marks.append(f"read-only, locked by {self.holder.user}@{self.holder.host}")
+        elif self.no_lock is not None:
+            marks.append("read-only")
         return f"{'* ' if self.dirty else ''}{self.name}" + (f" ({'; '.join(marks)})" if marks else "")
 
     def totals(self) -> Totals:
@@ -134,9 +142,8 @@ class Session:
     # -------------------------------------------------------------- editing
     def check_writable(self) -> None:
         if self.read_only:
-            h = self.holder
-            raise SteelyardError(f"read-only: {h.user}@{h.host} is editing this file; "
-                                 "use Save as to keep your work elsewhere", file=self.path)
+            raise SteelyardError(f"read-only: {self.read_only_reason()}; use Save as to keep your work "
+                                 "elsewhere", file=self.path)
 
     def apply(self, new_ledger: Ledger, *, action: str, item: str | None, summary: str) -> Change:
         self.check_writable()
@@ -173,6 +180,8 @@ class Session:
                 i = exc.info
                 raise SteelyardError(f"{i.user}@{i.host} is editing that file; choose another name",
                                      file=target) from None
+            except LockUnavailable as exc:
+                raise SteelyardError(f"cannot save there: {exc.message}", file=target) from None
         ledger = self.ledger
         try:
             record = save_ledger(target, ledger_with_log(ledger, self.history.log),
@@ -186,7 +195,7 @@ class Session:
         self.saved = ledger
         if new_lock is not None:
             self.release_lock()
-            self.lock, self.holder, self.path, self.demo = new_lock, None, target, False
+            self.lock, self.holder, self.no_lock, self.path, self.demo = new_lock, None, None, target, False
         return target
 
     # ----------------------------------------------------------------- lock
@@ -199,16 +208,20 @@ class Session:
         except Locked as exc:
             self.holder = exc.info
             return exc.info
-        self.holder = None
+        except LockUnavailable as exc:
+            self.no_lock = exc.message
+            return None
+        self.holder = self.no_lock = None
         return None
 
     def lock_is_stale(self) -> bool:
         return self.holder is not None and is_stale(self.holder)
 
-    def take_over_lock(self) -> None:
+    def take_over_lock(self, *, force: bool = False) -> None:
+        """Replace the holder's lock with ours (stale, or `force` when the user chose so)."""
         if self.holder is None or self.path is None:
             return
-        self.lock = take_over(self.path, self.holder)
+        self.lock = take_over(self.path, self.holder, force=force)
         self.holder = None
 
     def release_lock(self) -> None:

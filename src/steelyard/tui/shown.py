@@ -22,6 +22,10 @@ def axis_label(frame: Frame, k: int) -> str:
     return f"{AXIS_NAMES[k]} (+{frame.direction(k)}{word})"
 
 
+#: the caution in one line, for places with room for one line (the full text is on the envelopes view)
+SHORT_CAUTION = "Planning aid only; loading decisions rest on approved weight & balance data."
+
+
 def unit_label(du: DisplayUnits, system: str | None) -> str:
     name = {None: "file units", "si": "SI", "us": "US customary"}[system]
     return f"{name}: {pretty_unit(du.mass)}, {pretty_unit(du.length)}, {pretty_unit(du.inertia)}"
@@ -62,9 +66,14 @@ def margin_words(r: EnvelopeResult, frame: Frame, du: DisplayUnits) -> str:
     if r.margin is None or side is None:
         return "no CG limits at this mass"
     amount = f"{fmt(du.l(abs(r.margin)))} {lu}"
-    return f"{amount} to the {side} limit" if r.margin >= 0 else f"{amount} past the {side} limit"
+    return f"{amount} to {side} limit" if r.margin >= 0 else f"{amount} PAST {side} limit"
 
 
 def envelope_line(r: EnvelopeResult, frame: Frame, du: DisplayUnits) -> str:
-    """One line per envelope for the ledger view's summary."""
-    return f"{r.name}: {status_word(r)}, {margin_words(r, frame, du)}"
+    """One envelope in a few words for the ledger view's summary."""
+    return f"{r.name} {status_word(r)} {margin_words(r, frame, du)}"
+
+
+def short_units(du: DisplayUnits, system: str | None) -> str:
+    name = {None: "file", "si": "SI", "us": "US"}[system]
+    return f"{pretty_unit(du.mass)}, {pretty_unit(du.length)} ({name})"

@@ -15,29 +15,28 @@ from ..core.caution import CAUTION
 from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from ..core.model import Frame
 from .session import Totals
-from .shown import envelope_line
+from .shown import SHORT_CAUTION, envelope_line
 from .text import clean
 
 
-def summary_text(totals: Totals, frame: Frame, du: DisplayUnits) -> Text:
+def summary_text(totals: Totals, frame: Frame, du: DisplayUnits, width: int = 78) -> Text:
     t = Text(no_wrap=False)
     if totals.error is not None:
         t.append("Loadout cannot be applied: ", style="bold")
         t.append(clean(totals.error))
         return t
     mp = totals.mp
-    lu = pretty_unit(du.length)
     t.append("Mass ", style="bold")
     t.append(f"{fmt(du.m(mp.mass))} {pretty_unit(du.mass)}")
-    t.append("  CG ", style="bold")
-    t.append("  ".join(f"{AXIS_NAMES[k]} {fmt(du.l(mp.cg[k]))} (+{frame.direction(k)})"
-                       for k in range(3)) + f" {lu}")
-    for r in totals.envelopes:
-        t.append("\n")
-        t.append(clean(envelope_line(r, frame, du)))
+    t.append(f"  CG [{pretty_unit(du.length)}] ", style="bold")
+    t.append("  ".join(f"{AXIS_NAMES[k]} {fmt(du.l(mp.cg[k]))} {frame.direction(k)}" for k in range(3)))
+    lines = [clean(envelope_line(r, frame, du)) for r in totals.envelopes]
+    joined = " │ ".join(lines)
+    for line in ([joined] if len(joined) <= width else lines):
+        t.append("\n" + line)
     if totals.envelopes:
         t.append("\n")
-        t.append(CAUTION, style="italic")
+        t.append(CAUTION if width >= 2 * len(CAUTION) else SHORT_CAUTION, style="italic")
     return t
 
 
@@ -47,7 +46,7 @@ class SummaryStrip(Static):
         self.painted_at: float | None = None
 
     def show(self, totals: Totals, frame: Frame, du: DisplayUnits) -> None:
-        self.update(summary_text(totals, frame, du))
+        self.update(summary_text(totals, frame, du, max(40, self.size.width - 2)))
 
     def render(self):
         self.painted_at = time.perf_counter()

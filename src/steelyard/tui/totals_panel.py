@@ -52,20 +52,19 @@ def totals_text(totals: Totals, ledger: Ledger, du: DisplayUnits, system: str | 
     if ref is not None and np.isfinite(mp.cg[0]):
         t.append(f"  {'CG in %MAC':<28} {fmt(percent_mac(mp.cg[0], *ref), 2):>14} %\n")
     t.append(f"\nInertia about the CG [{iu}] (tensor; off-diagonals are minus the products)\n", style="bold")
-    t.append("      " + "".join(f"{a:>15}" for a in AXIS_NAMES) + "\n")
+    t.append("     " + "".join(f"{a:>17}" for a in AXIS_NAMES) + "\n")
     for r, a in enumerate(AXIS_NAMES):
-        t.append(f"  {a}   " + "".join(f"{fmt(du.i(mp.inertia_cg[r, c])):>15}" for c in range(3)) + "\n")
+        t.append(f"  {a}  " + "".join(f"{fmt(du.i(mp.inertia_cg[r, c])):>17}" for c in range(3)) + "\n")
     p = mp.inertia_cg
-    t.append(f"\nProducts of inertia [{iu}]: ", style="bold")
-    t.append(f"∫xy dm {fmt(du.i(-p[0, 1]))}   ∫xz dm {fmt(du.i(-p[0, 2]))}   ∫yz dm {fmt(du.i(-p[1, 2]))}\n")
+    t.append(f"\nProducts of inertia about the CG [{iu}]\n", style="bold")
+    t.append(f"  ∫xy dm {fmt(du.i(-p[0, 1]))}   ∫xz dm {fmt(du.i(-p[0, 2]))}   ∫yz dm {fmt(du.i(-p[1, 2]))}\n")
     if mp.mass > 0:
         moments, axes = mp.principal
-        t.append(f"\nPrincipal moments [{iu}] and axes (unit vectors, body axes)\n", style="bold")
+        t.append(f"\nPrincipal moments [{iu}], axes (body), radius of gyration k [{lu}]\n", style="bold")
         for k in range(3):
             rg = np.sqrt(max(moments[k], 0.0) / mp.mass)
-            t.append(f"  I{k + 1} {fmt(du.i(moments[k])):>15}   axis "
-                     + " ".join(f"{v:+.4f}" for v in axes[k])
-                     + f"   radius of gyration {fmt(du.l(rg))} {lu}\n")
+            t.append(f"  I{k + 1} {fmt(du.i(moments[k])):>16}  axis ("
+                     + ", ".join(f"{v:+.4f}" for v in axes[k]) + f")  k {fmt(du.l(rg))}\n")
     t.append("\nFrame: right-handed, origin at the datum; products of inertia are ∫xy dm about the CG.",
              style="dim")
     return t

@@ -1,0 +1,109 @@
+"""The steelyard full-screen editor: wiring only.
+
+The main screen shows the numbers, the session holds the state, the flows
+(`file_flows`, `edit_flows`) turn keys into dialogs and edits. This module
+connects them: what happens after a change (repaint, fresh group subtotals
+in a worker thread, the title) and the command palette's entries.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+
+from textual import work
+from textual.app import App, SystemCommand
+from textual.screen import Screen
+
+from .edit_flows import EditFlows
+from .file_flows import FileFlows, groups_of
+from .main_screen import MainScreen
+from .messages import SubtotalsReady
+from .session import Session
+
+#: (title, help, action) for the command palette (ctrl+p)
+PALETTE = (
+    ("Add item", "add an item with the form", "add"),
+    ("Edit item", "edit the item under the cursor", "edit"),
+    ("Duplicate item", "copy the item under the cursor", "duplicate"),
+    ("Delete item", "delete the item under the cursor", "delete"),
+    ("Move item to group", "put the item under the cursor in another group", "move"),
+    ("Undo", "undo the last change", "undo"),
+    ("Redo", "redo the last undone change", "redo"),
+    ("Save", "save the ledger", "save"),
+    ("Save as", "save the ledger under another name", "save_as"),
+    ("Open ledger", "open another ledger file", "open"),
+    ("Loadout", "choose the loadout, edit amounts", "loadout"),
+    ("Switch units", "file units, SI, US customary", "units"),
+    ("Show ledger", "the item table", "view:ledger"),
+    ("Show totals", "mass, CG, inertia, principal axes", "view:totals"),
+    ("Show envelopes", "envelope status, chart and caution", "view:envelopes"),
+    ("Show change log", "who changed what, and its effect", "view:log"),
+    ("Filter items", "filter the table by text", "view-action:filter"),
+    ("Sort", "sort the table by the next column", "view-action:sort"),
+    ("Help: keys", "every key of the editor", "help"),
+)
+
+
+class SteelyardApp(FileFlows, EditFlows, App[int]):
+    CSS_PATH = "app.tcss"
+    TITLE = "steelyard"
+    SUB_TITLE = "steelyard"
+
+    def __init__(self, path: str | None = None) -> None:
+        super().__init__()
+        self.path = path  # None: the bundled demo, opened as an unsaved copy
+        self.session: Session | None = None
+
+    def get_default_screen(self) -> Screen:
+        return MainScreen()
+
+    @property
+    def main(self) -> MainScreen:
+        return self.screen_stack[0]
+
+    def on_mount(self) -> None:
+        self.title = "loading…"
+        self.start_load(self.path, first=True)
+
+    # ----------------------------------------------------------- repainting
+    def refresh_views(self, groups=None, focus_item: str | None = None) -> None:
+        """Push the session's numbers to every view, then refresh group subtotals off-thread."""
+        s = self.session
+        if s is None:
+            return
+        self.main.show(s, groups)
+        if focus_item is not None and focus_item in s.ledger.index:
+            self.main.table.go_to_item(focus_item)
+        self.update_title()
+        self.after_refresh_loadout()
+        if groups is None:
+            self._subtotals_worker(s.ledger, s.loadout, s.totals().state)
+
+    def update_title(self) -> None:
+        if self.session is not None:
+            self.title = self.session.title()
+
+    @work(thread=True, exclusive=True, group="subtotals")
+    def _subtotals_worker(self, ledger, loadout, state) -> None:
+        self.post_message(SubtotalsReady(ledger, loadout, groups_of(ledger, state)))
+
+    def on_subtotals_ready(self, message: SubtotalsReady) -> None:
+        s = self.session
+        if s is not None and message.ledger is s.ledger and message.loadout == s.loadout:
+            self.main.show(s, message.groups)
+
+    # ------------------------------------------------------- command palette
+    def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
+        yield from super().get_system_commands(screen)
+        for title, text, action in PALETTE:
+            yield SystemCommand(title, text, self._palette_callback(action))
+
+    def _palette_callback(self, action: str):
+        def run() -> None:
+            if action.startswith("view:"):
+                self.main.action_view(action[5:])
+            elif action.startswith("view-action:"):
+                getattr(self.main, f"action_{action[12:]}")()
+            else:
+                getattr(self, f"action_{action}")()
+        return run
