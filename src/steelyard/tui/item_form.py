@@ -87,7 +87,7 @@ class ItemForm(ModalScreen[FormResult | None]):
 
     async def on_mount(self) -> None:
         await self._shape_inputs(self.start["kind"])
-        self.query_one(fid("id") if self.original is None else fid("mass"), Input).focus()
+        self.query_one("#" + fid("id" if self.original is None else "mass"), Input).focus()
         self.check()
 
     async def _shape_inputs(self, kind: str) -> None:
