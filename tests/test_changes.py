@@ -301,7 +301,7 @@ def test_change_must_be_an_array_of_tables():
 
 
 def test_toml_datetime_is_accepted_as_time():
-    text = ledger_to_toml(LEDGER) + "\n[[change]]\ntime = 2026-05-04T09:12:33Z\nauthor = \"a\"\naction = \"edit\"\n" \
-        "d_mass_kg = 0.0\nd_cg_m = [0.0, 0.0, 0.0]\n"
+    text = (ledger_to_toml(LEDGER) + "\n[[change]]\ntime = 2026-05-04T09:12:33Z\nauthor = \"a\"\n"
+            "action = \"edit\"\nd_mass_kg = 0.0\nd_cg_m = [0.0, 0.0, 0.0]\n")
     (c,) = log_from_ledger(ledger_from_data(tomllib.loads(text), source="x"))
     assert c.time == "2026-05-04T09:12:33Z" and c.effect.d_margin == () and c.item is None

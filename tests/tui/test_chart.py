@@ -12,7 +12,7 @@ from shapely.geometry import Point, Polygon
 from textual.app import App, ComposeResult
 from textual.geometry import Region
 
-from steelyard.tui.chart import NO_DATA, OTHER, POINT, WORST, EnvelopeChart
+from steelyard.tui.chart import NO_DATA, OTHER, POINT, TOO_WIDE, WORST, EnvelopeChart
 
 # an invented envelope, [cg mm, mass kg]
 ENVELOPE = np.array([[2700.0, 300.0], [2700.0, 520.0], [2950.0, 650.0], [3200.0, 650.0], [3200.0, 300.0]])
@@ -167,6 +167,14 @@ async def test_degenerate_polygons_do_not_crash(polygon):
         chart.set_data(polygon, (2900.0, 450.0), [], None, None, "CG (mm)", "mass (kg)")
         await pilot.pause()
         assert POINT in "\n".join(screen_lines(chart))
+
+
+async def test_values_beyond_float_range_show_a_message():
+    async with Host().run_test(size=(60, 20)) as pilot:
+        chart = pilot.app.query_one(EnvelopeChart)
+        chart.set_data(np.array([[-1e308, 1.0], [1e308, 2.0], [0.0, 3.0]]), (0.0, 2.0), [], None, None, "x", "m")
+        await pilot.pause()
+        assert TOO_WIDE in "\n".join(screen_lines(chart))
 
 
 async def test_no_data_shows_a_plain_message():

@@ -127,7 +127,8 @@ def _diff(a: dict | None, b: dict | None, keep: str) -> tuple[dict | None, dict 
     return ({**ka, **{k: a[k] for k in keys if k in a}}, {**kb, **{k: b[k] for k in keys if k in b}})
 
 
-def fields_between(before: Ledger, after: Ledger, action: str, item: str | None) -> tuple[dict | None, dict | None]:
+def fields_between(before: Ledger, after: Ledger, action: str,
+                   item: str | None) -> tuple[dict | None, dict | None]:
     """The changed fields of `item` (an item id, or a loadout name for action "loadout")."""
     if item is None:
         return None, None

@@ -16,9 +16,12 @@ numpy columns; only rows that differ are turned into Python dicts.
 
 from __future__ import annotations
 
+import math
+import operator
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
+from itertools import repeat
 
 import numpy as np
 
@@ -56,7 +59,9 @@ def _same(a, b) -> bool:
     if isinstance(a, bool) or isinstance(b, bool) or isinstance(a, str) or isinstance(b, str):
         return type(a) is type(b) and a == b
     if isinstance(a, (int, float)) and isinstance(b, (int, float)):
-        return bool(close(a, b))
+        if a == b or (math.isnan(a) and math.isnan(b)):
+            return True
+        return abs(a - b) <= ULPS * math.ulp(max(abs(a), abs(b)))
     if isinstance(a, (list, tuple)) and isinstance(b, (list, tuple)):
         return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
     if isinstance(a, Mapping) and isinstance(b, Mapping):
@@ -86,6 +91,8 @@ class Carried:
     extras: list[Mapping[str, object]]  # unknown item keys, the snapshot marker taken out
     mp: MassProperties
     row_mass: np.ndarray  # (n,) total carried mass of each row
+    geometry: np.ndarray  # (n,) bool: the item has a shape or turns (compared in Python)
+    has_extra: np.ndarray  # (n,) bool: extras[i] is not empty
 
     @property
     def is_snapshot(self) -> bool:
@@ -129,9 +136,11 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     rows = [i for i, it in enumerate(items) if it.density is not None]
     if rows:
         density[np.array(rows)] = [items[i].density for i in rows]
+    geometry = np.fromiter((it.shape is not None or bool(it.rotate) for it in items), bool, n)
+    has_extra = np.fromiter(map(bool, extras), bool, n)
     return Carried(ledger, loadout, [it.id for it in items], [it.name or it.id for it in items],
                    [it.group for it in items], a.quantity, a.unit_mass * fill, a.cg, six, variable,
-                   capacity, density, extras, rollup_state(state), state.mass)
+                   capacity, density, extras, rollup_state(state), state.mass, geometry, has_extra)
 
 
 # --------------------------------------------------------------------------- results
@@ -281,8 +290,15 @@ def _value(side: Carried, i: int, name: str) -> object:
 # --------------------------------------------------------------------------- comparing
 
 
+def _pick(xs: list, rows: list[int]) -> list:
+    if not rows:
+        return []
+    got = operator.itemgetter(*rows)(xs)
+    return list(got) if len(rows) > 1 else [got]
+
+
 def _strings_differ(xs: list[str], ys: list[str], ia: list[int], ib: list[int]) -> np.ndarray:
-    return np.fromiter((xs[i] != ys[j] for i, j in zip(ia, ib)), bool, len(ia))
+    return np.fromiter(map(operator.ne, _pick(xs, ia), _pick(ys, ib)), bool, len(ia))
 
 
 def _item_masks(a: Carried, b: Carried, ia: np.ndarray, ib: np.ndarray) -> dict[str, np.ndarray]:
@@ -302,8 +318,8 @@ def _item_masks(a: Carried, b: Carried, ia: np.ndarray, ib: np.ndarray) -> dict[
     shape = np.zeros(len(ia), bool)
     rotate = np.zeros(len(ia), bool)
     ai, bi = a.ledger.items, b.ledger.items
-    for k, (i, j) in enumerate(zip(la, lb)):
-        x, y = ai[i], bi[j]
+    for k in np.flatnonzero(a.geometry[ia] | b.geometry[ib]).tolist():
+        x, y = ai[la[k]], bi[lb[k]]
         if x.shape is not None or y.shape is not None:
             shape[k] = not _same(_shape(x), _shape(y))
         if x.rotate or y.rotate:
@@ -418,17 +434,16 @@ def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> 
     """
     b_index = b.ledger.index
     a_index = a.ledger.index
-    ib_all = np.fromiter((b_index.get(x, -1) for x in a.ids), np.int64, len(a.ids))
-    ia_all = np.fromiter((a_index.get(x, -1) for x in b.ids), np.int64, len(b.ids))
+    ib_all = np.fromiter(map(b_index.get, a.ids, repeat(-1)), np.int64, len(a.ids))
+    ia_all = np.fromiter(map(a_index.get, b.ids, repeat(-1)), np.int64, len(b.ids))
     matched = np.flatnonzero(ib_all >= 0)
     ia, ib = matched, ib_all[matched]
     masks = _item_masks(a, b, ia, ib)
     any_diff = np.zeros(len(ia), bool)
     for name in FIELDS:
         any_diff |= masks[name]
-    extra_rows = [k for k, (i, j) in enumerate(zip(ia.tolist(), ib.tolist())) if a.extras[i] or b.extras[j]]
     extra_fields: dict[int, dict] = {}
-    for k in extra_rows:
+    for k in np.flatnonzero(a.has_extra[ia] | b.has_extra[ib]).tolist():
         ch = _extra_changes(a.extras[ia[k]], b.extras[ib[k]])
         if ch:
             extra_fields[k] = ch

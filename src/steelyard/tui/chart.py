@@ -27,6 +27,7 @@ POINT, OTHER, WORST = "●", "○", "✖"
 EDGE_SAMPLE, PATH_SAMPLE = "⠒⠒⠒", "⠒ ⠒"
 NO_DATA = "No envelope or loading to chart."
 TOO_SMALL = "Chart needs more room."
+TOO_WIDE = "Values too far apart to chart."
 
 # style ids -> component classes
 _PLAIN, _AXIS, _EDGE, _PATH, _OTHER, _WORST, _POINT = range(7)
@@ -175,9 +176,9 @@ class _Picture:
         poly, path = d["polygon"], d["path"]
         point, others = d["point"], d["others"]
         worst = d["worst"] if path is not None and d["worst"] is not None and 0 <= d["worst"] < len(path) else None
-        every = [poly, np.zeros((0, 2)) if path is None else path, np.zeros((0, 2)) if point is None else np.array([point]),
-                 np.array([(x, y) for _, x, y in others]).reshape(-1, 2)]
-        allpts = np.vstack(every)
+        none = np.zeros((0, 2))
+        allpts = np.vstack([poly, none if path is None else path, none if point is None else np.array([point]),
+                            np.array([(x, y) for _, x, y in others]).reshape(-1, 2)])
         if w <= 0 or h <= 0:
             return []
         if len(allpts) == 0:
@@ -198,9 +199,13 @@ class _Picture:
             top, plot_h = 0, plot_h + 1
         lo = np.array([allpts[:, 0].min(), allpts[:, 1].min()])
         hi = np.array([allpts[:, 0].max(), allpts[:, 1].max()])
-        span = hi - lo
-        pad = np.where(span > 0, span * 0.04, np.maximum(np.abs(lo) * 0.05, 1.0))
-        lo, hi = lo - pad, hi + pad
+        with np.errstate(over="ignore", invalid="ignore"):
+            span = hi - lo
+            pad = np.where(span > 0, span * 0.04, np.maximum(np.abs(lo) * 0.05, 1.0))
+            lo, hi = lo - pad, hi + pad
+            finite = np.isfinite(hi - lo).all() and (hi - lo > 0).all()
+        if not finite:
+            return [[(TOO_WIDE, _PLAIN)]] + [[] for _ in range(h - 1)]
         yt, yd = nice_ticks(lo[1], hi[1], max(1, plot_h // 2))
         ylabels = [_fmt(v, yd) for v in yt]
         gutter = min(max((len(s) for s in ylabels), default=1), max(1, w // 3))

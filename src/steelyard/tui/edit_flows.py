@@ -147,7 +147,7 @@ class EditFlows:
         if not self._may_edit():
             return
         new = set_amount(self.session.ledger, event.loadout, event.item_id, event.amount)
-        self._apply(new, action="amount", item=event.item_id,
+        self._apply(new, action="loadout", item=event.loadout,
                     summary=f"{event.loadout}: {event.item_id} set to {amount_text(event.amount)}")
 
     def after_refresh_loadout(self) -> None:

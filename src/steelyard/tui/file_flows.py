@@ -98,7 +98,7 @@ class FileFlows:
         self.refresh_views(groups=message.groups)
         if message.demo:
             self.notify("This is a copy of the demo ledger: Save as (W) writes it where you choose.",
-                        timeout=6)
+                        timeout=6, markup=False)
         elif message.loaded is None:
             self.notify(f"New ledger: {message.path} is written on the first save.", markup=False)
         holder = self.session.claim_lock()
@@ -111,7 +111,7 @@ class FileFlows:
             def answer(choice: str | None) -> None:
                 if choice == "take":
                     self.session.take_over_lock()
-                    self.notify("Lock taken over: you can edit and save.")
+                    self.notify("Lock taken over: you can edit and save.", markup=False)
                 self.update_title()
                 self.refresh_views()
 

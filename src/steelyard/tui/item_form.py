@@ -16,7 +16,7 @@ from textual import on
 from textual.binding import Binding
 from textual.containers import Grid, Horizontal, VerticalScroll
 from textual.screen import ModalScreen
-from textual.widgets import Button, Checkbox, Input, Label, Select, Static
+from textual.widgets import Button, Input, Label, Select, Static
 
 from ..core.display import pretty_unit
 from ..core.errors import SteelyardError
@@ -59,15 +59,15 @@ class ItemForm(ModalScreen[FormResult | None]):
         what = "Add an item" if self.original is None else f"Edit item {clean(self.original.id)}"
         with VerticalScroll(id="form-box"):
             yield Static(Text(what, style="bold") + Text(
-                "   bare numbers are in the file's units; or type a unit: 41.5 lb, 3 ft 2 in", style="dim"),
+                " · plain numbers in file units, or with a unit: 41.5 lb, 3 ft 2 in", style="dim"),
                 id="form-title")
             with Grid(id="form-grid"):
                 for key, label in (("id", "id"), ("name", "name"), ("group", "group"), ("quantity", "quantity"),
                                    ("mass", f"mass [{mu}]"),
-                                   ("density", f"density [{pretty_unit(density_unit(u))}]"), ("x", f"x [{lu}]"),
+                                   ("density", "density"), ("x", f"x [{lu}]"),
                                    ("y", f"y [{lu}]"), ("z", f"z [{lu}]"), ("rotate", "turns")):
-                    yield Label(label, classes="form-label")
-                    placeholder = {"density": "e.g. 6 lb/gal", "rotate": "e.g. z 10, x -5", "group": "e.g. power/storage"}.get(key, "")
+                    yield Label(Text(label), classes="form-label")
+                    placeholder = {"density": f"e.g. 6 lb/gal (plain: {pretty_unit(density_unit(u))})", "rotate": "e.g. z 10, x -5", "group": "e.g. power/storage"}.get(key, "")
                     yield Input(self.start.get(key, ""), id=fid(key), compact=True, placeholder=placeholder)
                 yield Label("shape", classes="form-label")
                 yield Select([(k, k) for k in kinds()], value=self.start["kind"], allow_blank=False,
@@ -75,9 +75,9 @@ class ItemForm(ModalScreen[FormResult | None]):
                 yield Label("axis", classes="form-label")
                 yield Select([(a, a) for a in "xyz"], value=self.start["axis"], allow_blank=False,
                              compact=True, id="f-axis")
-                yield Label("load item", classes="form-label")
-                yield Checkbox("variable (amount set by loadouts)", bool(self.start["variable"]), compact=True,
-                               id="f-variable")
+                yield Label("variable", classes="form-label")
+                yield Select([("no: fixed item", ""), ("yes: amount set by loadouts", "yes")],
+                             value=self.start["variable"], allow_blank=False, compact=True, id="f-variable")
             yield Grid(id="shape-grid")
             yield Static("", id="form-message")
             yield Static("", id="form-preview")
@@ -96,7 +96,7 @@ class ItemForm(ModalScreen[FormResult | None]):
         unit = pretty_unit(self.ledger.units.inertia if kind == GIVEN_INERTIA else self.ledger.units.length)
         widgets = []
         for key, label in shape_fields(kind):
-            widgets.append(Label(f"{label} [{unit}]", classes="form-label"))
+            widgets.append(Label(Text(f"{label} [{unit}]"), classes="form-label"))
             widgets.append(Input(self.values.get(key, ""), id=fid(key), compact=True,
                                  placeholder="a, b, c" if key.endswith("size") or key.endswith("axes") else ""))
         grid.display = bool(widgets)
@@ -108,7 +108,7 @@ class ItemForm(ModalScreen[FormResult | None]):
         out = dict(self.values)
         out["kind"] = str(self.query_one("#f-kind", Select).value)
         out["axis"] = str(self.query_one("#f-axis", Select).value)
-        out["variable"] = "yes" if self.query_one("#f-variable", Checkbox).value else ""
+        out["variable"] = str(self.query_one("#f-variable", Select).value)
         return out
 
     def check(self) -> None:
@@ -161,7 +161,7 @@ class ItemForm(ModalScreen[FormResult | None]):
         self.check()
 
     @on(Select.Changed, "#f-axis")
-    @on(Checkbox.Changed)
+    @on(Select.Changed, "#f-variable")
     def _other(self, event) -> None:
         self.check()
 

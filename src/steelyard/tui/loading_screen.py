@@ -22,6 +22,6 @@ class LoadingScreen(ModalScreen[None]):
             yield ProgressBar(total=100, show_eta=False, id="load-bar")
 
     def progress(self, phase: str, fraction: float | None) -> None:
-        self.query_one("#load-phase", Static).update(clean(phase))
+        self.query_one("#load-phase", Static).update(Text(clean(phase)))
         if fraction is not None:
             self.query_one(ProgressBar).update(progress=round(100 * fraction))

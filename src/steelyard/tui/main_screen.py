@@ -155,7 +155,7 @@ class MainScreen(Screen):
 
     def action_sort(self) -> None:
         key = self.table.cycle_sort()
-        self.notify(f"sorted by {SORT_WORDS.get(key, key)}", timeout=2)
+        self.notify(f"sorted by {SORT_WORDS.get(key, key)}", timeout=2, markup=False)
         self._status()
 
     def action_reverse_sort(self) -> None:

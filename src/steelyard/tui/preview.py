@@ -33,4 +33,5 @@ def preview_text(before: Totals, after: Totals, frame: Frame, du: DisplayUnits) 
             continue
         t.append(f": margin {fmt(du.l(rb.margin))} → {fmt(du.l(ra.margin))} {lu} "
                  f"(Δ {signed(du.l(ra.margin - rb.margin))}) to the {side} limit, {status_word(ra)}\n")
+    t.rstrip()
     return t

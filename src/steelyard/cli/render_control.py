@@ -1,0 +1,108 @@
+"""Mass-properties control tables for the terminal: basic vs predicted, allocations, uncertainty.
+
+The figures come from `steelyard.io.report_control.control_record`, the same
+record the JSON export and the report use; this module only lays them out.
+"""
+
+from __future__ import annotations
+
+from rich.console import Console
+from rich.table import Table
+from rich.text import Text
+
+from ..core.caution import CAUTION
+from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from ..io.report_control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record
+
+__all__ = ["control_record", "print_control"]
+
+
+def _pct(x) -> str:
+    return "—" if x is None else f"{100.0 * x:.1f} %"
+
+
+def _units(ledger, display_units) -> DisplayUnits:
+    if isinstance(display_units, DisplayUnits):
+        return display_units
+    return DisplayUnits.choose(ledger.units, display_units)  # None, "file", "si" or "us"
+
+
+def _growth_table(g: dict, du: DisplayUnits) -> Table:
+    mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
+    t = Table(title="Basic vs predicted (growth allowance)", title_justify="left")
+    t.add_column("group")
+    for col in (f"basic [{mu}]", *(f"basic {a} [{lu}]" for a in AXIS_NAMES), f"growth [{mu}]", "growth",
+                f"predicted [{mu}]", *(f"pred. {a} [{lu}]" for a in AXIS_NAMES)):
+        t.add_column(col, justify="right")
+
+    def row(label, b, style=None):
+        t.add_row(Text(label, style=style), fmt(du.m(b["basic_mass_kg"])),
+                  *(fmt(None if c is None else du.l(c)) for c in b["basic_cg_m"]),
+                  fmt(du.m(b["growth_kg"])), _pct(b["growth_fraction"]), fmt(du.m(b["predicted_mass_kg"])),
+                  *(fmt(None if c is None else du.l(c)) for c in b["predicted_cg_m"]))
+
+    for b in g["groups"]:
+        row(b["group"], b)
+    row("total", g["total"], "bold")
+    return t
+
+
+def _allocation_table(allocations: list, du: DisplayUnits) -> Table:
+    mu = pretty_unit(du.mass)
+    t = Table(title="Allocations (not-to-exceed)", title_justify="left")
+    t.add_column("group")
+    for col in (f"allocation [{mu}]", f"basic [{mu}]", f"predicted [{mu}]", f"margin [{mu}]"):
+        t.add_column(col, justify="right")
+    t.add_column("status")
+    for a in allocations:
+        t.add_row(Text(a["group"] or "(whole vehicle)"), fmt(du.m(a["allocation_kg"])), fmt(du.m(a["basic_kg"])),
+                  fmt(du.m(a["predicted_kg"])), fmt(du.m(a["margin_kg"])),
+                  "within" if a["margin_kg"] >= 0 else "OVER")
+    return t
+
+
+def _uncertainty_tables(q: dict, mass: float, cg, du: DisplayUnits) -> list[Table]:
+    mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
+    t = Table(title="Uncertainty (σ: linear propagation; worst case: Σ|∂|·bound, sigma-kind as 3σ)",
+              title_justify="left")
+    for col in ("quantity", "nominal", "σ", "worst case ±"):
+        t.add_column(col, justify="left" if col == "quantity" else "right")
+    t.add_row(f"mass [{mu}]", fmt(du.m(mass)), fmt(du.m(q["sigma_mass_kg"])), fmt(du.m(q["worst_mass_kg"])))
+    for k, a in enumerate(AXIS_NAMES):
+        t.add_row(f"CG {a} [{lu}]", fmt(du.l(cg[k])), fmt(du.l(q["sigma_cg_m"][k])), fmt(du.l(q["worst_cg_m"][k])))
+    out = [t]
+    mc = q.get("monte_carlo")
+    if mc:
+        e = Table(title=f"Probability outside each envelope (Monte Carlo, {mc['samples']:,} samples, "
+                        f"seed {mc['seed']})", title_justify="left")
+        for col in ("envelope", "axis", "P(outside)", "standard error"):
+            e.add_column(col, justify="left" if col in ("envelope", "axis") else "right")
+        for r in mc["envelopes"]:
+            e.add_row(Text(r["name"]), r["axis"], f"{r['p_outside']:.4f}",
+                      f"{r['std_error']:.4f}" if r["p_outside"] > 0 else f"0 (< {3 / mc['samples']:.1e}, 95 %)")
+        out.append(e)
+    return out
+
+
+def print_control(console: Console, ledger, state, display_units=None, *, samples: int = DEFAULT_SAMPLES,
+                  seed: int = DEFAULT_SEED, record: dict | None = None) -> dict:
+    """Print the control tables of `state`; nothing when the ledger has no growth,
+    allocation or tolerance keys. Returns the record it printed (SI)."""
+    rec = control_record(ledger, state, samples=samples, seed=seed) if record is None else record
+    if not rec:
+        return rec
+    du = _units(ledger, display_units)
+    if rec.get("growth"):
+        console.print(_growth_table(rec["growth"], du))
+    if rec.get("allocations"):
+        console.print(_allocation_table(rec["allocations"], du))
+    q = rec.get("uncertainty")
+    if q:
+        from ..core.rollup import combined_cg
+
+        mass, cg = combined_cg(state.mass, state.cg)
+        for t in _uncertainty_tables(q, mass, cg, du):
+            console.print(t)
+        if q.get("monte_carlo"):
+            console.print(Text(CAUTION, style="italic"))
+    return rec
