@@ -59,7 +59,8 @@ class Side:
         out = {"file": self.path, "loadout": self.loadout if snap is None else snap.loadout,
                "snapshot": snap is not None}
         if snap is not None:
-            out.update(taken=None if snap.taken is None else str(snap.taken), author=snap.author,
+            taken = snap.taken.isoformat() if hasattr(snap.taken, "isoformat") else snap.taken
+            out.update(taken=None if taken is None else str(taken), author=snap.author,
                        content_sha256=snap.content_sha256)
         return out
 
@@ -147,7 +148,8 @@ def run(args) -> int:
         json.dump(diff_record(diff, a.source(), b.source()), sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
     elif diff.identical:
-        print(f"no differences: {a.label} and {b.label} carry the same {len(diff.a.ids):,} items "
+        n = len(diff.a.ids)
+        print(f"no differences: {a.label} and {b.label} carry the same {n:,} item{'s' if n != 1 else ''} "
               "with the same values")
     else:
         from .render_diff import print_diff

@@ -11,6 +11,8 @@ from rich.text import Text
 from ..core.caution import CAUTION
 from ..core.display import AXIS_NAMES, DisplayUnits, fmt, fmt_sig, pretty_unit
 from ..core.groups import subtotals
+from ..core.limits import mac_reference
+from ..core.model import OPPOSITE
 from ..core.status import envelope_results
 
 
@@ -21,6 +23,7 @@ def _axis_label(frame, k: int, length_unit: str) -> str:
 def print_rollup(loaded, state, mp, system: str | None, console: Console | None = None) -> None:
     console = console or Console(highlight=False, markup=False)
     ledger = loaded.ledger
+    mac = mac_reference(ledger)  # read before printing: a bad [mac] is one error line, not half a report
     du = DisplayUnits.choose(ledger.units, system)
     mu, lu, iu = pretty_unit(du.mass), pretty_unit(du.length), pretty_unit(du.inertia)
     dl, dm, dmo = du.decimals("length"), du.decimals("mass"), du.decimals("moment")
@@ -33,6 +36,8 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
     t.add_row(f"mass [{mu}]", fmt(du.m(mp.mass), dm))
     for k in range(3):
         t.add_row(f"CG {_axis_label(ledger.frame, k, du.length)}", fmt(du.l(mp.cg[k]), dl + 1))
+        if k == 0 and mac is not None and np.isfinite(mp.cg[0]):
+            t.add_row("CG x [%MAC]", fmt(float(mac.percent(mp.cg[0])), 2))
     console.print(t)
 
     it = Table(title=f"Inertia about the CG [{iu}] (tensor; off-diagonals are minus the products)",
@@ -81,20 +86,32 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
 
     results = envelope_results(ledger, mp)
     if results:
-        et = Table(title="CG envelopes", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
-        heads = ("axis", "status", f"CG [{lu}]", f"allowed [{lu}]", f"margin [{lu}]", f"+mass [{mu}]")
-        widths = [4, 7, max(len(heads[2]), 7), max(len(heads[3]), 2 * dl + 9), max(len(heads[4]), 7),
-                  max(len(heads[5]), 7)]
-        room = console.width - sum(widths) - 3 * len(heads) - 4  # padding and separators
+        axes = sorted({r.axis for r in results})
+        if len(axes) == 1:  # name the sides as the frame does: fwd / aft on an x axis pointing aft
+            hi_word = ledger.frame.direction("xyz".index(axes[0]))
+            lo_word, how = OPPOSITE[hi_word], ""
+        else:
+            lo_word, hi_word = "low", "high"
+            how = ", low / high: " + ", ".join(
+                f"{a} {OPPOSITE[ledger.frame.direction(k)]}/{ledger.frame.direction(k)}"
+                for k, a in enumerate("xyz") if a in axes)
+        et = Table(title=f"CG envelopes (margin to each limit{how})", title_justify="left", box=box.SIMPLE_HEAD,
+                   pad_edge=False)
+        # the CG itself is in the totals above; here: the allowed range and the room on each side
+        heads = ("status", f"allowed [{lu}]", f"{lo_word} [{lu}]", f"{hi_word} [{lu}]", f"+mass [{mu}]")
+        widths = [7, max(len(heads[1]), 2 * dl + 9), max(len(heads[2]), 6), max(len(heads[3]), 6),
+                  max(len(heads[4]), 7)]
+        room = console.width - sum(widths) - 3 * (len(heads) + 1) + 1  # padding and separators
         et.add_column("envelope", no_wrap=True, width=max(8, min(24, room)), overflow="ellipsis")
         for head, w in zip(heads, widths):
-            et.add_column(head, justify="left" if head in ("axis", "status") else "right", no_wrap=True,
-                          min_width=w)
+            et.add_column(head, justify="left" if head == "status" else "right", no_wrap=True, min_width=w)
         for r in results:
             allowed = "off range" if r.limits is None else f"{fmt(du.l(r.lo), dl)}…{fmt(du.l(r.hi), dl)}"
             status = "INSIDE" if r.inside else "OUTSIDE"
-            et.add_row(Text(r.name), r.axis, status, fmt(du.l(r.cg), dl), allowed,
-                       fmt(None if r.margin is None else du.l(r.margin), dl),
+            name = r.name if len(axes) == 1 else f"{r.name} ({r.axis})"
+            et.add_row(Text(name), status, allowed,
+                       fmt(None if r.margin_lo is None else du.l(r.margin_lo), dl),
+                       fmt(None if r.margin_hi is None else du.l(r.margin_hi), dl),
                        fmt(None if r.mass_margin is None else du.m(r.mass_margin), dm))
         console.print(et)
         console.print(Text(CAUTION, style="italic"))

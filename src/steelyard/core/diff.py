@@ -32,6 +32,7 @@ from .loadout import fill_fractions, state_from_fill
 from .model import Amount, Envelope, Ledger, Loadout
 from .rollup import MassProperties, rollup_state
 from .status import EnvelopeResult, envelope_results
+from .units import unit_factor
 
 #: Equality tolerance for SI numbers, in units in the last place of the larger magnitude.
 ULPS = 8
@@ -261,30 +262,24 @@ def _rotate(item) -> list:
     return [[axis, float(deg)] for axis, deg in item.rotate]
 
 
+_VALUES = {
+    "name": lambda s, i: s.labels[i],
+    "group": lambda s, i: s.groups[i],
+    "quantity": lambda s, i: int(s.quantity[i]),
+    "mass_kg": lambda s, i: float(s.mass[i]),
+    "cg_m": lambda s, i: [float(x) for x in s.cg[i]],
+    "inertia_kg_m2": lambda s, i: _six(s.six[i]),
+    "shape": lambda s, i: _shape(s.ledger.items[i]),
+    "rotate": lambda s, i: _rotate(s.ledger.items[i]),
+    "variable": lambda s, i: bool(s.variable[i]),
+    "capacity_kg": lambda s, i: _num(s.capacity[i]),
+    "density_kg_m3": lambda s, i: _num(s.density[i]),
+}
+
+
 def _value(side: Carried, i: int, name: str) -> object:
-    if name == "name":
-        return side.labels[i]
-    if name == "group":
-        return side.groups[i]
-    if name == "quantity":
-        return int(side.quantity[i])
-    if name == "mass_kg":
-        return float(side.mass[i])
-    if name == "cg_m":
-        return [float(x) for x in side.cg[i]]
-    if name == "inertia_kg_m2":
-        return _six(side.six[i])
-    if name == "shape":
-        return _shape(side.ledger.items[i])
-    if name == "rotate":
-        return _rotate(side.ledger.items[i])
-    if name == "variable":
-        return bool(side.variable[i])
-    if name == "capacity_kg":
-        return _num(side.capacity[i])
-    if name == "density_kg_m3":
-        return _num(side.density[i])
-    raise KeyError(name)  # pragma: no cover - programming error
+    """Field `name` of row i as reported (SI; None where the item gives none)."""
+    return _VALUES[name](side, i)
 
 
 # --------------------------------------------------------------------------- comparing
@@ -488,51 +483,48 @@ def _q(x: float | None, convert, unit: str) -> str:
     return "—" if x is None else f"{fmt(convert(x))} {pretty_unit(unit)}"
 
 
+def _shape_text(s: dict | None, du: DisplayUnits) -> str:
+    if s is None:
+        return "—"
+    lu = pretty_unit(du.length)
+    parts = [s["kind"], f"axis {s['axis']}"]
+    for k, v in s.items():
+        if k not in ("kind", "axis"):
+            size = "×".join(fmt(du.l(x)) for x in v) if isinstance(v, list) else fmt(du.l(v))
+            parts.append(f"{k} {size} {lu}")
+    return ", ".join(parts)
+
+
+def _six_text(t: dict | None, du: DisplayUnits) -> str:
+    if t is None:
+        return "—"
+    return ", ".join(f"{k} {fmt(du.i(v))}" for k, v in t.items()) + f" {pretty_unit(du.inertia)}"
+
+
 def change_rows(name: str, old: object, new: object, du: DisplayUnits) -> list[tuple[str, str, str]]:
     """One changed field as display rows (label, old text, new text), in display units.
 
     A vector or table field gives one row per component that differs, so a
-    screen or a report shows "cg x [in]  99.0000 → 98.5000" rather than two lists.
+    screen or a report shows "cg x  99.0000 in → 98.5000 in" rather than two lists.
     """
     mu, lu, iu = du.mass, du.length, du.inertia
     if name in ("mass_kg", "capacity_kg"):
-        return [(name[:-3].replace("_", " "), _q(old, du.m, mu), _q(new, du.m, mu))]
+        return [(name[:-3], _q(old, du.m, mu), _q(new, du.m, mu))]
     if name == "cg_m":
-        return [(f"cg {ax}", _q(o, du.l, lu), _q(n, du.l, lu))
-                for ax, o, n in zip("xyz", old, new) if not _same(o, n)]
+        return [(f"cg {ax}", _q(o, du.l, lu), _q(n, du.l, lu)) for ax, o, n in zip("xyz", old, new)
+                if not _same(o, n)]
     if name == "inertia_kg_m2":
         if old is None or new is None:
-            def text(t):
-                return "—" if t is None else ", ".join(f"{k} {fmt(du.i(v))}" for k, v in t.items())
-            return [("inertia", text(old), text(new) + ("" if new is None else f" {pretty_unit(iu)}"))]
-        return [(f"inertia {k}", _q(old[k], du.i, iu), _q(new[k], du.i, iu))
-                for k in COMPONENTS if not _same(old[k], new[k])]
-    if name == "density_kg_m3":
-        return [("density", "—" if old is None else f"{fmt(old)} kg/m³",
-                 "—" if new is None else f"{fmt(new)} kg/m³")]
+            return [("inertia", _six_text(old, du), _six_text(new, du))]
+        return [(f"inertia {k}", _q(old[k], du.i, iu), _q(new[k], du.i, iu)) for k in COMPONENTS
+                if not _same(old[k], new[k])]
+    if name == "density_kg_m3":  # lb per US gallon beside pounds, else kg/m³
+        f, unit = (unit_factor("lb/gal", "density"), "lb/gal") if mu == "lb" else (1.0, "kg/m³")
+        return [("density", *("—" if v is None else f"{fmt(v / f)} {unit}" for v in (old, new)))]
     if name == "shape":
-        def shape_text(s):
-            if s is None:
-                return "—"
-            parts = [s["kind"], f"axis {s['axis']}"]
-            for k, v in s.items():
-                if k in ("kind", "axis"):
-                    continue
-                if isinstance(v, list):
-                    parts.append(f"{k} " + "×".join(fmt(du.l(x)) for x in v) + f" {pretty_unit(lu)}")
-                else:
-                    parts.append(f"{k} {fmt(du.l(v))} {pretty_unit(lu)}")
-            return ", ".join(parts)
-        return [("shape", shape_text(old), shape_text(new))]
+        return [("shape", _shape_text(old, du), _shape_text(new, du))]
     if name == "rotate":
-        def turns(r):
-            return " then ".join(f"{a} {d:g}°" for a, d in r) or "none"
-        return [("rotate", turns(old), turns(new))]
+        return [("rotate", *(" then ".join(f"{a} {d:g}°" for a, d in r) or "none" for r in (old, new)))]
     if name == "variable":
-        def kind(v):
-            return "load item" if v else "fixed"
-        return [("variable", kind(old), kind(new))]
-
-    def plain(v):
-        return "—" if v is None else (v if isinstance(v, str) else repr(v))
-    return [(name, plain(old), plain(new))]
+        return [("variable", *("load item" if v else "fixed" for v in (old, new)))]
+    return [(name, *("—" if v is None else v if isinstance(v, str) else repr(v) for v in (old, new)))]

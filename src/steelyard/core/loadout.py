@@ -1,9 +1,15 @@
-"""Loadouts: how much of each variable item is on board.
+"""Loadouts: how much of each variable item is on board, and which optional items are fitted.
 
 A loadout turns the ledger into a *state*: the mass, CG and own inertia of
 every row as carried. Variable items a loadout does not name are empty. A
-partly filled item keeps its CG and has its own inertia scaled by the fill
-fraction (documented in docs/conventions.md).
+partly filled item keeps its CG (or follows its ``cg_table``, see core.tank)
+and has its own inertia scaled by the fill fraction.
+
+Keys a loadout may carry beyond the contract (docs/loadouts.md):
+``base`` (start from another loadout and override it), ``off`` / ``on``
+(fixed items marked ``removable = true`` left off, or fitted again over a
+base), ``condition`` (ramp, takeoff or landing; default takeoff), which
+selects the limits that apply to it.
 """
 
 from __future__ import annotations
@@ -13,7 +19,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import SteelyardError
-from .model import Amount, Ledger, Loadout
+from .model import Amount, Item, Ledger, Loadout
+from .tank import cg_for_fill
+
+#: conditions a loadout may declare; "zero-fuel" is derived from a loadout, never declared
+CONDITIONS = ("ramp", "takeoff", "landing")
+DEFAULT_CONDITION = "takeoff"
 
 
 @dataclass(frozen=True)
@@ -74,8 +85,46 @@ def chain(ledger: Ledger, name: str) -> list[Loadout]:
     return out[::-1]
 
 
+def is_removable(item: Item, where: str | None = None) -> bool:
+    """True when a fixed item is marked ``removable = true`` (optional equipment)."""
+    flag = item.extra.get("removable", False) if item.extra else False
+    if type(flag) is not bool:
+        raise SteelyardError(f"must be true or false, got {flag!r}", subject=where or f"item {item.id!r}",
+                             field="removable")
+    return flag
+
+
+def _id_list(lo: Loadout, key: str) -> list[str]:
+    raw = lo.extra.get(key, [])
+    if isinstance(raw, str):
+        raw = [raw]
+    if type(raw) is not list or not all(isinstance(x, str) for x in raw):
+        raise SteelyardError(f"must be a list of item ids, got {raw!r}"[:160], subject=f"loadout {lo.name!r}",
+                             field=key)
+    return raw
+
+
+def removable_row(ledger: Ledger, item_id: str, where: str, field: str) -> int:
+    """Index of a fixed removable item, or a located error saying why it is not one."""
+    i = ledger.index.get(item_id)
+    if i is None:
+        raise SteelyardError(f"names unknown item {item_id!r}", subject=where, field=field)
+    item = ledger.items[i]
+    if item.variable:
+        raise SteelyardError(f"item {item_id!r} is variable: set its amount (0 for none) instead",
+                             subject=where, field=field)
+    if not is_removable(item):
+        raise SteelyardError(f"item {item_id!r} is not removable equipment (mark it removable = true)",
+                             subject=where, field=field)
+    return i
+
+
 def fill_fractions(ledger: Ledger, name: str | None) -> np.ndarray:
-    """Fill fraction of every row: 1 for fixed items, the loadout's for variable ones."""
+    """Fill fraction of every row: 1 for fixed items (0 when left off), the loadout's for variable ones.
+
+    The chain of bases is applied root first, so a derived loadout overrides
+    its base item by item; ``on`` fits again what a base left ``off``.
+    """
     a = ledger.arrays
     fill = np.where(a.variable, 0.0, 1.0)
     if name is None:
@@ -89,13 +138,36 @@ def fill_fractions(ledger: Ledger, name: str | None) -> np.ndarray:
             if not a.variable[i]:
                 raise SteelyardError(f"item {item_id!r} is not variable", subject=where, field=f"set.{item_id}")
             fill[i] = amount_fraction(ledger, item_id, amount, where)
+        if lo.extra:
+            off, on = _id_list(lo, "off"), _id_list(lo, "on")
+            both = sorted(set(off) & set(on))
+            if both:
+                raise SteelyardError(f"item {both[0]!r} is both off and on", subject=where, field="on")
+            for item_id in off:
+                fill[removable_row(ledger, item_id, where, "off")] = 0.0
+            for item_id in on:
+                fill[removable_row(ledger, item_id, where, "on")] = 1.0
     return fill
+
+
+def loadout_condition(ledger: Ledger, name: str | None) -> str:
+    """The loadout's condition (ramp, takeoff, landing): its own, else its base's, else takeoff."""
+    if name is None:
+        return DEFAULT_CONDITION
+    for lo in reversed(chain(ledger, name)):
+        if lo.extra and "condition" in lo.extra:
+            c = lo.extra["condition"]
+            if c not in CONDITIONS:
+                raise SteelyardError(f"must be one of {', '.join(CONDITIONS)}, got {c!r}",
+                                     subject=f"loadout {lo.name!r}", field="condition")
+            return c
+    return DEFAULT_CONDITION
 
 
 def state_from_fill(ledger: Ledger, fill: np.ndarray, name: str | None = None) -> State:
     a = ledger.arrays
     scale = a.quantity * fill
-    return State(name, a.unit_mass * scale, a.cg, a.own * scale[:, None, None], fill)
+    return State(name, a.unit_mass * scale, cg_for_fill(ledger, fill), a.own * scale[:, None, None], fill)
 
 
 def resolve(ledger: Ledger, name: str | None = None) -> State:

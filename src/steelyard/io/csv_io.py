@@ -169,7 +169,8 @@ def num_plain(x: float, decimal_comma: bool) -> str:
 class CsvImport:
     ledger: Ledger
     added: tuple[str, ...]
-    replaced: tuple[str, ...]
+    replaced: tuple[str, ...]  # existing items the CSV changed
+    unchanged: tuple[str, ...] = ()  # existing items the CSV gave exactly as they were
 
 
 def _sniff(first_line: str, decimal_comma: bool, source: str) -> str:
@@ -188,6 +189,7 @@ class _Reader:
 
     def __init__(self, text: str, source: str, decimal_comma: bool):
         self.source, self.comma = source, decimal_comma
+        text = text[1:] if text.startswith("\ufeff") else text  # a byte-order mark from a spreadsheet
         lines = text.splitlines()
         first = next((k for k, s in enumerate(lines) if s.strip(" \t,;")), None)
         if first is None:
@@ -513,7 +515,7 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
     units = into.units if into is not None else _new_units(r)
     index = into.index if into is not None else {}
     items = list(into.items) if into is not None else []
-    added, replaced = [], []
+    added, replaced, same = [], [], []
     for k, ident in enumerate(r.ids):
         j = index.get(ident)
         base = items[j] if j is not None else None
@@ -531,12 +533,14 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
         if j is None:
             items.append(item)
             added.append(ident)
+        elif item == base:
+            same.append(ident)
         else:
             items[j] = item
             replaced.append(ident)
     ledger = into.evolve(items=tuple(items)) if into is not None else Ledger(tuple(items), units)
     check_ledger(ledger, source)
-    return CsvImport(ledger, tuple(added), tuple(replaced))
+    return CsvImport(ledger, tuple(added), tuple(replaced), tuple(same))
 
 
 def check_ledger(ledger: Ledger, source: str) -> None:

@@ -92,7 +92,7 @@ def ledger_to_toml(ledger: Ledger) -> str:
     u = ledger.units
     blocks: list[list[str]] = [["steelyard = 1"]]
     units = {"mass": u.mass, "length": u.length, "inertia": u.inertia, **dict(sorted(u.extra.items()))}
-    blocks.append(["[units]"] + [f"{k} = {string(v)}" for k, v in units.items()])
+    blocks.append(["[units]"] + [f"{key(k)} = {string(v)}" for k, v in units.items()])
     f = ledger.frame
     blocks.append(["[frame]", f"x = {string(f.x)}", f"y = {string(f.y)}", f"z = {string(f.z)}"])
     blocks.extend(_item(it, u) for it in ledger.items)

@@ -39,12 +39,13 @@ class _Units:
         du = report.units
         self.du = du
         self.mu, self.lu = pretty_unit(du.mass), pretty_unit(du.length)
+        self.dm, self.dl = du.decimals("mass"), du.decimals("length") + 1
 
     def m(self, kg) -> str:
-        return fmt(None if kg is None else self.du.m(kg))
+        return fmt(None if kg is None else self.du.m(kg), self.dm)
 
     def l(self, m) -> str:
-        return fmt(None if m is None else self.du.l(m))
+        return fmt(None if m is None else self.du.l(m), self.dl)
 
 
 def _intro(r: Report, u: _Units) -> list[Block]:

@@ -12,22 +12,25 @@ import re
 from .report import Report
 from .report_blocks import Block, report_blocks
 
-_SPECIAL = re.compile(r"([\\`*_{}\[\]()#+\-.!|~])")
+_SPECIAL = re.compile(r"([\\`*_\[\]|~])")
+_LINE_START = re.compile(r"^([#+=-])")
+_ORDERED = re.compile(r"^(\d+)([.)])")
 
 
-def md_escape(text: str) -> str:
+def md_escape(text: str, *, cell: bool = False) -> str:
+    """Text that shows literally in Markdown; `cell`: inside a table cell (no line-start rules)."""
     text = " ".join(str(text).split())
+    text = text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
     text = _SPECIAL.sub(r"\\\1", text)
-    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    return text if cell else _ORDERED.sub(r"\1\\\2", _LINE_START.sub(r"\\\1", text))
 
 
 def _table(b: Block) -> list[str]:
-    out = ["| " + " | ".join(md_escape(h) for h in b.headers) + " |",
+    out = ["| " + " | ".join(md_escape(h, cell=True) for h in b.headers) + " |",
            "|" + "|".join("---:" if j in b.right else "---" for j in range(len(b.headers))) + "|"]
     for row in b.rows:
         # leading spaces (group indentation) would vanish; keep them as no-break spaces
-        cells = [md_escape(c) if not c.startswith(" ") else "\u00a0" * (len(c) - len(c.lstrip(" "))) + md_escape(c)
-                 for c in row]
+        cells = ["\u00a0" * (len(c) - len(c.lstrip(" "))) + md_escape(c, cell=True) for c in row]
         out.append("| " + " | ".join(cells) + " |")
     return out
 

@@ -8,12 +8,15 @@ in a worker thread, the title) and the command palette's entries.
 
 from __future__ import annotations
 
+import asyncio
+import signal
 from collections.abc import Iterable
 
 from textual import work
 from textual.app import App, SystemCommand
 from textual.screen import Screen
 
+from ..core.errors import SteelyardError
 from .edit_flows import EditFlows
 from .file_flows import FileFlows, groups_of
 from .main_screen import MainScreen
@@ -63,7 +66,27 @@ class SteelyardApp(FileFlows, EditFlows, App[int]):
 
     def on_mount(self) -> None:
         self.title = "loading…"
+        if not self.is_headless:
+            self._on_hangup()
         self.start_load(self.path, first=True)
+
+    def _on_hangup(self) -> None:
+        """A dropped SSH connection (SIGHUP) or a kill (SIGTERM) still releases the lock."""
+        try:
+            loop = asyncio.get_running_loop()
+            for sig in (signal.SIGHUP, signal.SIGTERM):
+                loop.add_signal_handler(sig, self._hung_up, sig)
+        except (NotImplementedError, AttributeError, RuntimeError):  # pragma: no cover - not POSIX
+            pass
+
+    def _hung_up(self, sig: int) -> None:
+        if self.session is not None:
+            self.session.release_lock()
+        self.exit(return_code=128 + int(sig))
+
+    def on_unmount(self) -> None:
+        if self.session is not None:
+            self.session.release_lock()
 
     # ----------------------------------------------------------- repainting
     def refresh_views(self, groups=None, focus_item: str | None = None) -> None:
@@ -71,19 +94,39 @@ class SteelyardApp(FileFlows, EditFlows, App[int]):
         s = self.session
         if s is None:
             return
-        self.main.show(s, groups)
-        if focus_item is not None and focus_item in s.ledger.index:
-            self.main.table.go_to_item(focus_item)
+        if groups is None:  # an edit: totals first, the table right after they are on screen
+            self.main.show(s, totals_only=True)
+            self.call_after_refresh(self._refresh_table, s.ledger, focus_item)
+        else:
+            self.main.show(s, groups)
+            self._focus(focus_item)
         self.update_title()
         self.after_refresh_loadout()
         if groups is None:
             self._subtotals_worker(s.ledger, s.loadout, s.totals().state)
 
+    def _refresh_table(self, ledger, focus_item: str | None) -> None:
+        """After an edit's totals are on screen: enter it in the change log, redraw the table."""
+        s = self.session
+        if s is None:
+            return
+        try:
+            s.flush()
+        except SteelyardError as exc:
+            self.notify(str(exc), severity="error", markup=False)
+        if s.ledger is ledger:
+            self.main.show_table(s)
+            self._focus(focus_item)
+
+    def _focus(self, item_id: str | None) -> None:
+        if item_id is not None and item_id in self.session.ledger.index:
+            self.main.table.go_to_item(item_id)
+
     def update_title(self) -> None:
         if self.session is not None:
             self.title = self.session.title()
 
-    @work(thread=True, exclusive=True, group="subtotals")
+    @work(thread=True, exclusive=True, group="subtotals", description="group subtotals")
     def _subtotals_worker(self, ledger, loadout, state) -> None:
         self.post_message(SubtotalsReady(ledger, loadout, groups_of(ledger, state)))
 

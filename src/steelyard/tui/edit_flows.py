@@ -37,7 +37,7 @@ class EditFlows:
 
     def _apply(self, ledger, *, action: str, item: str | None, summary: str) -> None:
         try:
-            self.session.apply(ledger, action=action, item=item, summary=summary)
+            self.session.apply(ledger, action=action, item=item, summary=summary, defer=True)
         except SteelyardError as exc:
             self.notify(str(exc), severity="error", markup=False)
             return

@@ -46,7 +46,7 @@ class FileFlows:
         self.push_screen(self._loading)
         self._load_worker(path, first)
 
-    @work(thread=True, exclusive=True, group="load")
+    @work(thread=True, exclusive=True, group="load", description="load ledger")
     def _load_worker(self, path: str | None, first: bool) -> None:
         last = [0.0]
 
@@ -95,13 +95,13 @@ class FileFlows:
             self.session.release_lock()
         ledger = message.loaded.ledger if message.loaded is not None else Ledger()
         self.session = Session(ledger, loaded=message.loaded, path=message.path, demo=message.demo)
+        holder = self.session.claim_lock()
         self.refresh_views(groups=message.groups)
         if message.demo:
             self.notify("This is a copy of the demo ledger: Save as (W) writes it where you choose.",
                         timeout=6, markup=False)
         elif message.loaded is None:
             self.notify(f"New ledger: {message.path} is written on the first save.", markup=False)
-        holder = self.session.claim_lock()
         if holder is not None:
             self._locked(holder)
 
@@ -133,7 +133,7 @@ class FileFlows:
         if self.session is not None:
             self._save_worker("ask", False)
 
-    @work(exclusive=True, group="save")
+    @work(exclusive=True, group="save", description="save")
     async def _save_worker(self, path: str | None, quit_after: bool) -> None:
         if await self.save_steps(path) and quit_after:
             await self._quit_now()

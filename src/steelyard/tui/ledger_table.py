@@ -139,7 +139,7 @@ class LedgerTable(ScrollView, can_focus=True):
             if hit.size:
                 self.cursor = int(hit[0])
         self.cursor = max(0, min(self.cursor, len(self.rows) - 1))
-        self._keep_visible()
+        self._keep_visible(center=True)
 
     # --------------------------------------------------------------- queries
     @property
@@ -263,10 +263,13 @@ class LedgerTable(ScrollView, can_focus=True):
     def _page(self) -> int:
         return max(1, self.size.height - 2)
 
-    def _keep_visible(self) -> None:
+    def _keep_visible(self, center: bool = False) -> None:
+        """Scroll as little as needed; after a jump (`center`), put the cursor mid-screen."""
         height = max(1, self.size.height - 1)
         top = int(self.scroll_offset.y)
-        if self.cursor < top:
+        if not (top <= self.cursor < top + height) and center:
+            self.scroll_to(y=max(0, self.cursor - height // 2), animate=False, immediate=True)
+        elif self.cursor < top:
             self.scroll_to(y=self.cursor, animate=False, immediate=True)
         elif self.cursor >= top + height:
             self.scroll_to(y=self.cursor - height + 1, animate=False, immediate=True)

@@ -125,9 +125,12 @@ class LoadoutScreen(ModalScreen[None]):
                 continue
             full = fmt(self.du.m(it.mass * it.quantity))
             label = f"{clean(it.id):<14} {amount_text(lo.set.get(it.id)):<18} full {full} {mu}  {clean(it.name)}"
+            room = max(30, self.size.width - 6)
+            if len(label) > room:
+                label = label[: room - 1] + "…"
             al.add_option(Option(Text(label), id=f"it{k}"))
-        if keep is not None and al.option_count:
-            al.highlighted = min(keep, al.option_count - 1)
+        if al.option_count:
+            al.highlighted = 0 if keep is None else min(keep, al.option_count - 1)
 
     @on(OptionList.OptionSelected, "#loadouts")
     def _chosen(self, event: OptionList.OptionSelected) -> None:

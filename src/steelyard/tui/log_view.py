@@ -38,7 +38,7 @@ def effect_text(effect, du: DisplayUnits) -> str:
 
 def log_text(history, du: DisplayUnits) -> Text:
     t = Text()
-    log = list(history.log)
+    log = list(history.log)  # the caller flushed deferred edits (Session.log)
     t.append(f"Change log: {len(log)} change(s)", style="bold")
     t.append(f"   undo {'available' if history.can_undo else 'none'}, redo {'available' if history.can_redo else 'none'}\n")
     t.append("Saved with the ledger as [[change]] tables; newest first.\n\n", style="dim")

@@ -84,12 +84,25 @@ class MainScreen(Screen):
         if not totals_only:
             self.table.show(ledger, totals.state, du, groups)
         self._status()
+        self._panels(session)
+
+    def show_table(self, session) -> None:
+        """The table's share of `show`, for after the totals of an edit are on screen."""
+        totals = session.totals()
+        self.table.show(session.ledger, totals.state, session.units)
+        self._status()
+
+    def _panels(self, session) -> None:
+        totals = session.totals()
+        du = session.units
+        ledger = session.ledger
         view = self.view
         if view == "totals":
             self.query_one(TotalsPanel).show(totals, ledger, du, session.system)
         elif view == "envelopes":
             self.query_one(EnvelopePanel).show(totals, ledger, du, session.other_points())
         elif view == "log":
+            session.flush()
             self.query_one(LogView).show(session.history, du)
 
     def _status(self) -> None:

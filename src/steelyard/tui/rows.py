@@ -46,10 +46,30 @@ class LedgerIndex:
         self._leaf: np.ndarray | None = None
         self._hay: list[str] | None = None
         self._ranks: dict[str, np.ndarray] = {}
-        if reuse is not None and reuse.items is items:  # same items, new subtotals
+        if reuse is None:
+            return
+        if reuse.items is items:  # same items, new subtotals
             self._hay, self._ranks = reuse._hay, reuse._ranks
             if reuse.groups is self.groups:
                 self._leaf = reuse._leaf
+        elif reuse.n == self.n and reuse.groups is self.groups:
+            self._patch(reuse)
+
+    def _patch(self, old: "LedgerIndex") -> None:
+        """An edit replaced a few items in place: redo only their entries (a 100k-item edit stays cheap)."""
+        new_items, old_items = self.items, old.items
+        changed = np.flatnonzero(np.fromiter((a is not b for a, b in zip(new_items, old_items)), bool, self.n))
+        if changed.size > 64:
+            return  # a bulk change: rebuild lazily
+        same_text = all((new_items[i].id, new_items[i].name, new_items[i].group)
+                        == (old_items[i].id, old_items[i].name, old_items[i].group) for i in changed)
+        if same_text:
+            self._hay, self._ranks = old._hay, old._ranks
+        if old._leaf is not None:
+            leaf = old._leaf.copy()
+            for i in changed:
+                leaf[i] = self.pos.get(leaf_path(new_items[i].group), -1)
+            self._leaf = leaf
 
     @property
     def leaf(self) -> np.ndarray:

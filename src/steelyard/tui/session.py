@@ -63,11 +63,20 @@ class Session:
         self.holder: LockInfo | None = None  # who holds the file when we are read-only
         self.no_lock: str | None = None  # why no lock could be made (a read-only folder)
         self._cache: tuple[Ledger, str | None, Totals] | None = None
+        # edits shown but not yet entered in the change log (see `apply(defer=True)`)
+        self._pending: list[tuple] = []
+        self._head: Ledger | None = None
 
     # ---------------------------------------------------------------- state
     @property
     def ledger(self) -> Ledger:
-        return self.history.ledger
+        return self._head if self._pending else self.history.ledger
+
+    @property
+    def log(self):
+        """The change log, with every shown edit entered."""
+        self.flush()
+        return self.history.log
 
     @property
     def dirty(self) -> bool:
@@ -145,17 +154,42 @@ class Session:
             raise SteelyardError(f"read-only: {self.read_only_reason()}; use Save as to keep your work "
                                  "elsewhere", file=self.path)
 
-    def apply(self, new_ledger: Ledger, *, action: str, item: str | None, summary: str) -> Change:
+    def apply(self, new_ledger: Ledger, *, action: str, item: str | None, summary: str,
+              defer: bool = False) -> Change | None:
+        """Make `new_ledger` current and enter the change in the log.
+
+        With `defer` the log entry (whose effect costs two more roll-ups) is
+        made by the next `flush()`, which the App runs right after the new
+        totals are on screen; everything that reads the log flushes first.
+        """
         self.check_writable()
+        if defer:
+            self._pending.append((new_ledger, action, item, summary, self.loadout))
+            self._head = new_ledger
+            return None
+        self.flush()
         return self.history.apply(new_ledger, action=action, item=item, summary=summary,
                                   loadout=self.loadout, author=self.author)
 
+    def flush(self) -> list[Change]:
+        """Enter the deferred edits in the change log, oldest first."""
+        out = []
+        while self._pending:
+            new, action, item, summary, loadout = self._pending[0]
+            out.append(self.history.apply(new, action=action, item=item, summary=summary, loadout=loadout,
+                                          author=self.author))
+            self._pending.pop(0)
+        self._head = None
+        return out
+
     def undo(self) -> Change | None:
         self.check_writable()
+        self.flush()
         return self.history.undo()
 
     def redo(self) -> Change | None:
         self.check_writable()
+        self.flush()
         return self.history.redo()
 
     # ---------------------------------------------------------------- files
@@ -182,6 +216,7 @@ class Session:
                                      file=target) from None
             except LockUnavailable as exc:
                 raise SteelyardError(f"cannot save there: {exc.message}", file=target) from None
+        self.flush()
         ledger = self.ledger
         try:
             record = save_ledger(target, ledger_with_log(ledger, self.history.log),

@@ -1,0 +1,237 @@
+"""`steelyard report`: caution, envelope names, escaped user text, charts, change log, sequences.
+
+Checks against outside references: html.escape (Python standard library) for
+the escaped forms, xml.etree for well-formed SVG, shapely's Polygon.covers
+for each loadout's inside/outside status, and CG = Σ moment / Σ mass
+(FAA-H-8083-1) for the weight statement.
+"""
+
+import html
+import re
+import subprocess
+import sys
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import pytest
+from shapely.geometry import Point, Polygon
+
+from steelyard.core.caution import CAUTION
+from steelyard.io.report_md import md_escape
+
+ROOT = Path(__file__).resolve().parents[1]
+NASTY_ITEM = '<b>Fuel & "oil"</b> <script>x()</script>'
+NASTY_ENV = "normal & <wide>"
+
+LEDGER = f"""steelyard = 1
+[units]
+mass = "kg"
+length = "m"
+
+[[item]]
+id = "frame"
+name = "Frame"
+group = "structure"
+mass = 40.0
+cg = [1.0, 0.0, 0.2]
+maturity = "layout"
+tolerance = {{ mass = 1.0, cg = [0.01, 0.0, 0.0], kind = "sigma" }}
+
+[[item]]
+id = "oil-tank"
+name = '{NASTY_ITEM}'
+group = "fluids|*tanks*"
+mass = 2.0
+cg = [0.5, 0.1, 0.3]
+maturity = "estimated"
+
+[[item]]
+id = "cargo"
+group = "payload"
+mass = 30.0
+cg = [1.6, 0.0, 0.0]
+variable = true
+
+[[loadout]]
+name = "light"
+[loadout.set]
+cargo = 0.2
+
+[[loadout]]
+name = "heavy <aft>"
+[loadout.set]
+cargo = 1.0
+
+[[envelope]]
+name = "{NASTY_ENV}"
+axis = "x"
+points = [[0.9, 30.0], [0.9, 80.0], [1.1, 80.0], [1.1, 30.0]]
+
+[[envelope]]
+name = "lateral"
+axis = "y"
+points = [[-0.1, 30.0], [-0.1, 80.0], [0.1, 80.0], [0.1, 30.0]]
+
+[[change]]
+time = "2026-01-10T09:00:00Z"
+author = "A. Early"
+action = "edit"
+item = "frame"
+summary = "old change before the baseline"
+d_mass_kg = 0.0
+d_cg_m = [0.0, 0.0, 0.0]
+
+[[change]]
+time = "2026-03-05T12:30:00Z"
+author = "B. <Late>"
+action = "add"
+item = "oil-tank"
+summary = "added the tank & its oil"
+d_mass_kg = 2.0
+d_cg_m = [0.0, 0.0, 0.0]
+
+[[sequence]]
+name = "cargo drop"
+"""
+
+
+def run(*args):
+    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True)
+
+
+@pytest.fixture
+def ledger_path(tmp_path):
+    p = tmp_path / "r.toml"
+    p.write_text(LEDGER)
+    return p
+
+
+def test_html_report_caution_names_and_escaping(ledger_path, tmp_path):
+    out_path = tmp_path / "report.html"
+    out = run("report", ledger_path, "-o", out_path, "--all", "--samples", "2000")
+    assert out.returncode == 0, out.stderr
+    text = out_path.read_text()
+    assert html.escape(CAUTION) in text
+    for env in (NASTY_ENV, "lateral"):
+        assert html.escape(env) in text
+    assert html.escape(NASTY_ITEM) in text
+    assert "<script>" not in text and "<b>Fuel" not in text and "<wide>" not in text
+    assert html.escape("heavy <aft>") in text and html.escape("B. <Late>") in text
+    assert text.count("<svg") == 2  # one chart per envelope, inline
+    for svg in re.findall(r"<svg.*?</svg>", text, flags=re.S):
+        ET.fromstring(svg)  # well-formed: rich escaped the names in the picture too
+    assert "Basic vs predicted" in text and "P(outside), Monte Carlo" in text  # growth and tolerances
+
+
+def test_markdown_report_writes_svgs_beside_it(ledger_path, tmp_path):
+    out_path = tmp_path / "out" / "review.md"
+    out_path.parent.mkdir()
+    out = run("report", ledger_path, "-o", out_path, "--samples", "0")
+    assert out.returncode == 0, out.stderr
+    text = out_path.read_text()
+    assert md_escape(CAUTION) in text
+    for env in (NASTY_ENV, "lateral"):
+        assert md_escape(env) in text
+    assert md_escape(NASTY_ITEM) in text and "<b>" not in text and "<script>" not in text
+    svgs = sorted(p.name for p in out_path.parent.glob("*.svg"))
+    assert svgs == ["review-chart-1.svg", "review-chart-2.svg"]
+    for name in svgs:
+        assert f"]({name})" in text
+        ET.parse(out_path.parent / name)
+    assert "```text" in text  # the text chart as a fallback
+
+
+def test_statuses_agree_with_shapely(ledger_path, tmp_path):
+    out_path = tmp_path / "r.md"
+    assert run("report", ledger_path, "-o", out_path, "--samples", "0").returncode == 0
+    text = out_path.read_text()
+    # loadings by hand: CG = Σ m·x / Σ m (FAA-H-8083-1)
+    fixed = [(40.0, 1.0, 0.0), (2.0, 0.5, 0.1)]
+    box_x = Polygon([(0.9, 30.0), (0.9, 80.0), (1.1, 80.0), (1.1, 30.0)])
+    box_y = Polygon([(-0.1, 30.0), (-0.1, 80.0), (0.1, 80.0), (0.1, 30.0)])
+    for name, cargo in (("light", 0.2 * 30.0), ("heavy <aft>", 30.0)):
+        rows = fixed + [(cargo, 1.6, 0.0)]
+        m = sum(r[0] for r in rows)
+        x = sum(r[0] * r[1] for r in rows) / m
+        y = sum(r[0] * r[2] for r in rows) / m
+        for env, poly, c in ((NASTY_ENV, box_x, x), ("lateral", box_y, y)):
+            status = "inside" if poly.covers(Point(c, m)) else "OUTSIDE"
+            line = next(s for s in text.splitlines()
+                        if s.startswith(f"| {md_escape(name, cell=True)} | {md_escape(env, cell=True)} |"))
+            assert f"| {status} |" in line, line
+    # the heavy loadout is outside the first envelope (x = 1.1967 m > 1.1 m) by the figures above
+    assert "OUTSIDE" in text
+
+
+def test_weight_statement_by_hand(ledger_path, tmp_path):
+    out_path = tmp_path / "r.md"
+    assert run("report", ledger_path, "-o", out_path, "--samples", "0").returncode == 0
+    text = out_path.read_text()
+    # variable items empty: 40 + 2 = 42 kg, x = (40·1.0 + 2·0.5) / 42 = 0.976190 m
+    total = next(s for s in text.splitlines() if s.startswith("| total | 3 |"))
+    assert "| 42.00 |" in total  # kg, to the 5 g the display resolves (DisplayUnits.decimals)
+    assert f"{41 / 42:.5f}" in total
+
+
+def test_since_filters_the_change_log(ledger_path, tmp_path):
+    out_path = tmp_path / "r.html"
+    assert run("report", ledger_path, "-o", out_path, "--since", "2026-02-01", "--samples", "0").returncode == 0
+    text = out_path.read_text()
+    assert html.escape("added the tank & its oil") in text
+    assert "old change before the baseline" not in text
+    assert run("report", ledger_path, "-o", out_path, "--samples", "0").returncode == 0
+    assert "old change before the baseline" in out_path.read_text()
+
+
+def test_sequences_listed_without_their_module(ledger_path, tmp_path):
+    out_path = tmp_path / "r.md"
+    assert run("report", ledger_path, "-o", out_path, "--samples", "0").returncode == 0
+    text = out_path.read_text()
+    assert "## Sequences" in text and "cargo drop" in text
+    try:
+        import steelyard.core.sequence  # noqa: F401
+    except ImportError:
+        assert "not evaluated" in text
+
+
+def test_loadout_choice(ledger_path, tmp_path):
+    out_path = tmp_path / "r.md"
+    assert run("report", ledger_path, "-o", out_path, "--loadout", "light", "--samples", "0").returncode == 0
+    text = out_path.read_text()
+    assert "| 1 | light |" in text and "heavy" not in text.split("## Loadouts against")[1].split("##")[0]
+
+
+@pytest.mark.parametrize("args,words", [
+    (["--loadout", "ghost"], "ghost"),
+    (["--loadout", "light", "--all"], "--all"),
+    (["--since", "last tuesday"], "--since"),
+])
+def test_bad_options_exit_2(ledger_path, tmp_path, args, words):
+    out_path = tmp_path / "r.html"
+    out = run("report", ledger_path, "-o", out_path, *args)
+    assert out.returncode == 2 and words in out.stderr
+    assert len(out.stderr.strip().splitlines()) == 1
+    assert not out_path.exists()
+
+
+def test_output_format_follows_the_name(ledger_path, tmp_path):
+    out = run("report", ledger_path, "-o", tmp_path / "r.pdf")
+    assert out.returncode == 2 and ".html or .md" in out.stderr
+
+
+def test_report_of_the_weighing_fixture(tmp_path):
+    out_path = tmp_path / "w.html"
+    out = run("report", ROOT / "fixtures" / "weighing-example.toml", "-o", out_path, "--samples", "0")
+    assert out.returncode == 0, out.stderr
+    text = out_path.read_text()
+    # AMT General Handbook ch. 4: empty weight 1,331.5 lb, CG 66,698 / 1,331.5 = 50.092 in
+    assert "1,331.50" in text and "50.092" in text
+    assert html.escape(CAUTION) in text
+
+
+def test_md_escape_shows_text_literally():
+    # CommonMark: a backslash before ASCII punctuation makes it literal; & < > as entities
+    assert md_escape("a*b_c|d") == "a\\*b\\_c\\|d"
+    assert md_escape("<b>&") == "&lt;b&gt;&amp;"
+    assert md_escape("1. first") == "1\\. first" and md_escape("# x") == "\\# x"
+    assert md_escape("two\nlines") == "two lines"

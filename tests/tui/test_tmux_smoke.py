@@ -1,0 +1,84 @@
+"""The real program in a real terminal: tmux at 80x24, keys sent as a user types them.
+
+Starts `python -m steelyard FILE` in a detached tmux session on a private
+socket, reads the screen with `capture-pane -p`, changes one item's mass with
+`send-keys`, saves, quits, and checks the file with tomllib (not steelyard).
+tmux is required (.ci/run installs it); without it this test fails.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import subprocess
+import sys
+import time
+import tomllib
+import uuid
+
+from tui_helpers import copy_fixture
+
+
+def _tmux(sock: str, *args: str) -> str:
+    out = subprocess.run(["tmux", "-L", sock, *args], capture_output=True, text=True, timeout=20)
+    return out.stdout
+
+
+def _keys(sock: str, name: str, *keys: str) -> None:
+    """One key at a time, a little apart, as fingers would."""
+    for key in keys:
+        _tmux(sock, "send-keys", "-t", name, key)
+        time.sleep(0.05)
+
+
+def _screen(sock: str, name: str) -> str:
+    return _tmux(sock, "capture-pane", "-p", "-t", name)
+
+
+def _wait_for(sock: str, name: str, text: str, timeout: float = 30.0) -> str:
+    end = time.monotonic() + timeout
+    screen = ""
+    while time.monotonic() < end:
+        screen = _screen(sock, name)
+        if text in screen:
+            return screen
+        time.sleep(0.2)
+    raise AssertionError(f"{text!r} never appeared; the screen was:\n{screen}")
+
+
+def test_real_program_in_tmux_edit_one_value_save_and_quit(tmp_path):
+    assert shutil.which("tmux"), "tmux is needed for this test (apt-get install tmux)"
+    path = copy_fixture(tmp_path)
+    sock, name = f"steelyard-test-{uuid.uuid4().hex[:8]}", "smoke"
+    command = f"cd {tmp_path} && TERM=xterm-256color {sys.executable} -m steelyard {path.name}; sleep 30"
+    env = dict(os.environ, TEXTUAL_ANIMATIONS="none")
+    subprocess.run(["tmux", "-L", sock, "new-session", "-d", "-s", name, "-x", "80", "-y", "24", command],
+                   check=True, env=env, timeout=20)
+    try:
+        screen = _wait_for(sock, name, "Mass ")
+        lines = screen.splitlines()
+        assert len(lines) <= 24 and max(len(line) for line in lines) <= 80
+        assert "aft-shelf" in screen and "Planning aid only" in screen
+        # go to the aft-shelf row: it is the third line of the table in group order
+        _keys(sock, name, "Down", "Down", "e")
+        _wait_for(sock, name, "Edit item aft-shelf")
+        _keys(sock, name, "End", *["BSpace"] * 6, "5", ".", "2", "5")
+        screen = _wait_for(sock, name, "Δmass +0.8500 lb")  # 5.25 - 4.4 lb, shown before applying
+        _keys(sock, name, "Enter")
+        _wait_for(sock, name, "* ledger.toml")  # the unsaved marker in the title
+        _wait_for(sock, name, "5.250")  # the row shows the new mass
+        _keys(sock, name, "C-s")
+        _wait_for(sock, name, "comments")  # the file had comments: asked first
+        _keys(sock, name, "Enter")  # first button: save, drop comments
+        _wait_for(sock, name, "saved ")
+        _keys(sock, name, "C-q")
+        end = time.monotonic() + 20
+        while time.monotonic() < end and "Mass " in _screen(sock, name):
+            time.sleep(0.2)
+        assert "Mass " not in _screen(sock, name), "the program did not quit"
+    finally:
+        _tmux(sock, "kill-server")
+    data = tomllib.loads(path.read_text())
+    shelf = next(it for it in data["item"] if it["id"] == "aft-shelf")
+    assert shelf["mass"] == 5.25
+    assert data["change"][-1]["item"] == "aft-shelf"  # the change log went into the file
