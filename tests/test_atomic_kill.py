@@ -23,7 +23,6 @@ import signal
 import time
 from pathlib import Path
 
-import pytest
 
 from steelyard.io.atomic import write_atomic
 from steelyard.io.ledger_file import open_ledger, save_ledger
@@ -37,9 +36,6 @@ ROUNDS = 240
 _spec = importlib.util.spec_from_file_location("_make_ledger", Path(__file__).parent / "perf" / "make_ledger.py")
 _make = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(_make)
-
-pytestmark = pytest.mark.skipif(not hasattr(os, "fork"), reason="needs fork and SIGKILL (POSIX)")
-
 
 def _ledger(seed: int):
     text = _make.ledger_text(ITEMS, seed)

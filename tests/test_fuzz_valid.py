@@ -167,7 +167,7 @@ def shapes(draw, file_unit: str):
     return out
 
 
-IDS = st.lists(st.text(min_size=1, max_size=10).filter(str.strip), min_size=1, max_size=10, unique=True)
+IDS = st.lists(st.text(min_size=1, max_size=10).filter(str.strip), min_size=1, max_size=6, unique=True)
 NAMES = st.lists(st.text(min_size=1, max_size=8).filter(str.strip), max_size=3, unique=True)
 GROUP = st.lists(st.text(min_size=1, max_size=6), min_size=1, max_size=4).map("/".join)
 ROTATE = st.lists(st.tuples(AXIS, st.floats(-360, 360)).map(list), min_size=1, max_size=3)
@@ -177,7 +177,7 @@ FEW = st.integers(0, 5)
 
 
 @st.composite
-def ledgers(draw, max_items: int = 10):
+def ledgers(draw, max_items: int = 6):
     """(document dict, expectations): a valid v1 ledger and the exact SI values it means."""
     mu, lu, iu = draw(UNITS)
     units = {"mass": mu, "length": lu, "inertia": iu}
@@ -397,3 +397,12 @@ def test_on_disk_save_and_reload(tmp_path_factory, case):
     record = save_ledger(out, loaded.ledger)
     again = open_ledger(out)
     assert again.ledger.items == loaded.ledger.items and again.sha256 == record.sha256
+
+
+def test_top_level_value_stays_top_level():
+    """An unknown top-level key = value survives a save where it was (not moved into the last item)."""
+    text = 'steelyard = 1\nrevision = 3\n[[item]]\nid = "a"\nmass = 1\ncg = [0, 0, 0]\n'
+    ledger = load_text(text)
+    assert ledger.extra == {"revision": 3}  # tomllib reads it as a top-level key (TOML 1.0: before any header)
+    again = load_text(ledger_to_toml(ledger), "saved.toml")
+    assert again.extra == {"revision": 3} and again.items[0].extra == {}

@@ -118,6 +118,7 @@ def test_html_report_caution_names_and_escaping(ledger_path, tmp_path):
     assert "<script>" not in text and "<b>Fuel" not in text and "<wide>" not in text
     assert html.escape("heavy <aft>") in text and html.escape("B. <Late>") in text
     assert text.count("<svg") == 2  # one chart per envelope, inline
+    assert "url(" not in text and "@font-face" not in text  # the page fetches nothing when opened
     for svg in re.findall(r"<svg.*?</svg>", text, flags=re.S):
         ET.fromstring(svg)  # well-formed: rich escaped the names in the picture too
     assert "Basic vs predicted" in text and "P(outside), Monte Carlo" in text  # growth and tolerances

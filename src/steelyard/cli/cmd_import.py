@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import os
-import sys
 
 NAME = "import"
 HELP = "read items from CSV (units in the headers) into a new ledger or merged into an existing one"
@@ -40,7 +39,8 @@ def _log(ledger, new, imp, source: str, author: str):
 
 def run(args) -> int:
     from ..core.errors import SteelyardError
-    from ..io.csv_io import read_csv_file
+    from ..io.atomic import write_atomic
+    from ..io.csv_io import check_ledger, read_csv_file
     from ..io.ledger_file import CommentsWouldBeLost, save_ledger
     from .cmd_weigh import _author
     from .loading import load_for_cli
@@ -51,7 +51,8 @@ def run(args) -> int:
     if not in_place and os.path.exists(target) and not args.force:
         raise SteelyardError("already exists; pass --force to replace it (or --into it to merge)", file=target,
                              field="--output")
-    imp = read_csv_file(args.csv, decimal_comma=args.decimal_comma, into=loaded.ledger if loaded else None)
+    imp = read_csv_file(args.csv, decimal_comma=args.decimal_comma, into=loaded.ledger if loaded else None,
+                        check=False)
     ledger = imp.ledger
     logged = False
     if loaded is not None and (imp.added or imp.replaced):
@@ -59,11 +60,15 @@ def run(args) -> int:
             ledger, logged = _log(loaded.ledger, ledger, imp, args.csv, _author(args))
         except SteelyardError as exc:
             raise exc.located(file=args.csv)
-    try:
-        save_ledger(target, ledger, loaded=loaded if in_place else None, allow_comment_loss=args.force)
-    except CommentsWouldBeLost:
-        raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o, or pass "
-                             "--force", file=target) from None
+    text = check_ledger(ledger, args.csv)  # everything read back before anything is written
+    if not in_place:
+        write_atomic(target, text.encode("utf-8"))
+    else:
+        try:
+            save_ledger(target, ledger, loaded=loaded, allow_comment_loss=args.force)
+        except CommentsWouldBeLost:
+            raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o, or pass "
+                                 "--force", file=target) from None
     text = f"imported {len(imp.added) + len(imp.replaced) + len(imp.unchanged)} items from {args.csv} into {target}"
     if loaded is not None:
         text += (f" ({len(imp.replaced)} changed, {len(imp.added)} added, {len(imp.unchanged)} unchanged"

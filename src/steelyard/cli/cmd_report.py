@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import io
 import os
+import re
 import sys
 
 NAME = "report"
@@ -61,7 +62,9 @@ def chart_svg(chart) -> str:
             else:
                 text.append(ch)
         console.print(text, no_wrap=True, overflow="ignore", crop=False)
-    return console.export_svg(title=f"envelope {chart.envelope!r}")
+    svg = console.export_svg(title=f"envelope {chart.envelope!r}")
+    # rich asks a CDN for its web font; a report must open offline and fetch nothing
+    return re.sub(r"@font-face\s*\{[^}]*\}", "", svg)
 
 
 def _loadouts(args, loaded) -> list:

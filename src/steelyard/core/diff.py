@@ -113,6 +113,14 @@ def _loaded_marker(item_id: str, raw: object) -> tuple[float, float]:
     return float(raw["capacity_kg"]), float(raw["fill"])
 
 
+def _pick(xs: list, rows: list[int]) -> list:
+    """xs[i] for i in rows, at C speed."""
+    if not rows:
+        return []
+    got = operator.itemgetter(*rows)(xs)
+    return list(got) if len(rows) > 1 else [got]
+
+
 def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     """One side as carried under `loadout` (None: load items empty; a snapshot has none)."""
     items = ledger.items
@@ -122,7 +130,7 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     state = state_from_fill(ledger, fill, loadout)
     variable = a.variable.copy()
     capacity = np.where(variable, a.unit_mass * a.quantity, np.nan)
-    extras: list[Mapping[str, object]] = [it.extra for it in items]
+    extras: list[Mapping[str, object]] = list(map(operator.attrgetter("extra"), items))
     if is_snapshot(ledger):
         for i in [i for i, ex in enumerate(extras) if LOADED_KEY in ex]:
             capacity[i], _ = _loaded_marker(items[i].id, extras[i][LOADED_KEY])
@@ -137,11 +145,13 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     rows = [i for i, it in enumerate(items) if it.density is not None]
     if rows:
         density[np.array(rows)] = [items[i].density for i in rows]
+    ids = list(map(operator.attrgetter("id"), items))
+    labels = [name or i for name, i in zip(map(operator.attrgetter("name"), items), ids)]
     geometry = np.fromiter((it.shape is not None or bool(it.rotate) for it in items), bool, n)
     has_extra = np.fromiter(map(bool, extras), bool, n)
-    return Carried(ledger, loadout, [it.id for it in items], [it.name or it.id for it in items],
-                   [it.group for it in items], a.quantity, a.unit_mass * fill, a.cg, six, variable,
-                   capacity, density, extras, rollup_state(state), state.mass, geometry, has_extra)
+    return Carried(ledger, loadout, ids, labels, list(map(operator.attrgetter("group"), items)), a.quantity,
+                   a.unit_mass * fill, a.cg, six, variable, capacity, density, extras, rollup_state(state),
+                   state.mass, geometry, has_extra)
 
 
 # --------------------------------------------------------------------------- results
@@ -285,13 +295,6 @@ def _value(side: Carried, i: int, name: str) -> object:
 # --------------------------------------------------------------------------- comparing
 
 
-def _pick(xs: list, rows: list[int]) -> list:
-    if not rows:
-        return []
-    got = operator.itemgetter(*rows)(xs)
-    return list(got) if len(rows) > 1 else [got]
-
-
 def _strings_differ(xs: list[str], ys: list[str], ia: list[int], ib: list[int]) -> np.ndarray:
     return np.fromiter(map(operator.ne, _pick(xs, ia), _pick(ys, ib)), bool, len(ia))
 
@@ -388,7 +391,7 @@ def _envelope_definitions(a: Ledger, b: Ledger) -> DefinitionChanges:
 def _amount(a: Amount | None) -> dict | None:
     if a is None:
         return None
-    key = {"fraction": "fraction", "mass": "mass_kg", "volume": "volume_m3"}[a.kind]
+    key = {"fraction": "fraction", "mass": "mass_kg", "volume": "volume_m3"}.get(a.kind, a.kind)
     return {key: float(a.value)}
 
 

@@ -8,6 +8,10 @@ so the CLI can print it as is and exit 2, and the TUI can show it inline.
 
 from __future__ import annotations
 
+import re
+
+_CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f]")
+
 
 class SteelyardError(Exception):
     """A problem with user input, located as precisely as we know."""
@@ -40,8 +44,8 @@ class SteelyardError(Exception):
     def __str__(self) -> str:
         parts = [p for p in (self.file, self.subject, self.field) if p]
         text = ": ".join(parts + [self.message])
-        # Always one line: a message must never smuggle a newline in.
-        return " ".join(text.split("\n"))
+        # Always one line, and no raw control characters reach a terminal.
+        return _CONTROL.sub(lambda m: f"\\x{ord(m.group(0)):02x}", text)
 
 
 class UnitError(SteelyardError):

@@ -171,7 +171,10 @@ def to_si(value: object, dimension: str, file_unit: str) -> float:
     if isinstance(value, bool):
         raise UnitError(f"expected a {dimension}, got a boolean")
     if isinstance(value, (int, float)):
-        out = float(value) * unit_factor(file_unit, dimension)
+        try:
+            out = float(value) * unit_factor(file_unit, dimension)
+        except OverflowError:
+            raise UnitError(f"{str(value)[:20]}… is too large to represent") from None
         return _finite(out, repr(value))
     if isinstance(value, str):
         return parse_quantity(value, dimension)

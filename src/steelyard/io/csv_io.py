@@ -23,13 +23,15 @@ import numpy as np
 
 from ..core.display import DisplayUnits
 from ..core.errors import SteelyardError
-from ..core.growth import growth_table
+from ..core.growth import growth_fractions, growth_table
 from ..core.inertia import (COMPONENTS, realisability_problem, realisability_problems, six_from_tensor,
                             tensor_from_six)
 from ..core.model import FileUnits, Item, Ledger
-from ..core.units import SYSTEMS, parse_quantity, to_si, unit_factor
+from ..core.uncertainty import parse_tolerances
+from ..core.units import SYSTEMS, unit_factor
 from .ledger_read import ITEM_KEYS, ledger_from_data
 from .ledger_write import ledger_to_toml
+from .report_control import growth_value, tolerance_si
 from .toml_read import decode, parse_toml
 from .toml_write import value as toml_value
 
@@ -84,36 +86,13 @@ def _units(ledger: Ledger, system: str | None) -> dict[str, str]:
     return {"mass": du.mass, "length": du.length, "inertia": du.inertia, "density": density}
 
 
-def tolerance_si(item: Item, units: FileUnits) -> tuple[str, float | None, list | None]:
-    tol = item.extra["tolerance"]
-    subject = f"item {item.id!r}"
-    if not isinstance(tol, dict) or tol.get("kind") not in ("sigma", "bound"):
-        raise SteelyardError("tolerance needs kind = \"sigma\" or \"bound\"", subject=subject,
-                             field="tolerance")
-    mass = None
-    if "mass" in tol:
-        raw = tol["mass"]
-        if isinstance(raw, str) and raw.strip().endswith("%"):
-            mass = float(raw.strip()[:-1]) / 100.0 * item.mass
-        else:
-            mass = to_si(raw, "mass", units.mass)
-    cg = None
-    if "cg" in tol:
-        raw = tol["cg"] if isinstance(tol["cg"], list) else [tol["cg"]] * 3
-        cg = [to_si(v, "length", units.length) for v in raw]
-    return tol["kind"], mass, cg
-
-
-def _growth_value(raw: object) -> float:
-    return parse_quantity(raw, "dimensionless") if isinstance(raw, str) else float(raw)
-
-
 def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: bool = False) -> str:
     """Every item as one CSV row; numbers in the file's units (or `system`), exact on re-import.
 
     Own inertia is per unit about the item's CG in body axes, products as
     integrals (∫xy dm); an item with a shape gets the inertia its shape gives.
     """
+    growth_fractions(ledger), parse_tolerances(ledger)  # bad keys stop here, named, not half-written
     u = _units(ledger, system)
     items = ledger.items
     extras = [it.extra or {} for it in items]
@@ -147,7 +126,7 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
         if "density" in keys:
             cells["density"] = num("density", it.density)
         cells["maturity"] = str(e.get("maturity", ""))
-        cells["growth"] = num_plain(_growth_value(e["growth"]), decimal_comma) if "growth" in e else ""
+        cells["growth"] = number_text(growth_value(e["growth"]), 1.0, decimal_comma) if "growth" in e else ""
         if "tolerance" in e:
             kind, m, cg = tolerance_si(it, ledger.units)
             cells["tol kind"], cells["tol mass"] = kind, num("tol mass", m)
@@ -157,10 +136,6 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
         cells["other"] = toml_value(rest) if rest else ""
         w.writerow([cells.get(k, "") for k in keys])
     return buf.getvalue()
-
-
-def num_plain(x: float, decimal_comma: bool) -> str:
-    return number_text(x, 1.0, decimal_comma)
 
 
 # ------------------------------------------------------------------------------------ import
@@ -233,18 +208,14 @@ class _Reader:
         for j, cell in enumerate(self.header):
             m = _HEADER.match(cell)
             name = " ".join((m.group("name") if m else cell).replace("_", " ").lower().split())
-            if name not in COLUMNS:
-                known = ", ".join(COLUMNS)
-                raise SteelyardError(f"unknown column (known: {known})", field=f"column {cell!r}", **where)
-            if name in self.index:
-                raise SteelyardError("column appears twice", field=f"column {cell!r}", **where)
-            dim = COLUMNS[name][0]
+            dim = COLUMNS[name][0] if name in COLUMNS else None
             unit = (m.group("unit") or "").strip() if m else ""
-            if dim and not unit:
-                raise SteelyardError(f"needs its unit in brackets, e.g. '{name} [{_SI_UNIT[dim]}]'",
-                                     field=f"column {cell!r}", **where)
-            if not dim and unit:
-                raise SteelyardError("takes no unit", field=f"column {cell!r}", **where)
+            problem = (f"unknown column (known: {', '.join(COLUMNS)})" if name not in COLUMNS else
+                       "column appears twice" if name in self.index else
+                       f"needs its unit in brackets, e.g. '{name} [{_SI_UNIT[dim]}]'" if dim and not unit else
+                       "takes no unit" if unit and not dim else None)
+            if problem:
+                raise SteelyardError(problem, field=f"column {cell!r}", **where)
             if dim:
                 try:
                     self.factor[name] = unit_factor(unit, dim)
@@ -285,11 +256,14 @@ class _Reader:
                 except ValueError:
                     hint = " (decimal commas? use --decimal-comma)" if "," in c and not self.comma else ""
                     raise self.fail(k, key, f"must be a bare number, got {c!r}{hint}") from None
-        bad = ~np.isfinite(vals) & ~blank
+        self.reject(key, ~np.isfinite(vals) & ~blank, "must be a finite number, got {cell!r}")
+        return vals, blank
+
+    def reject(self, key: str, bad: np.ndarray, message: str) -> None:
+        """Raise for the first row where `bad` holds; `{cell}` in the message is its text."""
         if bad.any():
             k = int(np.argmax(bad))
-            raise self.fail(k, key, f"must be a finite number, got {self.cols[key][k]!r}")
-        return vals, blank
+            raise self.fail(k, key, message.format(cell=self.cols[key][k]))
 
     def si(self, key: str) -> tuple[np.ndarray, np.ndarray]:
         vals, blank = self.floats(key)
@@ -321,33 +295,23 @@ def _new_units(r: _Reader) -> FileUnits:
 def _inertia(r: _Reader) -> tuple[np.ndarray, np.ndarray]:
     """(six (n, 6) SI, given (n,)); the three moments are required on a row that gives any."""
     n = len(r.rows)
-    six = np.zeros((n, 6))
-    given = np.zeros(n, dtype=bool)
-    if not any(r.has(c) for c in COMPONENTS):
-        return six, given
-    blanks = []
-    for j, c in enumerate(COMPONENTS):
-        if r.has(c):
-            v, b = r.si(c)
-            six[:, j] = np.where(b, 0.0, v)
-        else:
-            b = np.ones(n, dtype=bool)
-        blanks.append(b)
-        given |= ~b
+    six, blanks = np.zeros((n, 6)), np.ones((n, 6), dtype=bool)
+    present = [c for c in COMPONENTS if r.has(c)]
+    for c in present:
+        j = COMPONENTS.index(c)
+        v, blanks[:, j] = r.si(c)
+        six[:, j] = np.where(blanks[:, j], 0.0, v)
+    given = ~blanks.all(axis=1)
     for j, c in enumerate(COMPONENTS[:3]):
-        bad = given & blanks[j]
-        if bad.any():
-            k = int(np.argmax(bad))
-            raise r.fail(k, c if r.has(c) else next(x for x in COMPONENTS if r.has(x)),
-                         f"a row with own inertia needs {c} (products default to 0)")
+        if present:
+            r.reject(c if r.has(c) else present[0], given & blanks[:, j],
+                     f"a row with own inertia needs {c} (products default to 0)")
     rows = np.flatnonzero(given)
-    if rows.size:
-        tensors = tensor_from_six(six[rows])
-        bad = realisability_problems(tensors)
-        if bad.any():
-            k = int(rows[np.argmax(bad)])
-            raise r.fail(k, "xx" if r.has("xx") else COMPONENTS[0],
-                         realisability_problem(tensors[int(np.argmax(bad))]) or "not physically possible")
+    bad = realisability_problems(tensor_from_six(six[rows])) if rows.size else np.zeros(0, bool)
+    if bad.any():
+        k = int(rows[np.argmax(bad)])
+        raise r.fail(k, "xx" if r.has("xx") else present[0],
+                     realisability_problem(tensor_from_six(six[k])) or "not physically possible")
     return six, given
 
 
@@ -390,30 +354,24 @@ class _Columns:
                 raise r.fail(k, "id", f"duplicate id (first on line {r.lines[seen[ident]]})")
             seen[ident] = k
         self.mass, blank = r.si("mass")
-        self._required(r, "mass", blank)
-        bad = self.mass < 0
-        if bad.any():
-            raise r.fail(int(np.argmax(bad)), "mass", f"must be >= 0, got {r.cols['mass'][int(np.argmax(bad))]!r}")
+        r.reject("mass", blank, "required: a number")
+        r.reject("mass", self.mass < 0, "must be >= 0, got {cell!r}")
         self.cg = np.empty((n, 3))
         for j, c in enumerate("xyz"):
             self.cg[:, j], blank = r.si(c)
-            self._required(r, c, blank)
+            r.reject(c, blank, "required: a number")
         self.quantity = None
         if r.has("quantity"):
             q, blank = r.floats("quantity")
-            bad = ~blank & ((q < 1) | (q != np.round(q)) | (q > 2 ** 53))
-            if bad.any():
-                k = int(np.argmax(bad))
-                raise r.fail(k, "quantity", f"must be a whole number >= 1, got {r.cols['quantity'][k]!r}")
+            r.reject("quantity", ~blank & ((q < 1) | (q != np.round(q)) | (q > 2 ** 53)),
+                     "must be a whole number >= 1, got {cell!r}")
             self.quantity = np.where(blank, 1.0, q).astype(np.int64).tolist()
         self.variable = [_bool(r, k, c) for k, c in enumerate(r.cols["variable"])] if r.has("variable") else None
         self.six, self.given = _inertia(r)
         self.density = None
         if r.has("density"):
             d, blank = r.si("density")
-            bad = ~blank & ~(d > 0)
-            if bad.any():
-                raise r.fail(int(np.argmax(bad)), "density", "must be > 0")
+            r.reject("density", ~blank & ~(d > 0), "must be > 0, got {cell!r}")
             self.density = [None if b else float(x) for x, b in zip(d, blank)]
         if r.has("maturity"):
             table = growth_table(into if into is not None else Ledger())
@@ -425,11 +383,6 @@ class _Columns:
         self.tol = self._tolerances(r) if any(r.has(c) for c in TOL_COLUMNS) else None
         self.other = ([_other(r, k, c) if c else {} for k, c in enumerate(r.cols["other"])]
                       if r.has("other") else None)
-
-    @staticmethod
-    def _required(r: _Reader, key: str, blank: np.ndarray) -> None:
-        if blank.any():
-            raise r.fail(int(np.argmax(blank)), key, "required: a number")
 
     @staticmethod
     def _tolerances(r: _Reader) -> list:
@@ -465,14 +418,11 @@ def _extra(base: Item | None, r: _Reader, cols: _Columns, k: int, units: FileUni
     if cols.other is not None:
         extra = {key: v for key, v in extra.items() if key in CONTROL_KEYS}
         extra.update(cols.other[k])
-    if r.has("maturity"):
-        extra.pop("maturity", None)
-        if r.cols["maturity"][k]:
-            extra["maturity"] = r.cols["maturity"][k]
-    if cols.growth is not None:
-        extra.pop("growth", None)
-        if cols.growth[k] is not None:
-            extra["growth"] = cols.growth[k]
+    for key, values in (("maturity", r.cols.get("maturity")), ("growth", cols.growth)):
+        if values is not None:
+            extra.pop(key, None)
+            if values[k] not in (None, ""):
+                extra[key] = values[k]
     if cols.tol is not None:
         extra.pop("tolerance", None)
         tol = cols.tol[k]
@@ -494,21 +444,22 @@ def _own(base: Item | None, j: int | None, into: Ledger | None, cols: _Columns, 
         return (base.inertia, base.shape, base.rotate) if base is not None else (None, None, ())
     if not cols.given[k]:
         return None, None, ()
-    six = cols.six[k]
     if base is not None and (base.inertia is not None or base.shape is not None):
         old = six_from_tensor(into.arrays.own[j])
         scale = max(float(np.abs(old[:3]).sum()), np.finfo(float).tiny)
-        if np.all(np.abs(six - old) <= SHAPE_MATCH_RTOL * scale):
+        if np.all(np.abs(cols.six[k] - old) <= SHAPE_MATCH_RTOL * scale):
             return base.inertia, base.shape, base.rotate
-    return tuple(float(v) for v in six), None, ()
+    return tuple(cols.six_rows[k]), None, ()
 
 
-def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledger | None = None) -> CsvImport:
+def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledger | None = None,
+             check: bool = True) -> CsvImport:
     """Build the ledger a CSV describes (alone, or merged `into` an existing ledger); raises on any bad cell.
 
     Merging: a row whose id exists replaces that item (in place), others are
     appended; a column the CSV does not have leaves that field of an
-    existing item as it was.
+    existing item as it was. `check=False` leaves the final `check_ledger`
+    to the caller (who may add a change-log entry first).
     """
     r = _Reader(text, source, decimal_comma)
     cols = _Columns(r, into)
@@ -516,12 +467,14 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
     index = into.index if into is not None else {}
     items = list(into.items) if into is not None else []
     added, replaced, same = [], [], []
+    mass, cg = cols.mass.tolist(), cols.cg.tolist()
+    cols.six_rows = cols.six.tolist()
     for k, ident in enumerate(r.ids):
         j = index.get(ident)
         base = items[j] if j is not None else None
         inertia, shape, rotate = _own(base, j, into, cols, r, k)
         item = Item(
-            ident, float(cols.mass[k]), tuple(float(c) for c in cols.cg[k]),
+            ident, mass[k], tuple(cg[k]),
             name=r.cols["name"][k] if r.has("name") else (base.name if base else ""),
             group=r.cols["group"][k] if r.has("group") else (base.group if base else ""),
             quantity=cols.quantity[k] if cols.quantity is not None else (base.quantity if base else 1),
@@ -539,15 +492,16 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
             items[j] = item
             replaced.append(ident)
     ledger = into.evolve(items=tuple(items)) if into is not None else Ledger(tuple(items), units)
-    check_ledger(ledger, source)
+    if check:
+        check_ledger(ledger, source)
     return CsvImport(ledger, tuple(added), tuple(replaced), tuple(same))
 
 
-def check_ledger(ledger: Ledger, source: str) -> None:
-    """Write the ledger to text and read it back with the full loader: what is saved will open."""
-    from ..core.growth import growth_fractions
-    from ..core.uncertainty import parse_tolerances
+def check_ledger(ledger: Ledger, source: str) -> str:
+    """Write the ledger to text and read it back with the full loader: what is saved will open.
 
+    Returns the text, ready to write.
+    """
     text = ledger_to_toml(ledger)
     final = ledger_from_data(parse_toml(text, source=source), source=source)
     try:
@@ -555,10 +509,12 @@ def check_ledger(ledger: Ledger, source: str) -> None:
         parse_tolerances(final)
     except SteelyardError as exc:
         raise exc.located(file=source)
+    return text
 
 
-def read_csv_file(path: str, *, decimal_comma: bool = False, into: Ledger | None = None) -> CsvImport:
+def read_csv_file(path: str, *, decimal_comma: bool = False, into: Ledger | None = None,
+                  check: bool = True) -> CsvImport:
     from .ledger_file import read_bytes
 
     text = decode(read_bytes(path), source=str(path))
-    return read_csv(text, source=str(path), decimal_comma=decimal_comma, into=into)
+    return read_csv(text, source=str(path), decimal_comma=decimal_comma, into=into, check=check)

@@ -265,11 +265,14 @@ class Journal:
         self.unsaved = unsaved  # records since the last save
 
     @classmethod
-    def open(cls, ledger_path: str | os.PathLike, base_sha256: str, *, user: str | None = None) -> "Journal":
+    def open(cls, ledger_path: str | os.PathLike, base_sha256: str, *, resume: bool = False,
+             user: str | None = None) -> "Journal":
         """Start journaling edits made on the ledger file whose bytes hash to `base_sha256`.
 
-        An existing journal with unsaved edits for the same base is continued
-        (the edits were restored); one for another base raises JournalConflict.
+        If unsaved edits wait in the journal, the caller must have decided
+        about them first (see `pending`): `resume=True` after restoring them
+        (same base: appending carries on after them), or `discard` beforehand.
+        Otherwise JournalConflict, so no edit is ever dropped or mixed in silently.
         """
         jpath = journal_path(ledger_path)
         try:
@@ -290,9 +293,10 @@ class Journal:
             size = os.fstat(fd).st_size
             scan = _scan(os.pread(fd, size, 0)) if size else _scan(b"")
             base, records = _unsaved(scan)
-            if records and base != base_sha256:
-                raise JournalConflict(f"{len(records)} unsaved edit(s) from an earlier session are waiting; "
-                                      "restore or discard them first", file=str(ledger_path))
+            if records and not (resume and base == base_sha256):
+                why = ("they belong to another version of the file" if resume else "restore or discard them first")
+                raise JournalConflict(f"{len(records)} unsaved edit(s) from an earlier session are waiting; {why}",
+                                      file=str(ledger_path))
             journal = cls(jpath, fd, len(scan.records) + 1, scan.good_end, base_sha256, len(records))
             if records:
                 os.ftruncate(fd, scan.good_end)  # drop a torn tail, keep appending after the good lines

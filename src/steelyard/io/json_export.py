@@ -16,7 +16,7 @@ import numpy as np
 from ..core.growth import growth_fractions
 from ..core.loadout import resolve
 from ..core.model import Ledger
-from .csv_io import tolerance_si
+from .report_control import tolerance_si
 from .report_control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth
 from .rollup_json import rollup_record
 

@@ -9,6 +9,7 @@ through the (cached) pint parser.
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Callable
 
 import numpy as np
@@ -90,19 +91,53 @@ def _quantity(value: object, dimension: str, unit: str, source: str, subject: st
     except UnitError as exc:
         raise exc.located(file=source, subject=subject, field=field)
     if given is not None and isinstance(value, str):
-        given[field] = _unit_of(value)
+        written = _unit_of(value)
+        try:
+            unit_factor(written, dimension)
+        except UnitError:
+            pass  # "3 ft 2 in" and other forms: saved in the file's unit instead
+        else:
+            given[field] = written
     return out
+
+
+_LEADING_NUMBER = re.compile(r"^[\s\ufeff]*[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?\s*")
 
 
 def _unit_of(text: str) -> str:
     """The unit part of "41.5 lb" (what a save writes the value back in)."""
-    s = text.strip()
-    i = 0
-    while i < len(s) and (s[i].isdigit() or s[i] in "+-.eE"):
-        if s[i] in "eE" and not (i + 1 < len(s) and (s[i + 1].isdigit() or s[i + 1] in "+-")):
-            break
-        i += 1
-    return s[i:].strip()
+    return _LEADING_NUMBER.sub("", text, count=1).strip()
+
+
+_MAX_DEPTH = 32  # unknown values nested deeper than this are refused: nothing real needs more
+
+
+def _too_deep(value: object, limit: int = _MAX_DEPTH) -> bool:
+    stack = [(value, 0)]
+    while stack:
+        v, depth = stack.pop()
+        if depth > limit:
+            return True
+        if isinstance(v, dict):
+            stack.extend((x, depth + 1) for x in v.values())
+        elif isinstance(v, list):
+            stack.extend((x, depth + 1) for x in v)
+    return False
+
+
+def _tame_big_ints(value: object) -> object:
+    """Copy of parsed TOML with integers beyond the float range turned into ±inf,
+    so the normal checks can name the item and field instead of crashing."""
+    if isinstance(value, dict):
+        return {k: _tame_big_ints(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_tame_big_ints(v) for v in value]
+    if type(value) is int:
+        try:
+            float(value)
+        except OverflowError:
+            return math.inf if value > 0 else -math.inf
+    return value
 
 
 class _Items:
@@ -231,6 +266,8 @@ class _Items:
             extra = None
             if not ITEM_KEYS.issuperset(it):
                 extra = {k: val for k, val in it.items() if k not in ITEM_KEYS}
+                if _too_deep(extra):
+                    raise self.fail(i, None, f"a value is nested more than {_MAX_DEPTH} levels deep")
             if "inertia" in it:
                 if "shape" in it:
                     raise self.fail(i, "inertia", "give inertia or shape, not both")
@@ -260,6 +297,10 @@ class _Items:
                     t = shape.local_tensor(item.mass)
                 except SteelyardError as exc:
                     raise exc.located(file=src, subject=item_subject(ident))
+                except (OverflowError, FloatingPointError):
+                    raise self.fail(i, "shape", "dimensions too large to compute an inertia") from None
+                if not np.all(np.isfinite(t)):
+                    raise self.fail(i, "shape", "dimensions too large to compute an inertia")
                 own[i] = t
         if six_rows:
             rows = np.array(six_rows)
@@ -321,7 +362,7 @@ class _Items:
         if type(raw) is not dict:
             raise self.fail(i, "shape", "must be a table with kind and dimensions")
         kind = raw.get("kind")
-        if kind not in SHAPE_PARAMS:
+        if not isinstance(kind, str) or kind not in SHAPE_PARAMS:
             raise self.fail(i, "shape.kind", f"unknown shape {kind!r} (known: {', '.join(sorted(SHAPE_PARAMS))})")
         axis = raw.get("axis", "z")
         if axis not in ("x", "y", "z"):
@@ -485,6 +526,17 @@ def _envelope_problem(points: list) -> str | None:
 
 def ledger_from_data(data: object, *, source: str, progress: Progress | None = None) -> Ledger:
     """Build a ledger from parsed TOML, or raise a located SteelyardError."""
+    try:
+        return _ledger_from_data(data, source=source, progress=progress)
+    except OverflowError:  # an integer beyond the float range somewhere: find it properly
+        try:
+            tamed = _tame_big_ints(data)
+        except RecursionError:
+            raise FormatError("nested too deeply", file=source) from None
+        return _ledger_from_data(tamed, source=source, progress=progress)
+
+
+def _ledger_from_data(data: object, *, source: str, progress: Progress | None = None) -> Ledger:
     if not isinstance(data, dict):
         raise FormatError("not a steelyard ledger", file=source)
     version = data.get("steelyard")
@@ -509,6 +561,9 @@ def ledger_from_data(data: object, *, source: str, progress: Progress | None = N
     loadouts = read_loadouts(data.get("loadout"), index, arrays.variable, source)
     envelopes = read_envelopes(data.get("envelope"), units, source)
     extra = {k: v for k, v in data.items() if k not in TOP_KEYS}
+    for k, v in extra.items():
+        if _too_deep(v):
+            raise SteelyardError(f"nested more than {_MAX_DEPTH} levels deep", file=source, subject=repr(k))
     ledger = Ledger(tuple(items), units, frame, loadouts, envelopes, extra)
     ledger.__dict__["index"] = index
     return with_arrays(ledger, arrays)

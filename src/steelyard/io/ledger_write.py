@@ -88,9 +88,15 @@ def _envelope(env: Envelope, u: FileUnits) -> list[str]:
     return out
 
 
+def _is_table(v: object) -> bool:
+    """A table or an array of tables: these must come after every plain key."""
+    return isinstance(v, dict) or (isinstance(v, list) and bool(v) and all(isinstance(x, dict) for x in v))
+
+
 def ledger_to_toml(ledger: Ledger) -> str:
     u = ledger.units
-    blocks: list[list[str]] = [["steelyard = 1"]]
+    plain = {k: v for k, v in sorted(ledger.extra.items()) if not _is_table(v)}
+    blocks: list[list[str]] = [["steelyard = 1"] + [f"{key(k)} = {value(v)}" for k, v in plain.items()]]
     units = {"mass": u.mass, "length": u.length, "inertia": u.inertia, **dict(sorted(u.extra.items()))}
     blocks.append(["[units]"] + [f"{key(k)} = {string(v)}" for k, v in units.items()])
     f = ledger.frame
@@ -99,7 +105,7 @@ def ledger_to_toml(ledger: Ledger) -> str:
     blocks.extend(_loadout(lo) for lo in ledger.loadouts)
     blocks.extend(_envelope(env, u) for env in ledger.envelopes)
     text = "\n\n".join("\n".join(b) for b in blocks) + "\n"
-    rest = tables(dict(sorted(ledger.extra.items())))
+    rest = tables({k: v for k, v in sorted(ledger.extra.items()) if _is_table(v)})
     if rest:
         text += "\n" + rest
     return text

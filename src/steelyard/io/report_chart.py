@@ -37,16 +37,18 @@ def _rows(a) -> np.ndarray:
     return a[np.isfinite(a).all(axis=1)]
 
 
-def text_chart(polygon, points: Sequence[tuple[str, float, float]] = (), regions: Sequence = (), *,
-               width: int = 64, height: int = 18, x_label: str = "CG", y_label: str = "mass") -> list[str]:
-    """Envelope outline (k, 2) [cg, mass], marked points (mark, cg, mass) and dotted regions.
-
-    All values in display units. Mass grows upwards, CG to the right.
+def text_chart(polygon, points: Sequence[tuple[str, float, float]] = (), regions: Sequence = (),
+               paths: Sequence = (), *, width: int = 64, height: int = 18, x_label: str = "CG",
+               y_label: str = "mass") -> list[str]:
+    """Envelope outline (k, 2) [cg, mass], marked points (mark, cg, mass), dotted paths
+    (every second dot) and sparser dotted regions (every third). Values in display units;
+    mass grows upwards, CG to the right. Marks are drawn last, over lines.
     """
     poly = _rows(polygon)
     pts = [(m, float(c), float(w)) for m, c, w in points if math.isfinite(c) and math.isfinite(w)]
     regs = [_rows(r) for r in regions]
-    every = np.concatenate([poly, np.array([[c, w] for _, c, w in pts]).reshape(-1, 2), *regs])
+    lines = [_rows(p) for p in paths]
+    every = np.concatenate([poly, np.array([[c, w] for _, c, w in pts]).reshape(-1, 2), *regs, *lines])
     if len(every) == 0:
         return ["(nothing to chart)"]
     lo, hi = every.min(axis=0), every.max(axis=0)
@@ -55,7 +57,7 @@ def text_chart(polygon, points: Sequence[tuple[str, float, float]] = (), regions
     dots = np.zeros((4 * height, 2 * width), dtype=bool)
     sx, sy = (2 * width - 1) / (hi[0] - lo[0]), (4 * height - 1) / (hi[1] - lo[1])
 
-    def place(xy: np.ndarray, every_other: bool = False) -> None:
+    def place(xy: np.ndarray, stride: int = 1) -> None:
         if len(xy) < 2:
             return
         col, row = (xy[:, 0] - lo[0]) * sx, (hi[1] - xy[:, 1]) * sy
@@ -63,14 +65,15 @@ def text_chart(polygon, points: Sequence[tuple[str, float, float]] = (), regions
             n = int(2 * max(abs(col[k + 1] - col[k]), abs(row[k + 1] - row[k]))) + 2
             c = np.rint(np.linspace(col[k], col[k + 1], n)).astype(int)
             r = np.rint(np.linspace(row[k], row[k + 1], n)).astype(int)
-            if every_other:
-                c, r = c[::3], r[::3]
+            c, r = c[::stride], r[::stride]
             dots[np.clip(r, 0, 4 * height - 1), np.clip(c, 0, 2 * width - 1)] = True
 
     if len(poly):
         place(np.vstack([poly, poly[:1]]))
+    for line in lines:
+        place(line, stride=2)
     for reg in regs:
-        place(reg, every_other=True)
+        place(reg, stride=3)
     cells = (dots.reshape(height, 4, width, 2) * _BITS[None, :, None, :]).sum(axis=(1, 3))
     grid = [[chr(0x2800 + int(v)) if v else " " for v in row] for row in cells]
     for mark, c, w in pts:

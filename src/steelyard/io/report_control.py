@@ -18,8 +18,10 @@ from ..core.envelope import as_geometry
 from ..core.groups import prefixes
 from ..core.growth import allocation_margins, basic_and_predicted, growth_fractions
 from ..core.loadout import State
-from ..core.model import Ledger
+from ..core.errors import SteelyardError
+from ..core.model import FileUnits, Item, Ledger
 from ..core.status import AXIS_INDEX
+from ..core.units import parse_quantity, to_si
 from ..core.uncertainty import (monte_carlo, parse_tolerances, probability_outside, propagate,
                                 tolerance_kinds, worst_case)
 
@@ -34,6 +36,32 @@ def _num(x) -> float | None:
 
 def _vec(v) -> list:
     return [_num(x) for x in v]
+
+
+def tolerance_si(item: Item, units: FileUnits) -> tuple[str, float | None, list | None]:
+    """(kind, mass per unit, [x, y, z]) of an item's tolerance as written, SI; "5 %" made absolute."""
+    tol = item.extra["tolerance"]
+    subject = f"item {item.id!r}"
+    if not isinstance(tol, dict) or tol.get("kind") not in ("sigma", "bound"):
+        raise SteelyardError("tolerance needs kind = \"sigma\" or \"bound\"", subject=subject,
+                             field="tolerance")
+    mass = None
+    if "mass" in tol:
+        raw = tol["mass"]
+        if isinstance(raw, str) and raw.strip().endswith("%"):
+            mass = float(raw.strip()[:-1]) / 100.0 * item.mass
+        else:
+            mass = to_si(raw, "mass", units.mass)
+    cg = None
+    if "cg" in tol:
+        raw = tol["cg"] if isinstance(tol["cg"], list) else [tol["cg"]] * 3
+        cg = [to_si(v, "length", units.length) for v in raw]
+    return tol["kind"], mass, cg
+
+
+def growth_value(raw: object) -> float:
+    """An item's explicit `growth` (0.12 or \"12 %\") as a fraction."""
+    return parse_quantity(raw, "dimensionless") if isinstance(raw, str) else float(raw)
 
 
 def has_growth(ledger: Ledger) -> bool:

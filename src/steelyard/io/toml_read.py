@@ -48,3 +48,5 @@ def parse_toml(text: str, *, source: str, fast: bool = True) -> dict:
         raise FormatError(f"not valid TOML: {exc}", file=source) from None
     except RecursionError:
         raise FormatError("not valid TOML: nested too deeply", file=source) from None
+    except ValueError as exc:  # e.g. an integer longer than Python's digit limit
+        raise FormatError(f"not readable: {str(exc)[:120]}", file=source) from None
