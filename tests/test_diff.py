@@ -525,3 +525,13 @@ def test_human_report_has_units_and_the_caution(capsys):
     assert "Items ranked" in out and "Planning aid only" in out
     rc, out, _ = cli(capsys, "diff", f"{TRAINER}:solo-training", f"{TRAINER}:max-baggage", "--max-items", "1")
     assert "more (--max-items 0 shows all" in out
+
+
+def test_report_sends_no_raw_terminal_escapes(tmp_path, capsys):
+    # common practice: text from a file is data; an ESC in a name must not reach the terminal
+    nasty = "\\u001b[2J\\u001b[31mred\\u001b[0m [b]bold[/b]"
+    a = write(tmp_path / "a.toml")
+    b = write(tmp_path / "b.toml", name=nasty)
+    rc, out, _ = cli(capsys, "diff", a, b)
+    assert rc == 1
+    assert "\x1b" not in out and "[b]bold[/b]" in out and "␛[31mred" in out

@@ -92,6 +92,10 @@ d_cg_m = [0.0, 0.0, 0.0]
 
 [[sequence]]
 name = "cargo drop"
+loadout = "heavy <aft>"
+
+[[sequence.step]]
+remove = ["cargo"]
 """
 
 
@@ -118,7 +122,7 @@ def test_html_report_caution_names_and_escaping(ledger_path, tmp_path):
     assert "<script>" not in text and "<b>Fuel" not in text and "<wide>" not in text
     assert html.escape("heavy <aft>") in text and html.escape("B. <Late>") in text
     assert text.count("<svg") == 2  # one chart per envelope, inline
-    assert "url(" not in text and "@font-face" not in text  # the page fetches nothing when opened
+    assert "url(\"http" not in text and "@font-face" not in text  # the page fetches nothing when opened
     for svg in re.findall(r"<svg.*?</svg>", text, flags=re.S):
         ET.fromstring(svg)  # well-formed: rich escaped the names in the picture too
     assert "Basic vs predicted" in text and "P(outside), Monte Carlo" in text  # growth and tolerances
@@ -184,15 +188,26 @@ def test_since_filters_the_change_log(ledger_path, tmp_path):
     assert "old change before the baseline" in out_path.read_text()
 
 
-def test_sequences_listed_without_their_module(ledger_path, tmp_path):
+def test_sequence_against_envelopes(ledger_path, tmp_path):
     out_path = tmp_path / "r.md"
-    assert run("report", ledger_path, "-o", out_path, "--samples", "0").returncode == 0
+    out = run("report", ledger_path, "-o", out_path, "--samples", "0")
+    assert out.returncode == 0, out.stderr
     text = out_path.read_text()
     assert "## Sequences" in text and "cargo drop" in text
     try:
         import steelyard.core.sequence  # noqa: F401
     except ImportError:
         assert "not evaluated" in text
+        return
+    # from "heavy <aft>" (72 kg, x = 89/72 m) the cargo comes off: 42 kg at x = 41/42 m (CG = Σ m·x / Σ m)
+    box_x = Polygon([(0.9, 30.0), (0.9, 80.0), (1.1, 80.0), (1.1, 30.0)])
+    states = [(72.0, (40 * 1.0 + 2 * 0.5 + 30 * 1.6) / 72), (42.0, 41 / 42)]
+    outside = sum(not box_x.covers(Point(x, m)) for m, x in states)
+    line = next(s for s in text.splitlines() if s.startswith(f"| cargo drop | heavy &lt;aft&gt; | {md_escape(NASTY_ENV, cell=True)} |"))
+    cells = [c.strip() for c in line.strip("|").split("|")]
+    assert cells[3] == "2" and cells[4] == str(outside) == "1"
+    # least margin: the start, 1.1 - 89/72 m: outside the aft limit (negative)
+    assert cells[5] == f"{1.1 - states[0][1]:.5f}" and cells[6] == "start"
 
 
 def test_loadout_choice(ledger_path, tmp_path):
@@ -236,3 +251,18 @@ def test_md_escape_shows_text_literally():
     assert md_escape("<b>&") == "&lt;b&gt;&amp;"
     assert md_escape("1. first") == "1\\. first" and md_escape("# x") == "\\# x"
     assert md_escape("two\nlines") == "two lines"
+
+
+@pytest.mark.parametrize("argv", [
+    ["report", "{ledger}", "-o", "{tmp}/r.html", "--samples", "0"],
+    ["weigh", str(ROOT / "fixtures" / "weighing-example.toml"), "--json"],
+    ["export", "{ledger}", "--csv", "{tmp}/x.csv", "--json", "{tmp}/x.json"],
+])
+def test_headless_commands_do_not_import_textual(ledger_path, tmp_path, argv):
+    # DESIGN.md: headless commands never import Textual
+    code = ("import sys; from steelyard.cli.main import main; rc = main(sys.argv[1:]); "
+            "print('TEXTUAL' if 'textual' in sys.modules else 'CLEAN', file=sys.stderr); sys.exit(rc)")
+    args = [a.format(ledger=ledger_path, tmp=tmp_path) for a in argv]
+    out = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True)
+    assert out.returncode == 0, out.stderr
+    assert out.stderr.strip().endswith("CLEAN")

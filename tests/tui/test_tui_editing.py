@@ -14,7 +14,8 @@ from steelyard.core.display import fmt
 from steelyard.io.demo import demo_path
 from steelyard.tui.app import SteelyardApp
 from steelyard.tui.item_form import ItemForm
-from tui_helpers import DEMO, LB, close, copy_fixture, exact_totals, screen_text, settle, type_into, wait_loaded
+from tui_helpers import (DEMO, LB, close, copy_fixture, cursor_to, exact_totals, screen_text, settle, type_into,
+                         wait_loaded)
 
 SIZE = (80, 24)
 
@@ -72,7 +73,8 @@ async def test_undo_restores_bit_identical_totals_and_redo_reapplies(tmp_path):
         await wait_loaded(app, pilot)
         before = app.session.totals().mp
         shown_before = screen_text(app).splitlines()[-4:-1]
-        await pilot.press("down", "down", "e")
+        await cursor_to(app, pilot, "wing-l")
+        await pilot.press("e")
         await pilot.pause()
         await type_into(app, pilot, "f-mass", "150")
         await pilot.press("enter")
@@ -100,7 +102,8 @@ async def test_invalid_entry_shows_its_message_and_changes_nothing(tmp_path):
     async with app.run_test(size=SIZE) as pilot:
         await wait_loaded(app, pilot)
         ledger = app.session.ledger
-        await pilot.press("down", "down", "e")
+        await cursor_to(app, pilot, "wing-l")
+        await pilot.press("e")
         await pilot.pause()
         await type_into(app, pilot, "f-mass", "12 parsecs")
         text = screen_text(app)
@@ -123,7 +126,8 @@ async def test_save_reopen_equal_and_change_log_kept(tmp_path):
     app = SteelyardApp(str(path))
     async with app.run_test(size=SIZE) as pilot:
         await wait_loaded(app, pilot)
-        await pilot.press("down", "down", "d")  # duplicate
+        await cursor_to(app, pilot, "wing-l")
+        await pilot.press("d")  # duplicate
         await settle(pilot, app)
         await pilot.press("ctrl+s")
         await pilot.pause(0.2)
@@ -155,7 +159,8 @@ async def test_demo_save_asks_where_and_never_writes_the_package(tmp_path):
     app = SteelyardApp(None)
     async with app.run_test(size=SIZE) as pilot:
         await wait_loaded(app, pilot)
-        await pilot.press("down", "down", "x")
+        await cursor_to(app, pilot, "wing-l")
+        await pilot.press("x")
         await pilot.pause()
         await pilot.click("#answer-delete")
         await settle(pilot, app)
@@ -177,7 +182,8 @@ async def test_quit_with_unsaved_work_asks(tmp_path):
     app = SteelyardApp(str(path))
     async with app.run_test(size=SIZE) as pilot:
         await wait_loaded(app, pilot)
-        await pilot.press("down", "down", "d")
+        await cursor_to(app, pilot, "wing-l")
+        await pilot.press("d")
         await settle(pilot, app)
         await pilot.press("ctrl+q")
         await pilot.pause(0.2)

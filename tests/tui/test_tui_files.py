@@ -5,11 +5,12 @@ from __future__ import annotations
 import json
 import subprocess
 import sys
+from pathlib import Path
 
 from steelyard.io.lock import acquire, lock_path, this_host
 from steelyard.tui.app import SteelyardApp
 from steelyard.tui.item_form import ItemForm
-from tui_helpers import copy_fixture, screen_text, settle, wait_loaded
+from tui_helpers import copy_fixture, cursor_to, screen_text, settle, wait_loaded
 
 SIZE = (80, 24)
 
@@ -72,7 +73,8 @@ async def test_file_changed_on_disk_makes_save_ask(tmp_path):
     app = SteelyardApp(str(path))
     async with app.run_test(size=SIZE) as pilot:
         await wait_loaded(app, pilot)
-        await pilot.press("down", "down", "d")
+        await cursor_to(app, pilot, "wing-l")
+        await pilot.press("d")
         await settle(pilot, app)
         theirs = path.read_text() + "\n# edited elsewhere\n"
         path.write_text(theirs)  # someone else saved meanwhile
@@ -135,7 +137,8 @@ async def test_read_only_session_can_save_as_elsewhere_and_edit_there(tmp_path):
             await settle(pilot, app)
             assert mine.exists() and app.session.path == str(mine)
             assert not app.session.read_only and lock_path(mine).exists()
-            await pilot.press("down", "down", "m")  # move the item to another group: allowed now
+            await cursor_to(app, pilot, "wing-l")
+            await pilot.press("m")  # move the item to another group: allowed now
             await pilot.pause()
             await type_into(app, pilot, "prompt-input", "spares")
             await pilot.press("enter")
@@ -146,3 +149,28 @@ async def test_read_only_session_can_save_as_elsewhere_and_edit_there(tmp_path):
         assert first.held  # the other session's lock on the original was never touched
     finally:
         first.release()
+
+
+async def test_a_long_load_runs_in_a_thread_and_reports_progress(tmp_path):
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "perf"))
+    from make_ledger import write_ledger
+
+    from steelyard.tui.loading_screen import LoadingScreen
+    from steelyard.tui.messages import LoadProgress
+
+    path = tmp_path / "big.toml"
+    write_ledger(path, 20_000, seed=3)
+    seen: list[LoadProgress] = []
+    app = SteelyardApp(str(path))
+
+    def hook(message) -> None:
+        if isinstance(message, LoadProgress):
+            seen.append(message)
+
+    async with app.run_test(size=SIZE, message_hook=hook) as pilot:
+        await pilot.pause()
+        assert isinstance(app.screen, LoadingScreen)  # shown while the worker reads
+        await wait_loaded(app, pilot, timeout=120)
+        assert len(app.session.ledger.items) == 20_000
+    assert any(m.phase == "checking items" for m in seen)
+    assert not lock_path(path).exists()  # released when the app ended

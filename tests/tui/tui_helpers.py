@@ -111,3 +111,14 @@ async def type_into(app, pilot, widget_id: str, text: str, *, clear: bool = True
     if keys:
         await pilot.press(*keys)
     await pilot.pause()
+
+
+async def cursor_to(app, pilot, item_id: str, limit: int = 400) -> None:
+    """Press Down until the table's cursor is on `item_id` (keyboard only, like a user)."""
+    table = app.main.table
+    await pilot.press("home")
+    for _ in range(limit):
+        if table.current_item_id == item_id:
+            return
+        await pilot.press("down")
+    raise AssertionError(f"{item_id!r} is not in the table")

@@ -119,7 +119,9 @@ def load_side(spec: str, explicit: str | None, option: str, files: _Files, allow
             if not allow_mismatch:
                 raise SnapshotMismatch(f"{exc.message} (--allow-mismatch compares it anyway)", file=exc.file,
                                        subject=exc.subject, field=exc.field) from None
-            print(f"steelyard: warning: {exc}", file=sys.stderr)
+            from .render_diff import safe
+
+            print(safe(f"steelyard: warning: {exc}"), file=sys.stderr)
     else:
         check_loadout(loaded, loadout)
     return Side(spec, path, loadout, loaded, info)
@@ -148,9 +150,11 @@ def run(args) -> int:
         json.dump(diff_record(diff, a.source(), b.source()), sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
     elif diff.identical:
+        from .render_diff import safe
+
         n = len(diff.a.ids)
-        print(f"no differences: {a.label} and {b.label} carry the same {n:,} item{'s' if n != 1 else ''} "
-              "with the same values")
+        print(safe(f"no differences: {a.label} and {b.label} carry the same {n:,} item{'s' if n != 1 else ''} "
+                   "with the same values"))
     else:
         from .render_diff import print_diff
 

@@ -46,16 +46,19 @@ def chart_svg(chart) -> str:
     from rich.console import Console
     from rich.text import Text
 
-    lines = [*chart.lines, "", *(f"{m}  {t}" for m, t in chart.legend)]
+    legend = [f"{m}  {t}" for m, t in chart.legend]
+    lines = [*chart.lines, "", *legend]
     console = Console(record=True, file=io.StringIO(), width=max(len(s) for s in lines) + 1,
                       force_terminal=True, color_system="truecolor", highlight=False, markup=False)
     marks = {m for m, _ in chart.legend}
-    for line in lines:
+    for n, line in enumerate(lines):
+        # marks are styled inside the plot (right of the axis) and as a legend line's first character
+        start = next((j + 1 for j, ch in enumerate(line) if ch in "│┤"), len(line)) if n < len(chart.lines) else 1
         text = Text()
-        for ch in line:
+        for j, ch in enumerate(line):
             if "\u2800" <= ch <= "\u28ff":
                 text.append(ch, style="#4fa3e0")
-            elif ch in marks:
+            elif ch in marks and (j >= start if n < len(chart.lines) else j == 0):
                 text.append(ch, style="bold #ffb000")
             elif ch in "│┤└─┬":
                 text.append(ch, style="#888888")

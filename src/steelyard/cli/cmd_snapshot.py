@@ -46,8 +46,10 @@ def _verify(args) -> int:
     loaded = load_for_cli(args.file)
     info = verify_snapshot(loaded.ledger, file=loaded.path)
     what = f"loadout {info.loadout!r}" if info.loadout else "no loadout"
-    print(f"{loaded.path}: snapshot verified ({what}, taken {info.taken} by {info.author or 'unknown'}, "
-          f"content sha256 {info.content_sha256[:12]}…)")
+    from .render_diff import safe
+
+    print(safe(f"{loaded.path}: snapshot verified ({what}, taken {info.taken} by {info.author or 'unknown'}, "
+               f"content sha256 {info.content_sha256[:12]}…)"))
     return 0
 
 
@@ -82,5 +84,7 @@ def run(args) -> int:
         return 0
     write_atomic(out, text.encode("utf-8"))
     what = f"loadout {args.loadout!r}" if args.loadout else "no loadout (variable items empty)"
-    print(f"{out}: snapshot of {loaded.path}, {what}")
+    from .render_diff import safe
+
+    print(safe(f"{out}: snapshot of {loaded.path}, {what}"))
     return 0

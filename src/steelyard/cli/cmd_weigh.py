@@ -60,8 +60,8 @@ def _apply(args, loaded, w) -> dict:
     from ..io.report_weighing import weighed_ledger, weighing_summary
 
     ledger = loaded.ledger
-    new = weighed_ledger(ledger, w)
     try:
+        new = weighed_ledger(ledger, w)
         new, logged = _with_log(ledger, new, w.replaces, weighing_summary(ledger, w), _author(args))
     except SteelyardError as exc:
         raise exc.located(file=loaded.path)

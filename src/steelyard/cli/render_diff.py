@@ -1,6 +1,13 @@
-"""Human-readable diff report: rich tables on stdout, numbers in display units."""
+"""Human-readable diff report: rich tables on stdout, numbers in display units.
+
+Ids, names, groups, paths and loadout names come from files anyone can write:
+each reaches the terminal as a rich Text with control characters made visible
+(never as markup), so a name cannot clear the screen or restyle the report.
+"""
 
 from __future__ import annotations
+
+import re
 
 from rich.console import Console
 from rich.table import Table
@@ -11,6 +18,21 @@ from ..core.diff import LedgerDiff, change_rows
 from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from ..core.model import FileUnits
 
+# C0 and C1 controls, DEL, and the bidirectional overrides/isolates
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+
+
+def safe(text: object) -> str:
+    """Text with each control character shown as a visible symbol (␛ for ESC)."""
+    def visible(m: re.Match) -> str:
+        code = ord(m.group(0))
+        return chr(0x2400 + code) if code < 0x20 else "\u2421" if code == 0x7F else "\ufffd"
+    return _CONTROL.sub(visible, text if isinstance(text, str) else str(text))
+
+
+def T(text: object, style: str = "") -> Text:  # noqa: N802 - reads like the Text it makes
+    return Text(safe(text), style=style)
+
 
 def _signed(x: float | None, digits: int = 4) -> str:
     if x is None or x != x:
@@ -20,7 +42,7 @@ def _signed(x: float | None, digits: int = 4) -> str:
 
 def _more(console: Console, total: int, shown: int) -> None:
     if total > shown:
-        console.print(Text(f"… and {total - shown:,} more (--max-items 0 shows all, --json gives every row)",
+        console.print(T(f"… and {total - shown:,} more (--max-items 0 shows all, --json gives every row)",
                            style="italic"))
 
 
@@ -39,7 +61,7 @@ def _item_table(console, title, ids, side, du, max_items) -> None:
     shown = _limit(len(ids), max_items)
     for item_id in ids[:shown]:
         i = side.ledger.index[item_id]
-        t.add_row(Text(item_id), Text(side.labels[i]), fmt(du.m(side.row_mass[i])),
+        t.add_row(T(item_id), T(side.labels[i]), fmt(du.m(side.row_mass[i])),
                   *(fmt(du.l(side.cg[i, k])) for k in range(3)))
     console.print(t)
     _more(console, len(ids), shown)
@@ -56,7 +78,7 @@ def _changed_table(console, diff: LedgerDiff, du, max_items) -> None:
         first = True
         for name, (old, new) in c.fields.items():
             for label, a_text, b_text in change_rows(name, old, new, du):
-                t.add_row(Text(c.id if first else ""), Text(label), Text(a_text), Text(b_text))
+                t.add_row(T(c.id if first else ""), T(label), T(a_text), T(b_text))
                 first = False
     console.print(t)
     _more(console, len(diff.changed), shown)
@@ -73,7 +95,7 @@ def _ranked_table(console, diff: LedgerDiff, du, max_items) -> None:
                      overflow="fold" if col == "id" else "ellipsis")
     shown = _limit(len(diff.ranked), max_items)
     for k, r in enumerate(diff.ranked[:shown], 1):
-        t.add_row(str(k), Text(r.id), r.kind, _signed(du.m(r.mass_delta)),
+        t.add_row(str(k), T(r.id), r.kind, _signed(du.m(r.mass_delta)),
                   *(_signed(du.l(v)) for v in r.cg_shift), fmt(du.l(r.shift)))
     console.print(t)
     _more(console, len(diff.ranked), shown)
@@ -99,7 +121,7 @@ def _totals(console, diff: LedgerDiff, du) -> None:
             t.add_row(f"principal {k + 1} [{iu}]", fmt(du.i(a.principal_moments[k])),
                       fmt(du.i(b.principal_moments[k])), _signed(du.i(diff.delta_principal[k])))
     console.print(t)
-    console.print(Text("Inertia about each side's own CG, tensor form (off-diagonals are minus the products "
+    console.print(T("Inertia about each side's own CG, tensor form (off-diagonals are minus the products "
                        "of inertia); principal moments ascending.", style="italic"))
 
 
@@ -118,10 +140,10 @@ def _envelopes(console, diff: LedgerDiff, du) -> None:
     for e in diff.envelopes:
         margin = [None if r is None or r.margin is None else du.l(r.margin) for r in (e.a, e.b)]
         delta = None if e.margin_delta is None else du.l(e.margin_delta)
-        t.add_row(Text(e.name), _status(e.a), _status(e.b), fmt(margin[0]), fmt(margin[1]), _signed(delta),
+        t.add_row(T(e.name), _status(e.a), _status(e.b), fmt(margin[0]), fmt(margin[1]), _signed(delta),
                   "status changed" if e.status_changed else "")
     console.print(t)
-    console.print(Text(CAUTION, style="italic"))
+    console.print(T(CAUTION, style="italic"))
 
 
 def _definitions(console, title: str, d) -> None:
@@ -132,20 +154,21 @@ def _definitions(console, title: str, d) -> None:
     for name, fields in d.changed:
         for k, (old, new) in fields.items():
             lines.append(f"  {name}: {k}: {old!r} → {new!r}")
-    console.print(Text("\n".join(lines)))
+    for line in lines:
+        console.print(T(line))
 
 
 def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None, max_items: int,
                file_units: FileUnits | None, console: Console | None = None) -> None:
     console = console or Console(highlight=False, markup=False)
     du = DisplayUnits.choose(file_units or FileUnits(), system)
-    console.print(Text(f"Compare A: {a_label}  →  B: {b_label}", style="bold"))
-    console.print(Text(f"{len(diff.added):,} added, {len(diff.removed):,} removed, {len(diff.changed):,} changed "
+    console.print(T(f"Compare A: {a_label}  →  B: {b_label}", style="bold"))
+    console.print(T(f"{len(diff.added):,} added, {len(diff.removed):,} removed, {len(diff.changed):,} changed "
                        f"(A has {len(diff.a.ids):,} items, B {len(diff.b.ids):,}); compared as carried, SI values "
                        "equal within a few ulps count as the same"))
     if diff.frame:
         moved = ", ".join(f"+{k} {o} → {n}" for k, (o, n) in diff.frame.items())
-        console.print(Text(f"Body frame differs ({moved}): coordinates of A and B mean different directions.",
+        console.print(T(f"Body frame differs ({moved}): coordinates of A and B mean different directions.",
                            style="bold"))
     _item_table(console, "Added items (in B, not in A)", list(diff.added), diff.b, du, max_items)
     _item_table(console, "Removed items (in A, not in B)", list(diff.removed), diff.a, du, max_items)

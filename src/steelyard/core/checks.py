@@ -21,7 +21,8 @@ from .limits import (EnvelopeSpec, LimitSpec, MacRef, applies, envelope_specs, e
 from .loadout import fill_fractions, is_removable, loadout_condition, state_from_fill
 from .model import Ledger
 from .rollup import rollup_state
-from .sequence import Path, Step, build_path, sequence_specs
+from .sequence import sequence_specs
+from .sequence_path import Path, Step, build_path
 from .status import AXIS_INDEX, geometry
 from .tank import tank_tables
 

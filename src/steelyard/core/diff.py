@@ -406,7 +406,8 @@ def _loadout_definitions(a: Ledger, b: Ledger) -> DefinitionChanges:
         fields: dict = {}
         if x.base != y.base:
             fields["base"] = (x.base, y.base)
-        for item_id in list(x.set) + [k for k in y.set if k not in x.set]:
+        same_set = x.set == y.set  # as written: the common case, decided at C speed
+        for item_id in [] if same_set else list(x.set) + [k for k in y.set if k not in x.set]:
             u, v = _amount(x.set.get(item_id)), _amount(y.set.get(item_id))
             if not _same(u, v):
                 fields[f"set.{item_id}"] = (u, v)
@@ -432,8 +433,11 @@ def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> 
     """
     b_index = b.ledger.index
     a_index = a.ledger.index
-    ib_all = np.fromiter(map(b_index.get, a.ids, repeat(-1)), np.int64, len(a.ids))
-    ia_all = np.fromiter(map(a_index.get, b.ids, repeat(-1)), np.int64, len(b.ids))
+    if a.ids == b.ids:  # same items in the same order (two loadouts, a snapshot of this ledger)
+        ib_all = ia_all = np.arange(len(a.ids), dtype=np.int64)
+    else:
+        ib_all = np.fromiter(map(b_index.get, a.ids, repeat(-1)), np.int64, len(a.ids))
+        ia_all = np.fromiter(map(a_index.get, b.ids, repeat(-1)), np.int64, len(b.ids))
     matched = np.flatnonzero(ib_all >= 0)
     ia, ib = matched, ib_all[matched]
     masks = _item_masks(a, b, ia, ib)

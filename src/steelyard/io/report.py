@@ -23,7 +23,8 @@ from ..core.groups import GroupTotal, subtotals
 from ..core.loadout import resolve
 from ..core.model import Ledger
 from ..core.rollup import MassProperties, rollup_state
-from ..core.status import EnvelopeResult, envelope_results
+from ..core.envelope import evaluate
+from ..core.status import AXIS_INDEX, EnvelopeResult, envelope_results
 from .report_chart import MARKS, text_chart
 from .report_control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth, uncertainty_region
 from .report_weighing import weigh_ledger, weighing_record
@@ -32,6 +33,9 @@ from .report_weighing import weigh_ledger, weighing_record
 ITEM_ROWS = 2000
 #: uncertainty regions on the charts are k-sigma ellipses (86.5 % under the normal approximation)
 REGION_SIGMA = 2.0
+#: a sequence path is drawn through at most about this many of its states
+CHART_PATH_POINTS = 2000
+PATH_MARKS = "abcdefghjkmnpqrstuvwxyz"
 
 
 @dataclass(frozen=True)
@@ -67,7 +71,7 @@ class Report:
     control: dict
     loadouts: list[LoadoutResult]
     charts: list[Chart]
-    sequences: dict  # {"names": [...], "note": str | None, "rows": [...]}
+    sequences: dict  # {"names": [...], "note": str | None, "rows": [...], "paths": [core.sequence.Path]}
     changes: list[dict]
     since: str | None
     weighing: dict | None
@@ -115,18 +119,43 @@ def changes_since(ledger: Ledger, since: dt.datetime | None) -> list[dict]:
     return out
 
 
+def _state_label(path, i: int) -> str:
+    """Where along a sequence state i lies: "start", or its step's label (and progress of a burn)."""
+    if i == 0 or path.step[i] == 0:
+        return "start"
+    step = path.steps[int(path.step[i]) - 1]
+    done = float(path.progress[i])
+    return step.label if step.kind != "burn" or done >= 1.0 else f"{step.label} ({100 * done:.0f} %)"
+
+
 def _sequences(ledger: Ledger) -> dict:
+    """Each sequence against each envelope: states outside, least margin and where it falls."""
     raw = ledger.extra.get("sequence")
     if not raw:
-        return {"names": [], "note": None, "rows": []}
-    names = [str(s.get("name", f"#{k + 1}")) for k, s in enumerate(raw if isinstance(raw, list) else [raw])
-             if isinstance(s, dict)]
+        return {"names": [], "note": None, "rows": [], "paths": []}
     try:
-        importlib.import_module("steelyard.core.sequence")
+        seq = importlib.import_module("steelyard.core.sequence")
     except ImportError:
+        names = [str(s.get("name", f"#{k + 1}")) for k, s in enumerate(raw if isinstance(raw, list) else [raw])
+                 if isinstance(s, dict)]
         return {"names": names, "note": "not evaluated: this version of steelyard has no sequence module",
-                "rows": []}
-    return {"names": names, "note": "listed only: the report does not evaluate sequences yet", "rows": []}
+                "rows": [], "paths": []}
+    rows, paths = [], []
+    for spec in seq.sequence_specs(ledger):
+        path = seq.sequence_path(ledger, spec.name)
+        paths.append(path)
+        for env in ledger.envelopes:
+            st = evaluate(env.array, path.cg[:, AXIS_INDEX[env.axis]], path.mass)
+            margin = np.where(np.isfinite(st.margin), st.margin, -np.inf)
+            least = int(np.argmin(margin))
+            outside = ~st.inside
+            rows.append({"sequence": spec.name, "loadout": spec.loadout, "states": len(path),
+                         "envelope": env.name, "axis": env.axis, "outside": int(outside.sum()),
+                         "least_margin_m": float(margin[least]) if np.isfinite(margin[least]) else None,
+                         "least_at": _state_label(path, least),
+                         "first_outside_at": _state_label(path, int(np.argmax(outside))) if outside.any() else None,
+                         "end_mass_kg": float(path.mass[-1]), "end_cg_m": path.cg[-1].tolist()})
+    return {"names": [p.name for p in paths], "note": None, "rows": rows, "paths": paths}
 
 
 def _result(ledger: Ledger, name: str | None, mark: str, samples: int, seed: int) -> LoadoutResult:
@@ -137,7 +166,7 @@ def _result(ledger: Ledger, name: str | None, mark: str, samples: int, seed: int
                          control_record(ledger, state, samples=samples, seed=seed))
 
 
-def _chart(ledger: Ledger, env, results: list[LoadoutResult], du: DisplayUnits) -> Chart:
+def _chart(ledger: Ledger, env, results: list[LoadoutResult], du: DisplayUnits, sequences=()) -> Chart:
     k = "xyz".index(env.axis)
     poly = np.column_stack([du.l(env.array[:, 0]), du.m(env.array[:, 1])])
     points, regions, legend = [], [], []
@@ -151,8 +180,18 @@ def _chart(ledger: Ledger, env, results: list[LoadoutResult], du: DisplayUnits) 
         legend.append((r.mark, f"{r.label}: {'inside' if status.inside else 'OUTSIDE'}"))
     if regions:
         legend.append(("┄", f"{REGION_SIGMA:g}-sigma uncertainty region of each loading (normal approximation)"))
+    paths, ends = [], []
+    for j, path in enumerate(sequences):
+        mark = PATH_MARKS[j % len(PATH_MARKS)]
+        step = max(1, len(path) // CHART_PATH_POINTS)
+        keep = np.r_[np.arange(0, len(path), step), len(path) - 1]
+        paths.append(np.column_stack([du.l(path.cg[keep, k]), du.m(path.mass[keep])]))
+        ends.append((mark, du.l(path.cg[-1, k]), du.m(path.mass[-1])))
+        legend.append((mark, f"end of sequence {path.name!r}; the dotted line is its path from loadout "
+                             f"{path.loadout!r}"))
     axis_word = f"CG {AXIS_NAMES[k]} (+{ledger.frame.direction(k)}) [{pretty_unit(du.length)}]"
-    lines = text_chart(poly, points, regions, x_label=axis_word, y_label=f"mass [{pretty_unit(du.mass)}]")
+    # loadings drawn last: where a sequence ends on a loading, the loading's mark shows
+    lines = text_chart(poly, ends + points, regions, paths, x_label=axis_word, y_label=f"mass [{pretty_unit(du.mass)}]")
     return Chart(env.name, env.axis, lines, legend)
 
 
@@ -167,7 +206,9 @@ def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], sys
     try:
         results = [_result(ledger, name, MARKS[k % len(MARKS)], samples, seed) for k, name in enumerate(loadouts)]
         control = control_record(ledger, empty_state, samples=0)
-        charts = [_chart(ledger, env, results, du) for env in ledger.envelopes] if results else []
+        sequences = _sequences(ledger)
+        charts = ([_chart(ledger, env, results, du, sequences["paths"]) for env in ledger.envelopes]
+                  if results or sequences["paths"] else [])
     except SteelyardError as exc:
         raise exc.located(file=source)
     weighing = weighing_record(weigh_ledger(ledger, source=source)) if "weighing" in ledger.extra else None
@@ -175,7 +216,7 @@ def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], sys
 
     when = (now or dt.datetime.now(dt.timezone.utc)).strftime("%Y-%m-%d %H:%M UTC")
     return Report(source=source, generated=when, units=du, ledger=ledger, empty=empty, groups=groups,
-                  control=control, loadouts=results, charts=charts, sequences=_sequences(ledger),
+                  control=control, loadouts=results, charts=charts, sequences=sequences,
                   changes=changes_since(ledger, since),
                   since=None if since is None else since.strftime("%Y-%m-%d %H:%M UTC"), weighing=weighing,
                   items_left_out=max(0, len(ledger.items) - ITEM_ROWS),

@@ -173,13 +173,23 @@ def _charts(r: Report) -> list[Block]:
     return out
 
 
-def _sequences(r: Report) -> list[Block]:
+def _sequences(r: Report, u: _Units) -> list[Block]:
     s = r.sequences
     if not s["names"]:
         return []
-    out = [Block("h2", "Sequences"), Block("list", items=tuple(s["names"]))]
+    out = [Block("h2", "Sequences")]
     if s["note"]:
-        out.append(Block("p", f"Sequences {s['note']}."))
+        return out + [Block("list", items=tuple(s["names"])), Block("p", f"Sequences {s['note']}.")]
+    if not s["rows"]:
+        return out + [Block("list", items=tuple(s["names"])), Block("p", "No envelope to check them against.")]
+    rows = [[x["sequence"], x["loadout"], x["envelope"], str(x["states"]), str(x["outside"]),
+             u.l(x["least_margin_m"]), x["least_at"], x["first_outside_at"] or "—"] for x in s["rows"]]
+    out += [_table(["sequence", "from loadout", "envelope", "states", "outside", f"least margin [{u.lu}]",
+                    "least margin at", "first outside at"], rows, 3),
+            Block("p", "Every state of each burn or drop sequence, envelope crossings included, checked against "
+                       "every envelope; a state outside an envelope's mass range has no margin and counts "
+                       "as outside."),
+            Block("caution", r.caution)]
     return out
 
 
@@ -219,5 +229,5 @@ def _changes(r: Report) -> list[Block]:
 def report_blocks(report: Report) -> list[Block]:
     u = _Units(report)
     return [*_intro(report, u), *_weight_statement(report, u), *_growth(report, u), *_loadouts(report, u),
-            *_charts(report), *_sequences(report), *_weighing(report, u), *_items(report, u),
+            *_sequences(report, u), *_charts(report), *_weighing(report, u), *_items(report, u),
             *_changes(report), Block("caution", report.caution)]

@@ -58,15 +58,19 @@ def text_chart(polygon, points: Sequence[tuple[str, float, float]] = (), regions
     sx, sy = (2 * width - 1) / (hi[0] - lo[0]), (4 * height - 1) / (hi[1] - lo[1])
 
     def place(xy: np.ndarray, stride: int = 1) -> None:
+        """Dots along a polyline; `stride` > 1 keeps every stride-th dot of the whole line (dotted)."""
         if len(xy) < 2:
             return
         col, row = (xy[:, 0] - lo[0]) * sx, (hi[1] - xy[:, 1]) * sy
-        for k in range(len(xy) - 1):
-            n = int(2 * max(abs(col[k + 1] - col[k]), abs(row[k + 1] - row[k]))) + 2
-            c = np.rint(np.linspace(col[k], col[k + 1], n)).astype(int)
-            r = np.rint(np.linspace(row[k], row[k + 1], n)).astype(int)
-            c, r = c[::stride], r[::stride]
-            dots[np.clip(r, 0, 4 * height - 1), np.clip(c, 0, 2 * width - 1)] = True
+        n = (2 * np.maximum(np.abs(np.diff(col)), np.abs(np.diff(row)))).astype(int) + 2
+        t = np.concatenate([np.linspace(0.0, 1.0, k) for k in n])
+        seg = np.repeat(np.arange(len(n)), n)
+        c = np.rint(col[seg] + t * (col[seg + 1] - col[seg])).astype(int)
+        r = np.rint(row[seg] + t * (row[seg + 1] - row[seg])).astype(int)
+        keep = np.ones(len(c), bool)
+        keep[1:] = (c[1:] != c[:-1]) | (r[1:] != r[:-1])  # one dot per raster step, then thin
+        c, r = c[keep][::stride], r[keep][::stride]
+        dots[np.clip(r, 0, 4 * height - 1), np.clip(c, 0, 2 * width - 1)] = True
 
     if len(poly):
         place(np.vstack([poly, poly[:1]]))

@@ -48,8 +48,13 @@ class EditFlows:
         return preview_text(s.totals(), s.totals_for(new_ledger), s.ledger.frame, s.units)
 
     def _current(self) -> str | None:
+        """The item under the table's cursor; says so when the cursor is on a group row."""
         table = self.screen.query(LedgerTable)
-        return table.first().current_item_id if table else None
+        item_id = table.first().current_item_id if table else None
+        if item_id is None and self.session is not None:
+            self.notify("Put the cursor on an item row first (Enter on a group row folds it).",
+                        markup=False, timeout=3)
+        return item_id
 
     # ------------------------------------------------------------ the form
     def action_add(self) -> None:

@@ -49,7 +49,7 @@ def status_text(totals: Totals, ledger: Ledger, du: DisplayUnits) -> Text:
     return t
 
 
-class EnvelopePanel(Vertical):
+class EnvelopePanel(Vertical, can_focus=True):
     """Which envelope the chart shows is view state (`choice`); the rest is pushed in."""
 
     def __init__(self, **kw) -> None:

@@ -44,7 +44,9 @@ class FileFlows:
         what = "the demo ledger" if path is None else path
         self._loading = LoadingScreen(what)
         self.push_screen(self._loading)
-        self._load_worker(path, first)
+        # start reading once the progress screen is painted: a parser holding the GIL
+        # would otherwise keep even the first frame off the screen
+        self.call_after_refresh(self._load_worker, path, first)
 
     @work(thread=True, exclusive=True, group="load", description="load ledger")
     def _load_worker(self, path: str | None, first: bool) -> None:
@@ -161,7 +163,7 @@ class FileFlows:
         flags: dict[str, bool] = {}
         while True:
             try:
-                written = await asyncio.to_thread(s.save, path, **flags)
+                written = await asyncio.to_thread(s.save, path, snapshot=s.snapshot(), **flags)
             except ChangedOnDisk:
                 choice = await self._ask(
                     "The file changed on disk since it was opened (someone else saved it?). Overwrite their "

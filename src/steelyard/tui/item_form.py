@@ -22,7 +22,7 @@ from ..core.display import pretty_unit
 from ..core.errors import SteelyardError
 from ..core.model import Item, Ledger
 from .edits import add_item, replace_item
-from .form_values import (GIVEN_INERTIA, check_loadouts, density_unit, initial_fields, item_from_fields, kinds,
+from .form_values import (GIVEN_INERTIA, check_loadouts, initial_fields, item_from_fields, kinds,
                           shape_fields)
 from .text import clean, literal
 
@@ -59,7 +59,7 @@ class ItemForm(ModalScreen[FormResult | None]):
         what = "Add an item" if self.original is None else f"Edit item {clean(self.original.id)}"
         with VerticalScroll(id="form-box"):
             yield Static(Text(what, style="bold") + Text(
-                " · plain numbers in file units, or with a unit: 41.5 lb, 3 ft 2 in", style="dim"),
+                " · plain number = file units · or with a unit: 41.5 lb, 3 ft 2 in", style="dim"),
                 id="form-title")
             with Grid(id="form-grid"):
                 for key, label in (("id", "id"), ("name", "name"), ("group", "group"), ("quantity", "quantity"),
@@ -67,7 +67,7 @@ class ItemForm(ModalScreen[FormResult | None]):
                                    ("density", "density"), ("x", f"x [{lu}]"),
                                    ("y", f"y [{lu}]"), ("z", f"z [{lu}]"), ("rotate", "turns")):
                     yield Label(Text(label), classes="form-label")
-                    placeholder = {"density": f"e.g. 6 lb/gal (plain: {pretty_unit(density_unit(u))})", "rotate": "e.g. z 10, x -5", "group": "e.g. power/storage"}.get(key, "")
+                    placeholder = {"density": "e.g. 6 lb/gal", "rotate": "e.g. z 10, x -5", "group": "e.g. power/storage"}.get(key, "")
                     yield Input(self.start.get(key, ""), id=fid(key), compact=True, placeholder=placeholder)
                 yield Label("shape", classes="form-label")
                 yield Select([(k, k) for k in kinds()], value=self.start["kind"], allow_blank=False,

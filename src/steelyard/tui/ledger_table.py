@@ -8,6 +8,7 @@ kept here; edits are asked for with messages, never made here.
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -207,8 +208,6 @@ class LedgerTable(ScrollView, can_focus=True):
             if k == self.cursor:
                 style = style + self.get_component_rich_style("ledger-table--cursor")
             if self.painted_at is None and self.ledger is not None:
-                import time
-
                 self.painted_at = time.perf_counter()
         strip = Strip([Segment(text, style)], cell_len(text))
         return strip.crop_extend(scroll_x, scroll_x + width, base)

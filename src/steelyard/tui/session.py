@@ -193,12 +193,19 @@ class Session:
         return self.history.redo()
 
     # ---------------------------------------------------------------- files
+    def snapshot(self) -> tuple[Ledger, tuple]:
+        """What a save writes: the ledger and its full change log (call on the UI thread)."""
+        self.flush()
+        return self.ledger, self.history.log
+
     def save(self, path: str | None = None, *, allow_comment_loss: bool = False,
-             overwrite_changed: bool = False) -> str:
+             overwrite_changed: bool = False, snapshot: tuple[Ledger, tuple] | None = None) -> str:
         """Write the ledger and its change log atomically; returns the path written.
 
-        Raises ChangedOnDisk / CommentsWouldBeLost (from io) for the caller to
-        ask about, and SteelyardError when there is nowhere to save yet.
+        `snapshot` (from `snapshot()`) lets the write run in a worker thread
+        while edits go on. Raises ChangedOnDisk / CommentsWouldBeLost (from io)
+        for the caller to ask about, and SteelyardError when there is nowhere
+        to save yet.
         """
         target = path or self.path
         if target is None:
@@ -216,10 +223,9 @@ class Session:
                                      file=target) from None
             except LockUnavailable as exc:
                 raise SteelyardError(f"cannot save there: {exc.message}", file=target) from None
-        self.flush()
-        ledger = self.ledger
+        ledger, log = snapshot if snapshot is not None else self.snapshot()
         try:
-            record = save_ledger(target, ledger_with_log(ledger, self.history.log),
+            record = save_ledger(target, ledger_with_log(ledger, log),
                                  loaded=self.loaded if same else None,
                                  allow_comment_loss=allow_comment_loss, overwrite_changed=overwrite_changed)
         except BaseException:

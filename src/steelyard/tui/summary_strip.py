@@ -44,9 +44,15 @@ class SummaryStrip(Static):
     def __init__(self, **kw) -> None:
         super().__init__("", **kw)
         self.painted_at: float | None = None
+        self._lines = -1
 
     def show(self, totals: Totals, frame: Frame, du: DisplayUnits) -> None:
-        self.update(summary_text(totals, frame, du, max(40, self.size.width - 2)))
+        width = max(40, self.size.width - 2)
+        text = summary_text(totals, frame, du, width)
+        lines = len(text.wrap(self.app.console, width))
+        # same height: repaint the strip only, without laying out the screen again
+        self.update(text, layout=lines != self._lines)
+        self._lines = lines
 
     def render(self):
         self.painted_at = time.perf_counter()
