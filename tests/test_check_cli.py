@@ -294,3 +294,18 @@ def test_rollup_shows_percent_mac_and_both_margins():
     row = next(line for line in text.splitlines() if line.strip().startswith("normal"))
     assert row.split()[-2] == "1.50"
     assert max(len(line) for line in text.splitlines()) <= 80
+
+
+def test_names_with_terminal_escapes_are_shown_not_obeyed(tmp_path):
+    # common practice for terminal programs: control characters from data never reach the terminal raw
+    text = OVER.read_text().replace('name = "ferry"', 'name = "ferry\\u001b[2J"').replace(
+        'name = "normal"', 'name = "normal\\u001b]0;x\\u0007"')
+    p = tmp_path / "esc.toml"
+    p.write_text(text)
+    out = run("check", p)
+    assert out.returncode == 1
+    assert "\x1b" not in out.stdout and "\x07" not in out.stdout and "ferry␛[2J" in out.stdout
+    out = run("solve", "ballast", p, "--loadout", "nose-heavy", "--item", "tail-ballast")
+    assert out.returncode == 0 and "\x1b" not in out.stdout
+    out = run("rollup", p, "--loadout", "ferry\x1b[2J")
+    assert out.returncode == 0 and "\x1b" not in out.stdout.split("CG envelopes")[1]

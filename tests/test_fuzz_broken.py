@@ -343,6 +343,11 @@ KNOWN_CRASHERS = {
     "top-level-value-saves-into-frame": "steelyard = 1\nrevision = 3\n",
     "top-level-value-clashes-on-save": ('steelyard = 1\nname = "x"\n[[envelope]]\nname = "e"\naxis = "x"\n'
                                         "points = [[1, 1], [1, 2], [2, 2]]\n"),
+    # RecursionError when saving: a deep value in an envelope's or loadout's unknown keys (the item
+    # and top-level cases are refused at load time; these two are kept and break the writer)
+    "deep-value-in-envelope-saves": ('steelyard = 1\n[[envelope]]\nname = "e"\naxis = "x"\n'
+                                     'points = [[1, 1], [1, 2], [2, 2]]\n' + ".".join(["a"] * 1200) + " = 1\n"),
+    "deep-value-in-loadout-saves": 'steelyard = 1\n[[loadout]]\nname = "l"\n' + ".".join(["a"] * 1200) + " = 1\n",
     # TypeError: unhashable type: 'list' (ledger_read._shape: `kind not in SHAPE_PARAMS`)
     "shape-kind-is-a-list": _ONE.format(mass="1", cg="[0, 0, 0]", more="shape = { kind = [] }"),
     # ValueError from tomllib itself (Python's 4300-digit int limit), not a TOMLDecodeError

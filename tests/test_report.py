@@ -203,7 +203,8 @@ def test_sequence_against_envelopes(ledger_path, tmp_path):
     box_x = Polygon([(0.9, 30.0), (0.9, 80.0), (1.1, 80.0), (1.1, 30.0)])
     states = [(72.0, (40 * 1.0 + 2 * 0.5 + 30 * 1.6) / 72), (42.0, 41 / 42)]
     outside = sum(not box_x.covers(Point(x, m)) for m, x in states)
-    line = next(s for s in text.splitlines() if s.startswith(f"| cargo drop | heavy &lt;aft&gt; | {md_escape(NASTY_ENV, cell=True)} |"))
+    head = f"| cargo drop | heavy &lt;aft&gt; | {md_escape(NASTY_ENV, cell=True)} |"
+    line = next(s for s in text.splitlines() if s.startswith(head))
     cells = [c.strip() for c in line.strip("|").split("|")]
     assert cells[3] == "2" and cells[4] == str(outside) == "1"
     # least margin: the start, 1.1 - 89/72 m: outside the aft limit (negative)
@@ -266,3 +267,21 @@ def test_headless_commands_do_not_import_textual(ledger_path, tmp_path, argv):
     out = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
     assert out.stderr.strip().endswith("CLEAN")
+
+
+def test_control_characters_never_reach_the_files(tmp_path):
+    # XML 1.0 forbids C0 controls but tab/newline; a report must stay well-formed and inert
+    text = LEDGER.replace('name = "light"', 'name = "li\\u001b[31mght\\u0007"')
+    path = tmp_path / "esc.toml"
+    path.write_text(text)
+    for name in ("e.html", "e.md"):
+        out = run("report", path, "-o", tmp_path / name, "--samples", "0")
+        assert out.returncode == 0, out.stderr
+        body = (tmp_path / name).read_text()
+        assert "\x1b" not in body and "\x07" not in body
+        assert ("li?[31mght?" if name.endswith("html") else md_escape("li?[31mght?")) in body
+    for svg in tmp_path.glob("*.svg"):
+        assert "\x1b" not in svg.read_text()
+        ET.parse(svg)
+    for svg in re.findall(r"<svg.*?</svg>", (tmp_path / "e.html").read_text(), flags=re.S):
+        ET.fromstring(svg)

@@ -185,3 +185,13 @@ def test_bad_weighing_is_one_line_exit_2(tmp_path, text, parts):
 def test_output_without_apply_is_usage_error():
     out = run("weigh", FIXTURE, "-o", "x.toml")
     assert out.returncode == 2 and "--apply" in out.stderr
+
+
+def test_names_with_terminal_escapes_are_not_sent_raw(tmp_path):
+    # common practice: text from a file never reaches the terminal as control sequences
+    text = FIXTURE.read_text().replace('name = "left main"', 'name = "left\\u001b[2J main"')
+    path = tmp_path / "esc.toml"
+    path.write_text(text)
+    out = run("weigh", path)
+    assert out.returncode == 0, out.stderr
+    assert "\x1b" not in out.stdout and "left?[2J" in out.stdout  # (the cell wraps before "main")

@@ -101,7 +101,8 @@ def test_real_program_in_tmux_edit_one_value_save_and_quit(tmp_path):
         end = time.monotonic() + 20
         while time.monotonic() < end and "Mass " in _screen(sock, name):
             time.sleep(0.2)
-        assert "Mass " not in _screen(sock, name), "the program did not quit"
+        screen = _screen(sock, name)
+        assert "Mass " not in screen, f"the program did not quit; the screen was:\n{screen}"
     finally:
         _tmux(sock, "kill-server")
     data = tomllib.loads(path.read_text())

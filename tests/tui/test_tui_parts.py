@@ -91,7 +91,7 @@ def test_edits_keep_columns_equal_to_a_fresh_build():
     new = add_item(ledger, Item("radio-2", 1.0, (3.0, 0.0, 0.3)))
     new, copy = duplicate_item(new, "wing-l")
     new = move_item(new, "radio-2", "avionics/panel")
-    new = replace_item(new, "pilot", ledger.item("pilot").evolve(id="captain"))
+    new = replace_item(new, "pilot", ledger.item("pilot").evolve(id="captain", mass=99.0))
     new = delete_item(new, "elt")
     fresh = Ledger(new.items, new.units, new.frame, new.loadouts, new.envelopes)
     for field in ("unit_mass", "quantity", "cg", "own", "variable"):

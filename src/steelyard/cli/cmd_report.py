@@ -46,6 +46,8 @@ def chart_svg(chart) -> str:
     from rich.console import Console
     from rich.text import Text
 
+    from ..io.report_text import clean
+
     legend = [f"{m}  {t}" for m, t in chart.legend]
     lines = [*chart.lines, "", *legend]
     console = Console(record=True, file=io.StringIO(), width=max(len(s) for s in lines) + 1,
@@ -65,7 +67,7 @@ def chart_svg(chart) -> str:
             else:
                 text.append(ch)
         console.print(text, no_wrap=True, overflow="ignore", crop=False)
-    svg = console.export_svg(title=f"envelope {chart.envelope!r}")
+    svg = console.export_svg(title=f"envelope {clean(chart.envelope)!r}")
     # rich asks a CDN for its web font; a report must open offline and fetch nothing
     return re.sub(r"@font-face\s*\{[^}]*\}", "", svg)
 

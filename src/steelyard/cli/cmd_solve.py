@@ -77,8 +77,9 @@ def run(args) -> int:
         sys.stdout.write("\n")
     else:
         from ..core.caution import CAUTION
+        from .render_check import visible
 
-        print(f"{loaded.path}, loadout {args.loadout or '(none: variable items empty)'}")
-        print("\n".join(lines))
+        print(visible(f"{loaded.path}, loadout {args.loadout or '(none: variable items empty)'}"))
+        print("\n".join(visible(line) for line in lines))
         print(CAUTION)
     return 0

@@ -121,6 +121,7 @@ def print_weighing(console, loaded, record: dict, system: str | None) -> None:
     from rich.text import Text
 
     from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+    from ..io.report_text import clean
 
     du = DisplayUnits.choose(loaded.ledger.units, system)
     mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
@@ -132,13 +133,13 @@ def print_weighing(console, loaded, record: dict, system: str | None) -> None:
     def xyz(v):
         return [fmt(None if c is None else du.l(c), dl) for c in v]
 
-    console.print(Text(f"Weighing of {loaded.path}", style="bold"))
+    console.print(Text(f"Weighing of {clean(loaded.path)}", style="bold"))
     t = Table(title="Support points (net = reading - tare)", title_justify="left")
     t.add_column("point")
     for col in (*(f"{a} [{lu}]" for a in AXIS_NAMES), f"reading [{mu}]", f"tare [{mu}]", f"net [{mu}]"):
         t.add_column(col, justify="right")
     for p in record["points"]:
-        t.add_row(Text(p["name"]), *xyz(p["at_m"]), m(p["reading_kg"]), m(p["tare_kg"]), m(p["net_kg"]))
+        t.add_row(Text(clean(p["name"])), *xyz(p["at_m"]), m(p["reading_kg"]), m(p["tare_kg"]), m(p["net_kg"]))
     console.print(t)
     r = Table(title="Reduction: weighed - on board + missing = basic empty", title_justify="left")
     r.add_column("")
@@ -146,9 +147,9 @@ def print_weighing(console, loaded, record: dict, system: str | None) -> None:
         r.add_column(col, justify="right")
     r.add_row("weighed", m(record["weighed_mass_kg"]), *xyz(record["weighed_cg_m"]))
     for a in record["on_board"]:
-        r.add_row(Text(f"- {a['name']} (on board)"), m(-a["mass_kg"]), *xyz(a["at_m"]))
+        r.add_row(Text(f"- {clean(a['name'])} (on board)"), m(-a["mass_kg"]), *xyz(a["at_m"]))
     for a in record["missing"]:
-        r.add_row(Text(f"+ {a['name']} (missing)"), m(a["mass_kg"]), *xyz(a["at_m"]))
+        r.add_row(Text(f"+ {clean(a['name'])} (missing)"), m(a["mass_kg"]), *xyz(a["at_m"]))
     r.add_row(Text("= basic empty", style="bold"), m(record["empty_mass_kg"]), *xyz(record["empty_cg_m"]))
     console.print(r)
     if any(c is None for c in record["empty_cg_m"]):
@@ -156,7 +157,7 @@ def print_weighing(console, loaded, record: dict, system: str | None) -> None:
                            "vertical_cg, or the replaced item keeps its old value."))
     c = record["comparison"]
     if c:
-        k = Table(title=f"Compared with item {c['item']!r}", title_justify="left")
+        k = Table(title=Text(f"Compared with item {clean(c['item'])!r}"), title_justify="left")
         for col in ("", "ledger (old)", "weighed (new)", "change"):
             k.add_column(col, justify="left" if not col else "right")
         k.add_row(f"mass [{mu}]", m(c["old_mass_kg"]), m(c["new_mass_kg"]), m(c["delta_mass_kg"]))

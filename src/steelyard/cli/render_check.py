@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 
 from rich import box
 from rich.console import Console
@@ -15,6 +16,20 @@ from ..core.display import DisplayUnits, fmt, fmt_sig, pretty_unit
 from ..core.model import OPPOSITE, Frame
 
 _SI_UNIT = {"length": "m", "mass": "kg", "inertia": "kg*m**2"}
+# C0 and C1 controls, DEL, bidirectional overrides: names from a file never drive the terminal
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+
+
+def visible(text: object) -> str:
+    """A name from the file with each control character shown as a symbol (␛ for ESC)."""
+    def sub(m: re.Match) -> str:
+        code = ord(m.group(0))
+        return chr(0x2400 + code) if code < 0x20 else "\u2421" if code == 0x7F else "\ufffd"
+    return _CONTROL.sub(sub, str(text))
+
+
+def T(text: object, style: str = "") -> Text:  # noqa: N802 - reads like the Text it makes
+    return Text(visible(text), style=style)
 
 
 def side_words(frame: Frame, axis: str) -> tuple[str, str]:
@@ -121,7 +136,7 @@ def _num_col(t: Table, head: str, left: bool = False) -> None:
 
 
 def _state_label(s) -> Text:
-    return Text("  zero fuel" if s.kind == "zero-fuel" else s.name)
+    return T("  zero fuel" if s.kind == "zero-fuel" else s.name)
 
 
 def _scope_words(scope) -> str:
@@ -168,7 +183,7 @@ def _envelope_table(report: CheckReport, frame: Frame, nf: _Fmt) -> Table | None
             hi += "\n" + _pct(f.margin_hi, mac)
         status = _status(f) + (f"\n{f.note}" if f.note else "")
         name = f.name if one else f"{f.name} ({f.axis})"
-        t.add_row(_state_label(s), Text(name), status, lo, hi, nf.num("mass", f.mass_margin))
+        t.add_row(_state_label(s), T(name), status, lo, hi, nf.num("mass", f.mass_margin))
     return t
 
 
@@ -204,7 +219,7 @@ def _limit_tables(report: CheckReport, nf: _Fmt) -> list[Table]:
         for head in ("value", "allowed", "margin"):
             _num_col(t, head)
         for s, f in rows:
-            t.add_row(_state_label(s), Text(_limit_name(f)), _status(f), nf.num(dim, f.value), _allowed(f, nf),
+            t.add_row(_state_label(s), T(_limit_name(f)), _status(f), nf.num(dim, f.value), _allowed(f, nf),
                       nf.num(dim, f.margin))
         out.append(t)
     return out
@@ -244,8 +259,7 @@ def _sequence_table(report: CheckReport, frame: Frame, nf: _Fmt) -> Table | None
             a, b = f.first_broken_step, f.last_broken_step
             where += f"\nbroken in step {a}" if a == b else f"\nbroken in steps {a} to {b}"
             where += f" ({f.broken_states} states)"
-        t.add_row(Text(q.name), Text(_limit_name(f) if f.kind != "envelope" else f.name), _status(f), margin,
-                  Text(where))
+        t.add_row(T(q.name), T(_limit_name(f) if f.kind != "envelope" else f.name), _status(f), margin, T(where))
     return t
 
 
@@ -264,26 +278,26 @@ def print_check(report: CheckReport, path: str, ledger, du: DisplayUnits, consol
     frame = ledger.frame
     n_lo = len({s.loadout for s in report.states})
     n_sq = len(report.sequences)
-    console.print(Text(f"Check of {path}: {n_lo} loadout{'s' * (n_lo != 1)}, {n_sq} sequence{'s' * (n_sq != 1)}",
-                       style="bold"))
+    console.print(T(f"Check of {path}: {n_lo} loadout{'s' * (n_lo != 1)}, {n_sq} sequence{'s' * (n_sq != 1)}",
+                    "bold"))
     mac = report.mac
     if mac is not None:
         console.print(Text(f"MAC: LEMAC {nf.qty('length', mac.lemac)}, length {nf.qty('length', mac.length)}"))
     console.print(_loadout_table(report, nf))
     for q in report.sequences:
         steps = "; ".join(f"{st.index} {st.label}" for st in q.steps)
-        console.print(Text(f"Sequence {q.name} from {q.loadout} ({len(q.path)} states): {steps}"))
+        console.print(T(f"Sequence {q.name} from {q.loadout} ({len(q.path)} states): {steps}"))
     for table in (_envelope_table(report, frame, nf), *_limit_tables(report, nf), _sequence_table(report, frame, nf)):
         if table is not None:
             console.print(table)
     scope = _scope_line(report, ledger)
     if scope:
-        console.print(Text(scope))
+        console.print(T(scope))
     n, broken = report.counts
     if report.ok:
         console.print(Text(f"All limits met: {n} checks.", style="bold"))
     else:
         bad = [f"{s.name}: {f.name}" for s in (*report.states, *report.sequences) for f in s.findings
                if f.applies and not f.ok]
-        console.print(Text(f"LIMITS BROKEN: {broken} of {n} checks ({'; '.join(bad)})", style="bold"))
+        console.print(T(f"LIMITS BROKEN: {broken} of {n} checks ({'; '.join(bad)})", "bold"))
     console.print(Text(CAUTION, style="italic"))

@@ -13,6 +13,7 @@ from rich.text import Text
 from ..core.caution import CAUTION
 from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from ..io.report_control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record
+from ..io.report_text import clean
 
 __all__ = ["control_record", "print_control"]
 
@@ -53,7 +54,7 @@ def _growth_table(g: dict, du: DisplayUnits, wide: bool) -> Table:
         t.add_column(Text(col), justify="right")
 
     def row(label, b, style=None):
-        t.add_row(Text(label, style=style), f.m(b["basic_mass_kg"]), f.m(b["growth_kg"]),
+        t.add_row(Text(clean(label), style=style), f.m(b["basic_mass_kg"]), f.m(b["growth_kg"]),
                   _pct(b["growth_fraction"]), f.m(b["predicted_mass_kg"]),
                   *(f.l(b["basic_cg_m"][k]) for k in axes), *(f.l(b["predicted_cg_m"][k]) for k in axes))
 
@@ -71,7 +72,7 @@ def _allocation_table(allocations: list, du: DisplayUnits) -> Table:
         t.add_column(Text(col), justify="right")
     t.add_column(Text("status"))
     for a in allocations:
-        t.add_row(Text(a["group"] or "(whole vehicle)"), f.m(a["allocation_kg"]), f.m(a["basic_kg"]),
+        t.add_row(Text(clean(a["group"]) or "(whole vehicle)"), f.m(a["allocation_kg"]), f.m(a["basic_kg"]),
                   f.m(a["predicted_kg"]), f.m(a["margin_kg"]),
                   "within" if a["margin_kg"] >= 0 else "OVER")
     return t
@@ -94,7 +95,7 @@ def _uncertainty_tables(q: dict, mass: float, cg, du: DisplayUnits) -> list[Tabl
         for col in ("envelope", "axis", "P(outside)", "standard error"):
             e.add_column(Text(col), justify="left" if col in ("envelope", "axis") else "right")
         for r in mc["envelopes"]:
-            e.add_row(Text(r["name"]), r["axis"], f"{r['p_outside']:.4f}",
+            e.add_row(Text(clean(r["name"])), r["axis"], f"{r['p_outside']:.4f}",
                       f"{r['std_error']:.4f}" if r["p_outside"] > 0 else f"0 (< {3 / mc['samples']:.1e}, 95 %)")
         out.append(e)
     return out

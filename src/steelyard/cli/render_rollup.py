@@ -14,6 +14,7 @@ from ..core.groups import subtotals
 from ..core.limits import mac_reference
 from ..core.model import OPPOSITE
 from ..core.status import envelope_results
+from .render_check import visible
 
 
 def _axis_label(frame, k: int, length_unit: str) -> str:
@@ -109,7 +110,7 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
             allowed = "off range" if r.limits is None else f"{fmt(du.l(r.lo), dl)}…{fmt(du.l(r.hi), dl)}"
             status = "INSIDE" if r.inside else "OUTSIDE"
             name = r.name if len(axes) == 1 else f"{r.name} ({r.axis})"
-            et.add_row(Text(name), status, allowed,
+            et.add_row(Text(visible(name)), status, allowed,
                        fmt(None if r.margin_lo is None else du.l(r.margin_lo), dl),
                        fmt(None if r.margin_hi is None else du.l(r.margin_hi), dl),
                        fmt(None if r.mass_margin is None else du.m(r.mass_margin), dm))

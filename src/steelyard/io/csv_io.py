@@ -35,16 +35,12 @@ from .report_control import growth_value, tolerance_si
 from .toml_read import decode, parse_toml
 from .toml_write import value as toml_value
 
-#: column key -> (dimension or None, cell kind), in export order
-COLUMNS: dict[str, tuple[str | None, str]] = {
-    "id": (None, "text"), "name": (None, "text"), "group": (None, "text"),
-    "mass": ("mass", "number"), "x": ("length", "number"), "y": ("length", "number"),
-    "z": ("length", "number"), "quantity": (None, "int"), "variable": (None, "bool"),
-    **{c: ("inertia", "number") for c in COMPONENTS},
-    "density": ("density", "number"), "maturity": (None, "text"), "growth": (None, "fraction"),
-    "tol kind": (None, "text"), "tol mass": ("mass", "number"),
-    "tol x": ("length", "number"), "tol y": ("length", "number"), "tol z": ("length", "number"),
-    "other": (None, "toml"),
+#: column key -> dimension of its numbers (None: no unit), in export order
+COLUMNS: dict[str, str | None] = {
+    "id": None, "name": None, "group": None, "mass": "mass", "x": "length", "y": "length", "z": "length",
+    "quantity": None, "variable": None, **{c: "inertia" for c in COMPONENTS}, "density": "density",
+    "maturity": None, "growth": None, "tol kind": None, "tol mass": "mass", "tol x": "length",
+    "tol y": "length", "tol z": "length", "other": None,
 }
 REQUIRED = ("id", "mass", "x", "y", "z")
 CONTROL_KEYS = ("maturity", "growth", "tolerance")
@@ -104,8 +100,8 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
         keys += list(TOL_COLUMNS)
     if any(set(e) - set(CONTROL_KEYS) for e in extras):
         keys.append("other")
-    header = [f"{k} [{u[COLUMNS[k][0]]}]" if COLUMNS[k][0] else k for k in keys]
-    f = {k: unit_factor(u[COLUMNS[k][0]], COLUMNS[k][0]) for k in keys if COLUMNS[k][0]}
+    header = [f"{k} [{u[COLUMNS[k]]}]" if COLUMNS[k] else k for k in keys]
+    f = {k: unit_factor(u[COLUMNS[k]], COLUMNS[k]) for k in keys if COLUMNS[k]}
     six = six_from_tensor(ledger.arrays.own) if items else np.zeros((0, 6))
 
     def num(k: str, si: float | None) -> str:
@@ -208,7 +204,7 @@ class _Reader:
         for j, cell in enumerate(self.header):
             m = _HEADER.match(cell)
             name = " ".join((m.group("name") if m else cell).replace("_", " ").lower().split())
-            dim = COLUMNS[name][0] if name in COLUMNS else None
+            dim = COLUMNS[name] if name in COLUMNS else None
             unit = (m.group("unit") or "").strip() if m else ""
             problem = (f"unknown column (known: {', '.join(COLUMNS)})" if name not in COLUMNS else
                        "column appears twice" if name in self.index else
@@ -343,7 +339,7 @@ def _other(r: _Reader, k: int, cell: str) -> dict:
 class _Columns:
     """Every column converted and checked, before any item is built."""
 
-    def __init__(self, r: _Reader, into: Ledger | None):
+    def __init__(self, r: _Reader, into: Ledger | None, units: FileUnits):
         n = len(r.rows)
         seen: dict[str, int] = {}
         for k, ident in enumerate(r.cols["id"]):
@@ -380,12 +376,12 @@ class _Columns:
                     raise r.fail(k, "maturity", f"unknown maturity {c!r} (use one of: {', '.join(table)})")
         self.growth = ([_fraction(r, k, c) if c else None for k, c in enumerate(r.cols["growth"])]
                        if r.has("growth") else None)
-        self.tol = self._tolerances(r) if any(r.has(c) for c in TOL_COLUMNS) else None
+        self.tol = self._tolerances(r, units) if any(r.has(c) for c in TOL_COLUMNS) else None
         self.other = ([_other(r, k, c) if c else {} for k, c in enumerate(r.cols["other"])]
                       if r.has("other") else None)
 
     @staticmethod
-    def _tolerances(r: _Reader) -> list:
+    def _tolerances(r: _Reader, units: FileUnits) -> list:
         n = len(r.rows)
         kinds = r.cols["tol kind"] if r.has("tol kind") else [""] * n
         cols = {c: r.floats(c) if r.has(c) else (np.full(n, np.nan), np.ones(n, bool)) for c in TOL_COLUMNS[1:]}
@@ -403,17 +399,17 @@ class _Columns:
             neg = [c for c in given if cols[c][0][k] < 0]
             if neg:
                 raise r.fail(k, neg[0], "a tolerance must be >= 0")
-            tol: dict = {"kind": kind}
+            tol: dict = {}  # in the ledger's units, as the file would say it
             if "tol mass" in given:
-                tol["mass"] = (float(cols["tol mass"][0][k]), r.units["tol mass"])
-            if any(c in given for c in ("tol x", "tol y", "tol z")):
-                tol["cg"] = [(0.0 if cols[c][1][k] else float(cols[c][0][k]), r.units.get(c)) for c in
-                             ("tol x", "tol y", "tol z")]
-            out.append(tol)
+                tol["mass"] = _file_value(cols["tol mass"][0][k], r.units["tol mass"], units.mass, "mass")
+            if any(c in given for c in TOL_COLUMNS[2:]):
+                tol["cg"] = [0.0 if cols[c][1][k] else _file_value(cols[c][0][k], r.units[c], units.length, "length")
+                             for c in TOL_COLUMNS[2:]]
+            out.append({**tol, "kind": kind})
         return out
 
 
-def _extra(base: Item | None, r: _Reader, cols: _Columns, k: int, units: FileUnits) -> dict:
+def _extra(base: Item | None, r: _Reader, cols: _Columns, k: int) -> dict:
     extra = dict(base.extra) if base is not None else {}
     if cols.other is not None:
         extra = {key: v for key, v in extra.items() if key in CONTROL_KEYS}
@@ -425,16 +421,8 @@ def _extra(base: Item | None, r: _Reader, cols: _Columns, k: int, units: FileUni
                 extra[key] = values[k]
     if cols.tol is not None:
         extra.pop("tolerance", None)
-        tol = cols.tol[k]
-        if tol is not None:
-            out: dict = {}
-            if "mass" in tol:
-                out["mass"] = _file_value(tol["mass"][0], tol["mass"][1], units.mass, "mass")
-            if "cg" in tol:
-                out["cg"] = [0.0 if unit is None else _file_value(v, unit, units.length, "length")
-                             for v, unit in tol["cg"]]
-            out["kind"] = tol["kind"]
-            extra["tolerance"] = out
+        if cols.tol[k] is not None:
+            extra["tolerance"] = cols.tol[k]
     return extra
 
 
@@ -462,8 +450,8 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
     to the caller (who may add a change-log entry first).
     """
     r = _Reader(text, source, decimal_comma)
-    cols = _Columns(r, into)
     units = into.units if into is not None else _new_units(r)
+    cols = _Columns(r, into, units)
     index = into.index if into is not None else {}
     items = list(into.items) if into is not None else []
     added, replaced, same = [], [], []
@@ -481,7 +469,7 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
             inertia=inertia, shape=shape, rotate=rotate,
             variable=cols.variable[k] if cols.variable is not None else (base.variable if base else False),
             density=cols.density[k] if cols.density is not None else (base.density if base else None),
-            extra=_extra(base, r, cols, k, units),
+            extra=_extra(base, r, cols, k),
             given_units=dict(base.given_units) if base else {})
         if j is None:
             items.append(item)

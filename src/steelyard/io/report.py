@@ -26,6 +26,7 @@ from ..core.rollup import MassProperties, rollup_state
 from ..core.envelope import evaluate
 from ..core.status import AXIS_INDEX, EnvelopeResult, envelope_results
 from .report_chart import MARKS, text_chart
+from .report_text import clean
 from .report_control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth, uncertainty_region
 from .report_weighing import weigh_ledger, weighing_record
 
@@ -128,21 +129,35 @@ def _state_label(path, i: int) -> str:
     return step.label if step.kind != "burn" or done >= 1.0 else f"{step.label} ({100 * done:.0f} %)"
 
 
+def _sequence_api():
+    """(sequence_specs, sequence_path) from steelyard.core, or None when sequences are not there."""
+    try:
+        specs = importlib.import_module("steelyard.core.sequence").sequence_specs
+    except (ImportError, AttributeError):
+        return None
+    for name in ("steelyard.core.sequence_path", "steelyard.core.sequence"):
+        try:
+            return specs, importlib.import_module(name).sequence_path
+        except (ImportError, AttributeError):
+            continue
+    return None
+
+
 def _sequences(ledger: Ledger) -> dict:
     """Each sequence against each envelope: states outside, least margin and where it falls."""
     raw = ledger.extra.get("sequence")
     if not raw:
         return {"names": [], "note": None, "rows": [], "paths": []}
-    try:
-        seq = importlib.import_module("steelyard.core.sequence")
-    except ImportError:
+    api = _sequence_api()
+    if api is None:
         names = [str(s.get("name", f"#{k + 1}")) for k, s in enumerate(raw if isinstance(raw, list) else [raw])
                  if isinstance(s, dict)]
         return {"names": names, "note": "not evaluated: this version of steelyard has no sequence module",
                 "rows": [], "paths": []}
+    specs, sequence_path = api
     rows, paths = [], []
-    for spec in seq.sequence_specs(ledger):
-        path = seq.sequence_path(ledger, spec.name)
+    for spec in specs(ledger):
+        path = sequence_path(ledger, spec.name)
         paths.append(path)
         for env in ledger.envelopes:
             st = evaluate(env.array, path.cg[:, AXIS_INDEX[env.axis]], path.mass)
@@ -192,7 +207,7 @@ def _chart(ledger: Ledger, env, results: list[LoadoutResult], du: DisplayUnits, 
     axis_word = f"CG {AXIS_NAMES[k]} (+{ledger.frame.direction(k)}) [{pretty_unit(du.length)}]"
     # loadings drawn last: where a sequence ends on a loading, the loading's mark shows
     lines = text_chart(poly, ends + points, regions, paths, x_label=axis_word, y_label=f"mass [{pretty_unit(du.mass)}]")
-    return Chart(env.name, env.axis, lines, legend)
+    return Chart(env.name, env.axis, lines, [(m, clean(t)) for m, t in legend])
 
 
 def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], system: str | None = None,

@@ -2,19 +2,26 @@
 
 from __future__ import annotations
 
-from html import escape
+from html import escape as _escape
 
 from .report import Report
 from .report_blocks import Block, report_blocks
+from .report_text import clean
+
+def escape(text: str) -> str:
+    return _escape(clean(text))
+
 
 _STYLE = """
-body { font-family: system-ui, sans-serif; margin: 2em auto; max-width: 78em; padding: 0 1em; color: #1d1d1d; }
+body { font-family: system-ui, sans-serif; margin: 2em auto; max-width: 78em; padding: 0 1em;
+       color: #1d1d1d; }
 h1 { font-size: 1.5em; } h2 { font-size: 1.2em; margin-top: 2em; border-bottom: 1px solid #bbb; }
 table { border-collapse: collapse; margin: 0.5em 0; font-size: 0.9em; }
 th, td { border: 1px solid #ccc; padding: 0.2em 0.5em; vertical-align: top; }
 th { background: #eee; text-align: left; } td.n { text-align: right; font-variant-numeric: tabular-nums; }
 .caution { border-left: 4px solid #8a5a00; background: #fff6e0; padding: 0.5em 1em; }
-pre.chart { font-size: 0.8em; line-height: 1.1; } figure { margin: 1em 0; } figure svg { max-width: 100%; height: auto; }
+pre.chart { font-size: 0.8em; line-height: 1.1; } figure { margin: 1em 0; }
+figure svg { max-width: 100%; height: auto; }
 """
 
 

@@ -11,6 +11,7 @@ import re
 
 from .report import Report
 from .report_blocks import Block, report_blocks
+from .report_text import clean
 
 _SPECIAL = re.compile(r"([\\`*_\[\]|~])")
 _LINE_START = re.compile(r"^([#+=-])")
@@ -19,7 +20,7 @@ _ORDERED = re.compile(r"^(\d+)([.)])")
 
 def md_escape(text: str, *, cell: bool = False) -> str:
     """Text that shows literally in Markdown; `cell`: inside a table cell (no line-start rules)."""
-    text = " ".join(str(text).split())
+    text = " ".join(clean(text).split())
     text = text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
     text = _SPECIAL.sub(r"\\\1", text)
     return text if cell else _ORDERED.sub(r"\1\\\2", _LINE_START.sub(r"\\\1", text))

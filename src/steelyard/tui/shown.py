@@ -71,6 +71,8 @@ def margin_words(r: EnvelopeResult, frame: Frame, du: DisplayUnits) -> str:
 
 def envelope_line(r: EnvelopeResult, frame: Frame, du: DisplayUnits) -> str:
     """One envelope in a few words for the ledger view's summary."""
+    if r.lo is None:
+        return f"{r.name} OUTSIDE: the mass is outside its range"
     return f"{r.name} {status_word(r)} {margin_words(r, frame, du)}"
 
 
