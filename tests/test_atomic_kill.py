@@ -3,15 +3,16 @@
 A forked child saves a large ledger over and over, alternating two different
 versions, and is killed with SIGKILL after a random delay; 240 rounds. After
 every kill the file must be byte-for-byte one complete version (compared with
-the bytes the canonical writer gives for each, both of which load), and it is
-loaded again whenever it changed and every tenth round. The ledger has 3,000
-items (about 0.45 MB), from tests/perf/make_ledger.py.
+the bytes the canonical writer gives for each, both of which load), and every
+eighth round it is loaded again. The ledger has 3,000 items (about 0.45 MB),
+from tests/perf/make_ledger.py.
 
 A third of the rounds save through `save_ledger` (serialise, then write), the
 rest call `write_atomic` with ready bytes, so most kills land inside the
-write, the fsync and the rename. A killed save may leave its temporary file behind
-(".<name>.<random>.tmp"); the test checks such files are harmless: the
-ledger still loads and a later save works.
+write, the fsync and the rename; the test also checks that many kills landed
+after a completed rename and many in the middle of a write. A killed save may
+leave its temporary file behind (".<name>.<random>.tmp"); such files must be
+harmless: the ledger still loads and a later save works beside them.
 """
 
 from __future__ import annotations
@@ -101,7 +102,7 @@ def test_sigkill_during_saves_leaves_old_or_new_file(tmp_path):
         data = path.read_bytes()
         assert data in (versions[0][1], versions[1][1]), f"round {n}: torn file of {len(data)} bytes"
         now = 0 if data == versions[0][1] else 1
-        if now != current or n % 10 == 0:
+        if n % 8 == 0:
             assert open_ledger(path).ledger.items == versions[now][0].items
         flips += now != current
         current = now
@@ -112,8 +113,8 @@ def test_sigkill_during_saves_leaves_old_or_new_file(tmp_path):
             for p in temps:
                 p.unlink()
     # The kills landed both after completed renames and in the middle of writes.
-    assert flips >= 10, flips
-    assert leftovers >= 10, leftovers
+    assert flips >= 40, flips  # about 100 in practice
+    assert leftovers >= 20, leftovers  # about 60 in practice
     # Left-over temporary files are harmless: the file loads, and a later save works beside them.
     left = sorted(p.name for p in tmp_path.iterdir() if p.name != "ledger.toml")
     save_ledger(path, versions[1 - current][0])

@@ -97,8 +97,12 @@ def test_real_program_in_tmux_edit_one_value_save_and_quit(tmp_path):
         _wait_for(sock, name, "comments")  # the file had comments: asked first
         _keys(sock, name, "Enter")  # first button: save, drop comments
         _wait_for(sock, name, "saved ")
-        _keys(sock, name, "C-q")
         end = time.monotonic() + 20
+        while time.monotonic() < end and "* ledger.toml" in _screen(sock, name):
+            time.sleep(0.2)  # the unsaved marker goes with the save
+        assert "* ledger.toml" not in _screen(sock, name)
+        _keys(sock, name, "C-q")
+        end = time.monotonic() + 30
         while time.monotonic() < end and "Mass " in _screen(sock, name):
             time.sleep(0.2)
         screen = _screen(sock, name)

@@ -69,9 +69,9 @@ def run(args) -> int:
         except CommentsWouldBeLost:
             raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o, or pass "
                                  "--force", file=target) from None
-    text = f"imported {len(imp.added) + len(imp.replaced) + len(imp.unchanged)} items from {args.csv} into {target}"
+    done = f"imported {len(imp.added) + len(imp.replaced) + len(imp.unchanged)} items from {args.csv} into {target}"
     if loaded is not None:
-        text += (f" ({len(imp.replaced)} changed, {len(imp.added)} added, {len(imp.unchanged)} unchanged"
+        done += (f" ({len(imp.replaced)} changed, {len(imp.added)} added, {len(imp.unchanged)} unchanged"
                  + ("; change log updated)" if logged else ")"))
-    print(text)
+    print(done)
     return 0

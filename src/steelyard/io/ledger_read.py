@@ -463,6 +463,9 @@ def read_loadouts(raw: object, ledger_index: dict[str, int], variable: np.ndarra
                                      subject=subject, field=field)
             amounts[item_id] = read_amount(value, source, subject, field)
         extra = {key: val for key, val in lo.items() if key not in ("name", "base", "set")}
+        if _too_deep(extra):
+            raise SteelyardError(f"a value is nested more than {_MAX_DEPTH} levels deep", file=source,
+                                 subject=subject)
         out.append(Loadout(name, amounts, base, extra))
     return tuple(out)
 
@@ -510,6 +513,9 @@ def read_envelopes(raw: object, units: FileUnits, source: str) -> tuple:
         if problem:
             raise SteelyardError(problem, file=source, subject=subject, field="points")
         extra = {key: val for key, val in env.items() if key not in ("name", "axis", "points")}
+        if _too_deep(extra):
+            raise SteelyardError(f"a value is nested more than {_MAX_DEPTH} levels deep", file=source,
+                                 subject=subject)
         out.append(Envelope(name, axis, tuple(points), extra))
     return tuple(out)
 

@@ -20,6 +20,7 @@ from ..core.caution import CAUTION
 from ..core.display import AXIS_NAMES, DisplayUnits, pretty_unit
 from ..core.errors import SteelyardError
 from ..core.groups import GroupTotal, subtotals
+from ..core.growth import growth_fractions
 from ..core.loadout import resolve
 from ..core.model import Ledger
 from ..core.rollup import MassProperties, rollup_state
@@ -227,8 +228,6 @@ def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], sys
     except SteelyardError as exc:
         raise exc.located(file=source)
     weighing = weighing_record(weigh_ledger(ledger, source=source)) if "weighing" in ledger.extra else None
-    from ..core.growth import growth_fractions
-
     when = (now or dt.datetime.now(dt.timezone.utc)).strftime("%Y-%m-%d %H:%M UTC")
     return Report(source=source, generated=when, units=du, ledger=ledger, empty=empty, groups=groups,
                   control=control, loadouts=results, charts=charts, sequences=sequences,
