@@ -188,11 +188,14 @@ class History:
 
     def apply(self, new_ledger: Ledger, *, action: str, item: str | None, summary: str,
               loadout: str | None, author: str | None, now: _dt.datetime | str | None = None,
-              before: dict | None | object = _DERIVE, after: dict | None | object = _DERIVE) -> Change:
+              before: dict | None | object = _DERIVE, after: dict | None | object = _DERIVE,
+              effect: Effect | None = None) -> Change:
         """Make `new_ledger` current and record the change with its effect.
 
         `before`/`after` default to the changed fields of `item`; pass them
         for changes that are not about one item (a weighing, an import).
+        `effect` may be passed when the caller already computed it (the editor's
+        preview does), saving two roll-ups per edit on a large ledger.
         Applying after an undo drops the changes that could have been redone.
         """
         if not isinstance(action, str) or not action.strip():
@@ -205,7 +208,8 @@ class History:
             if value is not None and not _tomlable(value):
                 raise SteelyardError("must be a table of TOML values", subject="change", field=name)
         change = Change(utc_stamp(now), author or "unknown", action, item, " ".join(str(summary).split()),
-                        effect_between(self._ledger, new_ledger, loadout), before, after)
+                        effect if effect is not None else effect_between(self._ledger, new_ledger, loadout),
+                        before, after)
         self._done.append((change, self._ledger))
         self._undone.clear()
         self._ledger = new_ledger

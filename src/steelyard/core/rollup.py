@@ -82,7 +82,16 @@ def sum_tensors(own: np.ndarray) -> np.ndarray:
 
 
 def rollup(mass: np.ndarray, cg: np.ndarray, own: np.ndarray | None = None) -> MassProperties:
-    """Mass properties of rows with masses (n,), CGs (n, 3), own inertia (n, 3, 3)."""
+    """Mass properties of rows with masses (n,), CGs (n, 3), own inertia (n, 3, 3).
+
+    Absurd but finite inputs (1e300 kg at 1e10 m) overflow to inf quietly; the
+    caller shows such a total as undefined rather than a warning on stderr.
+    """
+    with np.errstate(over="ignore", invalid="ignore"):
+        return _rollup(mass, cg, own)
+
+
+def _rollup(mass: np.ndarray, cg: np.ndarray, own: np.ndarray | None) -> MassProperties:
     mass = np.ascontiguousarray(mass, dtype=float)
     cg = np.asarray(cg, dtype=float).reshape(-1, 3)
     own_sum = np.zeros((3, 3)) if own is None else sum_tensors(np.ascontiguousarray(own, dtype=float))
