@@ -216,6 +216,7 @@ sequences = ["forward-tank-first"]
     ('sequences = ["nothing"]', "'nothing' is not a sequence of this file"),
     ('loadouts = "within-limits"\nmax_mas = 3.0', "unknown key 'max_mas'"),
     ('min_mass = 1800.0', "min_mass is above max_mass"),
+    ('conditions = []', "non-empty list"),
     ('max_inertia = { xx = 1.0 }', "one kind of limit"),
 ])
 def test_bad_limit_keys_name_the_limit(extra, words):

@@ -7,7 +7,6 @@ each reaches the terminal as a rich Text with control characters made visible
 
 from __future__ import annotations
 
-import re
 
 from rich.console import Console
 from rich.table import Table
@@ -15,19 +14,13 @@ from rich.text import Text
 
 from ..core.caution import CAUTION
 from ..core.diff import LedgerDiff, change_rows
-from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit, visible
 from ..core.model import FileUnits
 
 # C0 and C1 controls, DEL, and the bidirectional overrides/isolates
-_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
-
-
 def safe(text: object) -> str:
     """Text with each control character shown as a visible symbol (␛ for ESC)."""
-    def visible(m: re.Match) -> str:
-        code = ord(m.group(0))
-        return chr(0x2400 + code) if code < 0x20 else "\u2421" if code == 0x7F else "\ufffd"
-    return _CONTROL.sub(visible, text if isinstance(text, str) else str(text))
+    return visible(text)
 
 
 def T(text: object, style: str = "") -> Text:  # noqa: N802 - reads like the Text it makes

@@ -9,7 +9,7 @@ from rich.table import Table
 from rich.text import Text
 
 from ..core.caution import CAUTION
-from ..core.display import AXIS_NAMES, DisplayUnits, fmt, fmt_sig, pretty_unit
+from ..core.display import AXIS_NAMES, DisplayUnits, fmt, fmt_sig, pretty_unit, visible
 from ..core.groups import subtotals
 from ..core.limits import mac_reference
 from ..core.model import OPPOSITE
@@ -28,7 +28,7 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
     du = DisplayUnits.choose(ledger.units, system)
     mu, lu, iu = pretty_unit(du.mass), pretty_unit(du.length), pretty_unit(du.inertia)
     dl, dm, dmo = du.decimals("length"), du.decimals("mass"), du.decimals("moment")
-    title = f"Roll-up of {loaded.path} — loadout: {state.name or '(none: variable items empty)'}"
+    title = visible(f"Roll-up of {loaded.path} — loadout: {state.name or '(none: variable items empty)'}")
     console.print(Text(title, style="bold"))
 
     t = Table(title="Totals", title_justify="left", show_header=True)
@@ -75,7 +75,7 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
         for head, w in zip(heads, widths):
             ws.add_column(head, justify="right", no_wrap=True, min_width=w)
         for g in st:
-            label = "  " * g.depth + g.path.rsplit("/", 1)[-1]
+            label = visible("  " * g.depth + g.path.rsplit("/", 1)[-1])
             share = 100.0 * g.mass / mp.mass if mp.mass > 0 else float("nan")
             ws.add_row(Text(label), *((str(g.count),) if wide else ()), fmt(du.m(g.mass), dm),
                        *((fmt(share, 1),) if wide else ()), *(fmt(du.l(g.cg[k]), dl) for k in range(3)),

@@ -17,7 +17,7 @@ import numpy as np
 
 from .errors import SteelyardError
 from .limits import (EnvelopeSpec, LimitSpec, MacRef, applies, envelope_specs, evaluate_limit, fuel_rows,
-                     limit_specs, mac_reference, needs_inertia, zero_fuel_fill)
+                     limit_specs, mac_reference, needs_inertia, said, zero_fuel_fill)
 from .loadout import fill_fractions, is_removable, loadout_condition, state_from_fill
 from .model import Ledger
 from .rollup import rollup_state
@@ -159,7 +159,7 @@ class _State:
 def _loadout_states(ledger: Ledger, names: list[str | None]) -> list[_State]:
     out = []
     for name in names:
-        where = None if name is None else f"loadout {name!r}"
+        where = None if name is None else f"loadout {said(name)}"
         try:
             fill = fill_fractions(ledger, name)
             cond = loadout_condition(ledger, name)
@@ -283,7 +283,7 @@ def check_ledger(ledger: Ledger, loadout: str | None = None) -> CheckReport:
         known = [lo.name for lo in ledger.loadouts]
         if loadout not in known:
             names = ", ".join(repr(n) for n in known) or "none"
-            raise SteelyardError(f"no loadout named {loadout!r} (loadouts: {names})", field="--loadout")
+            raise SteelyardError(f"no loadout named {said(loadout)} (loadouts: {names})", field="--loadout")
         names: list[str | None] = [loadout]
     else:
         names = [lo.name for lo in ledger.loadouts] or [None]

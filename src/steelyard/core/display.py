@@ -7,12 +7,34 @@ in SI or US customary on request. Pure: it formats, it never prints.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
 
 from .model import FileUnits
 from .units import SYSTEMS, unit_factor
 
 AXIS_NAMES = ("x", "y", "z")
+
+# C0 controls, DEL, C1 controls, and the bidirectional overrides/isolates that
+# can make text display in a different order than it is stored.
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+
+
+def _picture(match: re.Match) -> str:
+    code = ord(match.group(0))
+    if code < 0x20:
+        return chr(0x2400 + code)  # Unicode "control pictures": ␛ for ESC
+    return "\u2421" if code == 0x7F else "\ufffd"
+
+
+def visible(text: object) -> str:
+    """User text with every control character shown as a visible symbol.
+
+    Names come from files anyone can write; an ESC must never reach a
+    terminal or a report as an escape sequence.
+    """
+    s = text if isinstance(text, str) else str(text)
+    return _CONTROL.sub(_picture, s) if _CONTROL.search(s) else s
 #: trade words for the body axes when the frame is the usual aircraft one
 STATION_WORDS = {"x": "station", "y": "butt line", "z": "water line"}
 

@@ -19,6 +19,8 @@ user's description.
 
 from __future__ import annotations
 
+from reprlib import Repr
+
 from collections.abc import Iterable
 from dataclasses import dataclass
 
@@ -39,6 +41,11 @@ _LIMIT_KEYS = {"name", "conditions", "loadouts", "sequences", "max_mass", "min_m
                "max_cg_offset", "axis", "through"}
 _AXES = ("x", "y", "z")
 
+_REPR = Repr()
+_REPR.maxstring, _REPR.maxlong, _REPR.maxother = 80, 40, 80
+#: a value quoted in an error message, shortened when huge (a 400-digit number, a 4 MB name)
+said = _REPR.repr
+
 
 def _cached(ledger: Ledger, key: str, build):
     """Ledgers are immutable and edits make new ones, so a parse can live on the ledger."""
@@ -51,11 +58,14 @@ def _cached(ledger: Ledger, key: str, build):
 
 def _si(value, dimension: str, unit: str, subject: str, field: str) -> float:
     if type(value) is bool:
-        raise SteelyardError(f"must be a {dimension}, got {value!r}", subject=subject, field=field)
+        raise SteelyardError(f"must be a {dimension}, got {said(value)}", subject=subject, field=field)
     try:
         return to_si(value, dimension, unit)
     except UnitError as exc:
         raise exc.located(subject=subject, field=field)
+    except (OverflowError, ValueError, TypeError):  # e.g. an integer too large for a float
+        raise SteelyardError(f"must be a finite {dimension}, got {said(value)}", subject=subject,
+                             field=field) from None
 
 
 def _strict_table(raw, subject: str, keys: set[str]) -> dict:
@@ -63,7 +73,7 @@ def _strict_table(raw, subject: str, keys: set[str]) -> dict:
         raise SteelyardError("must be a table", subject=subject)
     unknown = sorted(set(raw) - keys)
     if unknown:
-        raise SteelyardError(f"unknown key {unknown[0]!r} (known: {', '.join(sorted(keys))})", subject=subject,
+        raise SteelyardError(f"unknown key {said(unknown[0])} (known: {', '.join(sorted(keys))})", subject=subject,
                              field=unknown[0])
     return raw
 
@@ -98,9 +108,9 @@ def _read_mac(ledger: Ledger) -> MacRef | bool:
     lemac = _si(t["lemac"], "length", unit, "mac", "lemac")
     length = _si(t["length"], "length", unit, "mac", "length")
     if not length > 0:
-        raise SteelyardError(f"must be greater than zero, got {t['length']!r}", subject="mac", field="length")
+        raise SteelyardError(f"must be greater than zero, got {said(t['length'])}", subject="mac", field="length")
     if ledger.frame.x not in ("fwd", "aft"):
-        raise SteelyardError(f"%MAC needs +x to point fwd or aft; the frame has x = {ledger.frame.x!r}",
+        raise SteelyardError(f"%MAC needs +x to point fwd or aft; the frame has x = {said(ledger.frame.x)}",
                              subject="mac")
     return MacRef(lemac, length, 1.0 if ledger.frame.x == "aft" else -1.0)
 
@@ -126,14 +136,14 @@ def _read_fuel(ledger: Ledger) -> np.ndarray:
     for key in ("groups", "items"):
         names = t.get(key, [])
         if type(names) is not list or not all(isinstance(x, str) and x for x in names):
-            raise SteelyardError(f"must be a list of names, got {names!r}"[:160], subject="fuel", field=key)
+            raise SteelyardError(f"must be a list of names, got {said(names)}"[:160], subject="fuel", field=key)
         for name in names:
             if key == "items":
                 i = ledger.index.get(name)
                 if i is None:
-                    raise SteelyardError(f"names unknown item {name!r}", subject="fuel", field=key)
+                    raise SteelyardError(f"names unknown item {said(name)}", subject="fuel", field=key)
                 if not variable[i]:
-                    raise SteelyardError(f"item {name!r} is not variable; only a load can be emptied",
+                    raise SteelyardError(f"item {said(name)} is not variable; only a load can be emptied",
                                          subject="fuel", field=key)
                 rows.add(i)
             else:
@@ -141,7 +151,7 @@ def _read_fuel(ledger: Ledger) -> np.ndarray:
                 hit = [i for i, it in enumerate(ledger.items)
                        if variable[i] and (it.group == g or it.group.startswith(g + "/"))]
                 if not hit:
-                    raise SteelyardError(f"group {name!r} holds no variable item", subject="fuel", field=key)
+                    raise SteelyardError(f"group {said(name)} holds no variable item", subject="fuel", field=key)
                 rows.update(hit)
     return np.array(sorted(rows), dtype=np.intp)
 
@@ -192,13 +202,14 @@ def read_scope(raw: dict, ledger: Ledger, subject: str) -> frozenset | None:
         names = raw[key]
         if isinstance(names, str):
             names = [names]
-        if type(names) is not list or not all(isinstance(x, str) for x in names):
-            raise SteelyardError(f"must be a list of names, got {names!r}"[:160], subject=subject, field=key)
+        if type(names) is not list or not names or not all(isinstance(x, str) for x in names):
+            raise SteelyardError(f"must be a non-empty list of names, got {said(names)}"[:160], subject=subject,
+                                 field=key)
         for name in names:
             if name not in known[key]:
                 what = (f"one of {', '.join(CONDITION_WORDS)}" if key == "conditions" else
                         f"a {key[:-1]} of this file")
-                raise SteelyardError(f"{name!r} is not {what}", subject=subject, field=key)
+                raise SteelyardError(f"{said(name)} is not {what}", subject=subject, field=key)
             out.add((key[:-1], name))
     return frozenset(out)
 
@@ -222,19 +233,19 @@ class EnvelopeSpec:
 
     @property
     def subject(self) -> str:
-        return f"envelope {self.name!r}"
+        return f"envelope {said(self.name)}"
 
 
 def envelope_points(ledger: Ledger, env: Envelope) -> tuple[tuple[float, float], ...]:
     """The envelope's vertices as (station m, mass kg); a %MAC envelope is converted here."""
     units = env.extra.get("units", "length") if env.extra else "length"
-    subject = f"envelope {env.name!r}"
+    subject = f"envelope {said(env.name)}"
     if units in ("length", None):
         return env.points
     if units not in ("%mac", "%MAC"):
-        raise SteelyardError(f"must be \"%mac\" or \"length\", got {units!r}", subject=subject, field="units")
+        raise SteelyardError(f"must be \"%mac\" or \"length\", got {said(units)}", subject=subject, field="units")
     if env.axis != "x":
-        raise SteelyardError(f"a %MAC envelope limits the x axis, not {env.axis!r}", subject=subject,
+        raise SteelyardError(f"a %MAC envelope limits the x axis, not {said(env.axis)}", subject=subject,
                              field="units")
     ref = mac_reference(ledger)
     if ref is None:
@@ -249,7 +260,7 @@ def envelope_points(ledger: Ledger, env: Envelope) -> tuple[tuple[float, float],
 def _read_envelopes(ledger: Ledger) -> tuple[EnvelopeSpec, ...]:
     out = []
     for env in ledger.envelopes:
-        subject = f"envelope {env.name!r}"
+        subject = f"envelope {said(env.name)}"
         extra = env.extra or {}
         pts = envelope_points(ledger, env)
         out.append(EnvelopeSpec(env.name, env.axis, pts, extra.get("units", "length") in ("%mac", "%MAC"),
@@ -278,7 +289,7 @@ class LimitSpec:
 
     @property
     def subject(self) -> str:
-        return f"limit {self.name!r}"
+        return f"limit {said(self.name)}"
 
     @property
     def dimension(self) -> str:
@@ -298,7 +309,7 @@ def _inertia_bounds(raw, ledger: Ledger, subject: str, field: str) -> np.ndarray
                              subject=subject, field=field)
     for key, value in raw.items():
         if key not in COMPONENTS:
-            raise SteelyardError(f"unknown component {key!r} (use {', '.join(COMPONENTS)})", subject=subject,
+            raise SteelyardError(f"unknown component {said(key)} (use {', '.join(COMPONENTS)})", subject=subject,
                                  field=f"{field}.{key}")
         out[COMPONENTS.index(key)] = _si(value, "inertia", ledger.units.inertia, subject, f"{field}.{key}")
     return out
@@ -310,7 +321,7 @@ def _read_limit(raw, k: int, ledger: Ledger) -> LimitSpec:
     name = raw.get("name")
     if type(name) is not str or not name.strip():
         raise SteelyardError("required: a non-empty string", subject=f"limit #{k}", field="name")
-    subject = f"limit {name!r}"
+    subject = f"limit {said(name)}"
     _strict_table(raw, subject, _LIMIT_KEYS)
     kinds = [kind for kind, keys in (("mass", ("max_mass", "min_mass")), ("inertia", ("max_inertia", "min_inertia")),
                                      ("cg-offset", ("max_cg_offset",))) if any(x in raw for x in keys)]
@@ -329,7 +340,7 @@ def _read_limit(raw, k: int, ledger: Ledger) -> LimitSpec:
         hi = _si(raw["max_mass"], "mass", u, subject, "max_mass") if "max_mass" in raw else np.nan
         for value, field in ((lo, "min_mass"), (hi, "max_mass")):
             if value == value and value <= 0:
-                raise SteelyardError(f"must be greater than zero, got {raw[field]!r}", subject=subject, field=field)
+                raise SteelyardError(f"must be greater than zero, got {said(raw[field])}", subject=subject, field=field)
         if lo == lo and hi == hi and lo > hi:
             raise SteelyardError("min_mass is above max_mass", subject=subject, field="min_mass")
         return LimitSpec(name, kind, scope, np.array([lo]), np.array([hi]))
@@ -343,16 +354,16 @@ def _read_limit(raw, k: int, ledger: Ledger) -> LimitSpec:
         return LimitSpec(name, kind, scope, lo, hi)
     axis = raw.get("axis")
     if axis not in _AXES:
-        raise SteelyardError(f"required: the axis the line runs along, x, y or z (got {axis!r})", subject=subject,
+        raise SteelyardError(f"required: the axis the line runs along, x, y or z (got {said(axis)})", subject=subject,
                              field="axis")
     through = raw.get("through", [0.0, 0.0])
     if type(through) is not list or len(through) != 2:
-        raise SteelyardError(f"must be the line's 2 coordinates on the other axes, got {through!r}"[:160],
+        raise SteelyardError(f"must be the line's 2 coordinates on the other axes, got {said(through)}"[:160],
                              subject=subject, field="through")
     pt = tuple(_si(v, "length", ledger.units.length, subject, "through") for v in through)
     hi = _si(raw["max_cg_offset"], "length", ledger.units.length, subject, "max_cg_offset")
     if not hi >= 0:
-        raise SteelyardError(f"must not be negative, got {raw['max_cg_offset']!r}", subject=subject,
+        raise SteelyardError(f"must not be negative, got {said(raw['max_cg_offset'])}", subject=subject,
                              field="max_cg_offset")
     return LimitSpec(name, kind, scope, np.array([np.nan]), np.array([hi]), _AXES.index(axis), pt)
 
@@ -367,7 +378,7 @@ def _read_limits(ledger: Ledger) -> tuple[LimitSpec, ...]:
     names = [x.name for x in out]
     for name in names:
         if names.count(name) > 1:
-            raise SteelyardError("duplicate limit name", subject=f"limit {name!r}", field="name")
+            raise SteelyardError("duplicate limit name", subject=f"limit {said(name)}", field="name")
     return tuple(out)
 
 

@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import SteelyardError
+from .limits import said
 from .model import Amount, Item, Ledger, Loadout
 from .tank import cg_for_fill
 
@@ -48,15 +49,15 @@ def amount_fraction(ledger: Ledger, item_id: str, amount: Amount, where: str) ->
         f = amount.value / full if full > 0 else (0.0 if amount.value == 0 else np.inf)
     elif amount.kind == "volume":
         if item.density is None:
-            raise SteelyardError(f"{amount.given or 'a volume'} needs a density on item {item_id!r}",
+            raise SteelyardError(f"{amount.given or 'a volume'} needs a density on item {said(item_id)}",
                                  subject=where, field=f"set.{item_id}")
         m = amount.value * item.density
         f = m / full if full > 0 else (0.0 if m == 0 else np.inf)
     else:  # pragma: no cover - the loader builds only the kinds above
-        raise SteelyardError(f"unknown amount kind {amount.kind!r}", subject=where)
+        raise SteelyardError(f"unknown amount kind {said(amount.kind)}", subject=where)
     if not (0.0 <= f <= 1.0 + 1e-12):
         shown = amount.given or f"{amount.value:g}"
-        raise SteelyardError(f"{shown} is more than item {item_id!r} holds" if f > 1 else
+        raise SteelyardError(f"{shown} is more than item {said(item_id)} holds" if f > 1 else
                              f"{shown} is below empty", subject=where, field=f"set.{item_id}")
     return min(float(f), 1.0)
 
@@ -69,17 +70,17 @@ def chain(ledger: Ledger, name: str) -> list[Loadout]:
     while current is not None:
         if current in seen:
             loop = " -> ".join(seen + [current])
-            raise SteelyardError(f"base loop {loop}", subject=f"loadout {name!r}", field="base")
+            raise SteelyardError(f"base loop {loop}", subject=f"loadout {said(name)}", field="base")
         seen.append(current)
         try:
             lo = ledger.loadout(current)
         except KeyError:
-            who = f"loadout {seen[-2]!r}" if len(seen) > 1 else None
+            who = f"loadout {said(seen[-2])}" if len(seen) > 1 else None
             if who is None:
                 known = ", ".join(repr(x.name) for x in ledger.loadouts) or "none"
-                raise SteelyardError(f"no loadout named {current!r} (loadouts: {known})",
+                raise SteelyardError(f"no loadout named {said(current)} (loadouts: {known})",
                                      field="--loadout") from None
-            raise SteelyardError(f"base {current!r} is not a loadout", subject=who, field="base") from None
+            raise SteelyardError(f"base {said(current)} is not a loadout", subject=who, field="base") from None
         out.append(lo)
         current = lo.base
     return out[::-1]
@@ -89,7 +90,7 @@ def is_removable(item: Item, where: str | None = None) -> bool:
     """True when a fixed item is marked ``removable = true`` (optional equipment)."""
     flag = item.extra.get("removable", False) if item.extra else False
     if type(flag) is not bool:
-        raise SteelyardError(f"must be true or false, got {flag!r}", subject=where or f"item {item.id!r}",
+        raise SteelyardError(f"must be true or false, got {said(flag)}", subject=where or f"item {said(item.id)}",
                              field="removable")
     return flag
 
@@ -99,7 +100,7 @@ def _id_list(lo: Loadout, key: str) -> list[str]:
     if isinstance(raw, str):
         raw = [raw]
     if type(raw) is not list or not all(isinstance(x, str) for x in raw):
-        raise SteelyardError(f"must be a list of item ids, got {raw!r}"[:160], subject=f"loadout {lo.name!r}",
+        raise SteelyardError(f"must be a list of item ids, got {said(raw)}"[:160], subject=f"loadout {said(lo.name)}",
                              field=key)
     return raw
 
@@ -108,13 +109,13 @@ def removable_row(ledger: Ledger, item_id: str, where: str, field: str) -> int:
     """Index of a fixed removable item, or a located error saying why it is not one."""
     i = ledger.index.get(item_id)
     if i is None:
-        raise SteelyardError(f"names unknown item {item_id!r}", subject=where, field=field)
+        raise SteelyardError(f"names unknown item {said(item_id)}", subject=where, field=field)
     item = ledger.items[i]
     if item.variable:
-        raise SteelyardError(f"item {item_id!r} is variable: set its amount (0 for none) instead",
+        raise SteelyardError(f"item {said(item_id)} is variable: set its amount (0 for none) instead",
                              subject=where, field=field)
     if not is_removable(item):
-        raise SteelyardError(f"item {item_id!r} is not removable equipment (mark it removable = true)",
+        raise SteelyardError(f"item {said(item_id)} is not removable equipment (mark it removable = true)",
                              subject=where, field=field)
     return i
 
@@ -130,19 +131,19 @@ def fill_fractions(ledger: Ledger, name: str | None) -> np.ndarray:
     if name is None:
         return fill
     for lo in chain(ledger, name):
-        where = f"loadout {lo.name!r}"
+        where = f"loadout {said(lo.name)}"
         for item_id, amount in lo.set.items():
             if item_id not in ledger.index:
-                raise SteelyardError(f"names unknown item {item_id!r}", subject=where, field=f"set.{item_id}")
+                raise SteelyardError(f"names unknown item {said(item_id)}", subject=where, field=f"set.{item_id}")
             i = ledger.index[item_id]
             if not a.variable[i]:
-                raise SteelyardError(f"item {item_id!r} is not variable", subject=where, field=f"set.{item_id}")
+                raise SteelyardError(f"item {said(item_id)} is not variable", subject=where, field=f"set.{item_id}")
             fill[i] = amount_fraction(ledger, item_id, amount, where)
         if lo.extra:
             off, on = _id_list(lo, "off"), _id_list(lo, "on")
             both = sorted(set(off) & set(on))
             if both:
-                raise SteelyardError(f"item {both[0]!r} is both off and on", subject=where, field="on")
+                raise SteelyardError(f"item {said(both[0])} is both off and on", subject=where, field="on")
             for item_id in off:
                 fill[removable_row(ledger, item_id, where, "off")] = 0.0
             for item_id in on:
@@ -158,8 +159,8 @@ def loadout_condition(ledger: Ledger, name: str | None) -> str:
         if lo.extra and "condition" in lo.extra:
             c = lo.extra["condition"]
             if c not in CONDITIONS:
-                raise SteelyardError(f"must be one of {', '.join(CONDITIONS)}, got {c!r}",
-                                     subject=f"loadout {lo.name!r}", field="condition")
+                raise SteelyardError(f"must be one of {', '.join(CONDITIONS)}, got {said(c)}",
+                                     subject=f"loadout {said(lo.name)}", field="condition")
             return c
     return DEFAULT_CONDITION
 

@@ -25,6 +25,7 @@ import numpy as np
 
 from .display import fmt
 from .errors import SteelyardError
+from .limits import said
 from .loadout import CONDITIONS, is_removable
 from .model import Ledger
 from .units import UnitError, from_si, parse_quantity
@@ -53,7 +54,7 @@ def _samples(raw, where: str, field: str, default: int) -> int:
     if raw is None:
         return default
     if type(raw) is not int or not (1 <= raw <= MAX_SAMPLES):
-        raise SteelyardError(f"must be a whole number 1..{MAX_SAMPLES:,}, got {raw!r}", subject=where, field=field)
+        raise SteelyardError(f"must be a whole number 1..{MAX_SAMPLES:,}, got {said(raw)}", subject=where, field=field)
     return raw
 
 
@@ -63,7 +64,7 @@ def _read_step(raw, k: int, where: str, samples: int) -> StepSpec:
         raise SteelyardError("must be a table", subject=where, field=f)
     unknown = sorted(set(raw) - _STEP_KEYS)
     if unknown:
-        raise SteelyardError(f"unknown key {unknown[0]!r} (a step does one of burn, remove, add)", subject=where,
+        raise SteelyardError(f"unknown key {said(unknown[0])} (a step does one of burn, remove, add)", subject=where,
                              field=f"{f} {unknown[0]}")
     kinds = [x for x in ("burn", "remove", "add") if x in raw]
     if len(kinds) != 1:
@@ -71,7 +72,7 @@ def _read_step(raw, k: int, where: str, samples: int) -> StepSpec:
     kind = kinds[0]
     label = raw.get("name", "")
     if type(label) is not str:
-        raise SteelyardError(f"must be a string, got {label!r}", subject=where, field=f"{f} name")
+        raise SteelyardError(f"must be a string, got {said(label)}", subject=where, field=f"{f} name")
     n = _samples(raw.get("samples"), where, f"{f} samples", samples)
     body = raw[kind]
     if "amount" in raw and not (kind == "burn" and isinstance(body, list)):
@@ -81,7 +82,7 @@ def _read_step(raw, k: int, where: str, samples: int) -> StepSpec:
         body = [body]
     if kind == "remove" or (kind == "burn" and isinstance(body, list)):
         if type(body) is not list or not body or not all(isinstance(x, str) for x in body):
-            raise SteelyardError(f"must be a list of item ids, got {body!r}"[:160], subject=where, field=f"{f} {kind}")
+            raise SteelyardError(f"must be a list of item ids, got {said(body)}"[:160], subject=where, field=f"{f} {kind}")
         if kind == "burn" and "amount" not in raw:
             raise SteelyardError("burn = [tanks] needs amount = (a mass, a volume or \"all\")", subject=where,
                                  field=f"{f} amount")
@@ -89,13 +90,13 @@ def _read_step(raw, k: int, where: str, samples: int) -> StepSpec:
         total = raw.get("amount")
     else:
         if type(body) is not dict or not body:
-            raise SteelyardError(f"must be a table of item id = amount, got {body!r}"[:160], subject=where,
+            raise SteelyardError(f"must be a table of item id = amount, got {said(body)}"[:160], subject=where,
                                  field=f"{f} {kind}")
         targets, total = tuple(body.items()), None
     ids = [t[0] for t in targets]
     dup = sorted({x for x in ids if ids.count(x) > 1})
     if dup:
-        raise SteelyardError(f"names item {dup[0]!r} twice", subject=where, field=f"{f} {kind}")
+        raise SteelyardError(f"names item {said(dup[0])} twice", subject=where, field=f"{f} {kind}")
     return StepSpec(k, kind, label or f"{kind} {', '.join(ids)}", n, targets, total)
 
 
@@ -108,7 +109,7 @@ class SequenceSpec:
 
     @property
     def subject(self) -> str:
-        return f"sequence {self.name!r}"
+        return f"sequence {said(self.name)}"
 
 
 def _read_sequence(raw, k: int, ledger: Ledger) -> SequenceSpec:
@@ -117,19 +118,19 @@ def _read_sequence(raw, k: int, ledger: Ledger) -> SequenceSpec:
     name = raw.get("name")
     if type(name) is not str or not name.strip():
         raise SteelyardError("required: a non-empty string", subject=f"sequence #{k}", field="name")
-    where = f"sequence {name!r}"
+    where = f"sequence {said(name)}"
     unknown = sorted(set(raw) - _SEQ_KEYS)
     if unknown:
-        raise SteelyardError(f"unknown key {unknown[0]!r} (known: {', '.join(sorted(_SEQ_KEYS))})", subject=where,
+        raise SteelyardError(f"unknown key {said(unknown[0])} (known: {', '.join(sorted(_SEQ_KEYS))})", subject=where,
                              field=unknown[0])
     lo = raw.get("loadout")
     if type(lo) is not str:
         raise SteelyardError("required: the loadout the sequence starts from", subject=where, field="loadout")
     if lo not in {x.name for x in ledger.loadouts}:
-        raise SteelyardError(f"no loadout named {lo!r}", subject=where, field="loadout")
+        raise SteelyardError(f"no loadout named {said(lo)}", subject=where, field="loadout")
     end = raw.get("end_condition")
     if end is not None and end not in CONDITIONS:
-        raise SteelyardError(f"must be one of {', '.join(CONDITIONS)}, got {end!r}", subject=where,
+        raise SteelyardError(f"must be one of {', '.join(CONDITIONS)}, got {said(end)}", subject=where,
                              field="end_condition")
     samples = _samples(raw.get("samples"), where, "samples", DEFAULT_SAMPLES)
     steps = raw.get("step")
@@ -167,16 +168,16 @@ def _amount_fraction(ledger: Ledger, row: int, raw, where: str, field: str) -> f
     item = ledger.items[row]
     full = item.mass * item.quantity
     if type(raw) is bool or raw is None:
-        raise SteelyardError(f"must be a fraction, a mass or a volume, got {raw!r}", subject=where, field=field)
+        raise SteelyardError(f"must be a fraction, a mass or a volume, got {said(raw)}", subject=where, field=field)
     if isinstance(raw, (int, float)):
         if not 0.0 <= raw <= 1.0:
-            raise SteelyardError(f"fraction must be within 0..1, got {raw!r}", subject=where, field=field)
+            raise SteelyardError(f"fraction must be within 0..1, got {said(raw)}", subject=where, field=field)
         return float(raw)
     if not isinstance(raw, str):
-        raise SteelyardError(f"must be a fraction, a mass or a volume, got {raw!r}", subject=where, field=field)
+        raise SteelyardError(f"must be a fraction, a mass or a volume, got {said(raw)}", subject=where, field=field)
     mass = _mass_of(ledger, row, raw, where, field)
     if full <= 0:
-        raise SteelyardError(f"item {item.id!r} has no capacity (mass 0)", subject=where, field=field)
+        raise SteelyardError(f"item {said(item.id)} has no capacity (mass 0)", subject=where, field=field)
     return mass / full
 
 
@@ -187,26 +188,26 @@ def _mass_of(ledger: Ledger, row: int, text: str, where: str, field: str) -> flo
         try:
             v = parse_quantity(text, "volume")
         except UnitError:
-            raise SteelyardError(f"cannot read {text!r} as a mass or a volume", subject=where, field=field) from None
+            raise SteelyardError(f"cannot read {said(text)} as a mass or a volume", subject=where, field=field) from None
         density = ledger.items[row].density
         if density is None:
-            raise SteelyardError(f"{text} needs a density on item {ledger.items[row].id!r}", subject=where,
+            raise SteelyardError(f"{text} needs a density on item {said(ledger.items[row].id)}", subject=where,
                                  field=field) from None
         m = v * density
     if m < 0:
-        raise SteelyardError(f"must not be negative, got {text!r}", subject=where, field=field)
+        raise SteelyardError(f"must not be negative, got {said(text)}", subject=where, field=field)
     return m
 
 
 def step_row(ledger: Ledger, item_id: str, kind: str, where: str, field: str) -> int:
     i = ledger.index.get(item_id)
     if i is None:
-        raise SteelyardError(f"names unknown item {item_id!r}", subject=where, field=field)
+        raise SteelyardError(f"names unknown item {said(item_id)}", subject=where, field=field)
     item = ledger.items[i]
     if not item.variable and (kind == "burn" or not is_removable(item)):
         what = "burnt" if kind == "burn" else ("removed" if kind == "remove" else "added")
         hint = "" if kind == "burn" else " (or a fixed item marked removable = true)"
-        raise SteelyardError(f"item {item_id!r} is fixed and cannot be {what}: name a variable item{hint}",
+        raise SteelyardError(f"item {said(item_id)} is fixed and cannot be {what}: name a variable item{hint}",
                              subject=where, field=field)
     return i
 
@@ -235,7 +236,7 @@ def step_change(ledger: Ledger, spec: StepSpec, rows: dict[int, int], g: np.ndar
         if raw == "all":
             take = have
         elif not isinstance(raw, str):
-            raise SteelyardError(f"must be a mass, a volume or \"all\", got {raw!r}", subject=where, field=field)
+            raise SteelyardError(f"must be a mass, a volume or \"all\", got {said(raw)}", subject=where, field=field)
         else:
             try:
                 total, weights, dens = parse_quantity(raw, "mass"), have, np.ones(len(idx))
@@ -243,7 +244,7 @@ def step_change(ledger: Ledger, spec: StepSpec, rows: dict[int, int], g: np.ndar
                 try:
                     total = parse_quantity(raw, "volume")
                 except UnitError:
-                    raise SteelyardError(f"cannot read {raw!r} as a mass or a volume", subject=where,
+                    raise SteelyardError(f"cannot read {said(raw)} as a mass or a volume", subject=where,
                                          field=field) from None
                 d = [ledger.items[i].density for i in idx]
                 if any(x is None for x in d):
@@ -267,26 +268,26 @@ def step_change(ledger: Ledger, spec: StepSpec, rows: dict[int, int], g: np.ndar
         fixed = not ledger.items[i].variable
         if spec.kind == "remove":
             if g[r] <= 0:
-                raise SteelyardError(f"item {item_id!r} is not on board at that point", subject=where, field=field)
+                raise SteelyardError(f"item {said(item_id)} is not on board at that point", subject=where, field=field)
             change[r] = -g[r]
         elif spec.kind == "add":
             if fixed:
-                if raw not in ("full", 1, 1.0):
+                if type(raw) is bool or raw not in ("full", 1, 1.0):
                     raise SteelyardError(f"a removable item goes on whole: write {item_id} = \"full\"",
                                          subject=where, field=field)
                 if g[r] >= 1:
-                    raise SteelyardError(f"item {item_id!r} is already on board", subject=where, field=field)
+                    raise SteelyardError(f"item {said(item_id)} is already on board", subject=where, field=field)
                 change[r] = 1.0 - g[r]
                 continue
             d = 1.0 - g[r] if raw == "full" else _amount_fraction(ledger, i, raw, where, field)
             if g[r] + d > 1 + _TOL:
-                raise SteelyardError(f"adds {raw}, more than item {item_id!r} has room for "
+                raise SteelyardError(f"adds {raw}, more than item {said(item_id)} has room for "
                                      f"({_shown(ledger, i, 1 - g[r])} at that point)", subject=where, field=field)
             change[r] = min(d, 1.0 - g[r])
         else:
             d = g[r] if raw == "all" else _amount_fraction(ledger, i, raw, where, field)
             if d > g[r] + _TOL:
-                raise SteelyardError(f"burns {raw}, more than the {_shown(ledger, i, g[r])} item {item_id!r} "
+                raise SteelyardError(f"burns {raw}, more than the {_shown(ledger, i, g[r])} item {said(item_id)} "
                                      "holds at that point", subject=where, field=field)
             change[r] = -min(d, g[r])
     return change

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import SteelyardError, UnitError, item_subject
+from .limits import said
 from .model import Ledger
 from .units import to_si
 
@@ -54,11 +55,14 @@ class TankTable:
 
 def _number(value, dimension: str, unit: str, where: str, field: str) -> float:
     if type(value) is bool:
-        raise SteelyardError(f"must be a number, got {value!r}", subject=where, field=field)
+        raise SteelyardError(f"must be a number, got {said(value)}", subject=where, field=field)
     try:
         return to_si(value, dimension, unit)
     except UnitError as exc:
         raise exc.located(subject=where, field=field)
+    except (OverflowError, ValueError, TypeError):  # e.g. an integer too large for a float
+        raise SteelyardError(f"must be a finite {dimension}, got {said(value)}", subject=where,
+                             field=field) from None
 
 
 def read_table(ledger: Ledger, row: int) -> TankTable:
@@ -76,10 +80,10 @@ def read_table(ledger: Ledger, row: int) -> TankTable:
     for j, r in enumerate(raw, start=1):
         field = f"{KEY} row {j}"
         if type(r) is not list or len(r) != 4:
-            raise SteelyardError(f"must be [fraction, x, y, z], got {r!r}"[:160], subject=where, field=field)
+            raise SteelyardError(f"must be [fraction, x, y, z], got {said(r)}"[:160], subject=where, field=field)
         f = r[0]
         if type(f) not in (int, float) or not (0.0 <= f <= 1.0):
-            raise SteelyardError(f"fraction must be a number within 0..1, got {f!r}", subject=where, field=field)
+            raise SteelyardError(f"fraction must be a number within 0..1, got {said(f)}", subject=where, field=field)
         fr.append(float(f))
         cg.append([_number(v, "length", unit, where, field) for v in r[1:]])
     fraction, pos = np.array(fr), np.array(cg)

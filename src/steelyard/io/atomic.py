@@ -25,6 +25,12 @@ def mark_loaded(path: str | os.PathLike) -> None:
     _FAILED_LOADS.discard(os.path.realpath(path))
 
 
+def _umask() -> int:
+    current = os.umask(0)
+    os.umask(current)
+    return current
+
+
 def write_atomic(path: str | os.PathLike, data: bytes) -> None:
     """Replace `path` with `data` atomically, keeping the old file's permissions."""
     target = Path(path)
@@ -35,7 +41,7 @@ def write_atomic(path: str | os.PathLike, data: bytes) -> None:
     try:
         mode = target.stat().st_mode & 0o7777
     except FileNotFoundError:
-        mode = None
+        mode = 0o666 & ~_umask()  # a new file gets the permissions open() would give it
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
     try:
         with os.fdopen(fd, "wb") as fh:
