@@ -16,9 +16,11 @@ Inputs that made the program fail are pinned in KNOWN_CRASHERS at the end.
 
 from __future__ import annotations
 
+import atexit
 import copy
 import importlib.util
 import re
+import shutil
 import tempfile
 import tomllib
 from pathlib import Path
@@ -116,11 +118,13 @@ _PARSED = {t: tomllib.loads(t) for t in POOL}  # tomllib as the reference reader
 def parsed(text: str) -> dict:
     return copy.deepcopy(_PARSED[text])
 _TMP = Path(tempfile.mkdtemp(prefix="steelyard-fuzz-"))
+atexit.register(shutil.rmtree, _TMP, ignore_errors=True)
 _CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f]")
 
 
 def check_bytes(data: bytes, name: str = "fuzz.toml") -> None:
     """The contract for any file content: load or a one-line SteelyardError; what loads, works."""
+    _TMP.mkdir(exist_ok=True)  # (a cleaner elsewhere may have removed it mid-run)
     path = _TMP / name
     path.unlink(missing_ok=True)  # a fresh file: rewriting in place makes ext4 flush it (auto_da_alloc)
     path.write_bytes(data)

@@ -77,7 +77,7 @@ def run(args) -> int:
         sys.stdout.write("\n")
     else:
         from ..core.caution import CAUTION
-        from .render_check import visible
+        from ..core.display import visible
 
         print(visible(f"{loaded.path}, loadout {args.loadout or '(none: variable items empty)'}"))
         print("\n".join(visible(line) for line in lines))

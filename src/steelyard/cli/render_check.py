@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-import re
 
 from rich import box
 from rich.console import Console
@@ -12,22 +11,10 @@ from rich.text import Text
 
 from ..core.caution import CAUTION
 from ..core.checks import CheckReport, Finding
-from ..core.display import DisplayUnits, fmt, fmt_sig, pretty_unit
+from ..core.display import DisplayUnits, fmt, fmt_sig, pretty_unit, visible
 from ..core.model import OPPOSITE, Frame
 
 _SI_UNIT = {"length": "m", "mass": "kg", "inertia": "kg*m**2"}
-# C0 and C1 controls, DEL, bidirectional overrides: names from a file never drive the terminal
-_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
-
-
-def visible(text: object) -> str:
-    """A name from the file with each control character shown as a symbol (␛ for ESC)."""
-    def sub(m: re.Match) -> str:
-        code = ord(m.group(0))
-        return chr(0x2400 + code) if code < 0x20 else "\u2421" if code == 0x7F else "\ufffd"
-    return _CONTROL.sub(sub, str(text))
-
-
 def T(text: object, style: str = "") -> Text:  # noqa: N802 - reads like the Text it makes
     return Text(visible(text), style=style)
 

@@ -14,7 +14,6 @@ from ..core.groups import subtotals
 from ..core.limits import mac_reference
 from ..core.model import OPPOSITE
 from ..core.status import envelope_results
-from .render_check import visible
 
 
 def _axis_label(frame, k: int, length_unit: str) -> str:

@@ -42,8 +42,8 @@ class SteelyardError(Exception):
         return self
 
     def __str__(self) -> str:
-        parts = [p for p in (self.file, self.subject, self.field) if p]
-        text = ": ".join(parts + [self.message])
+        parts = [p for p in (self.file, _short(self.subject), _short(self.field)) if p]
+        text = ": ".join(parts + [_short(self.message, 240)])
         # Always one line, and no raw control characters reach a terminal.
         return _CONTROL.sub(lambda m: f"\\x{ord(m.group(0)):02x}", text)
 
@@ -58,6 +58,13 @@ class InertiaError(SteelyardError):
 
 class FormatError(SteelyardError):
     """The file is not a steelyard ledger (not TOML, wrong version...)."""
+
+
+def _short(text: str | None, limit: int = 120) -> str | None:
+    """A message stays readable even when a user's value is megabytes long."""
+    if text is None or len(text) <= limit:
+        return text
+    return text[: limit - 1] + "…"
 
 
 def item_subject(item_id: object) -> str:

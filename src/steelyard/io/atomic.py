@@ -33,8 +33,8 @@ def _umask() -> int:
 
 def write_atomic(path: str | os.PathLike, data: bytes) -> None:
     """Replace `path` with `data` atomically, keeping the old file's permissions."""
-    target = Path(path)
-    if os.path.realpath(target) in _FAILED_LOADS:
+    target = Path(os.path.realpath(path))  # write through a symlink, not over it
+    if str(target) in _FAILED_LOADS:
         raise SteelyardError("refusing to write over a file that failed to load; fix it or save elsewhere",
                              file=str(target))
     folder = target.parent if str(target.parent) else Path(".")

@@ -8,9 +8,12 @@ version-control diff shows only what really changed.
 
 from __future__ import annotations
 
+import math
+
 from ..core.inertia import COMPONENTS
 from ..core.model import Envelope, FileUnits, Item, Ledger, Loadout
-from ..core.units import unit_factor
+from ..core.errors import UnitError
+from ..core.units import parse_quantity, unit_factor
 from .toml_write import key, number, string, tables, value
 
 
@@ -20,8 +23,27 @@ def _factor(unit: str, dimension: str) -> float:
 
 def _qty(x: float, dimension: str, file_unit: str, given: str | None) -> str:
     if given:
-        return string(f"{number(x, _factor(given, dimension))} {given}")
+        return string(_with_unit(x, dimension, given))
     return number(x, _factor(file_unit, dimension))
+
+
+def _with_unit(x: float, dimension: str, unit: str) -> str:
+    """'76.1 lb': digits checked through the reader's own path (pint's exact factor),
+    so that saving an unchanged file gives the same bytes and the same value."""
+    v = x / _factor(unit, dimension)
+    candidates = [float(f"{v:.{d}g}") for d in (12, 15, 16, 17)]
+    up = down = v
+    for _ in range(4):  # the float factor and pint's exact one may differ by an ulp or two
+        up, down = math.nextafter(up, math.inf), math.nextafter(down, -math.inf)
+        candidates += [up, down]
+    for c in candidates:
+        text = repr(c)  # shortest text of that float exactly (number() would round to 12 digits)
+        try:
+            if parse_quantity(f"{text} {unit}", dimension) == x:
+                return f"{text} {unit}"
+        except UnitError:
+            break
+    return f"{number(x, _factor(unit, dimension))} {unit}"
 
 
 def _item(it: Item, u: FileUnits) -> list[str]:

@@ -1,9 +1,10 @@
 """The steelyard full-screen editor: wiring only.
 
 The main screen shows the numbers, the session holds the state, the flows
-(`file_flows`, `edit_flows`) turn keys into dialogs and edits. This module
-connects them: what happens after a change (repaint, fresh group subtotals
-in a worker thread, the title) and the command palette's entries.
+(`file_flows`, `edit_flows`, `journal_flows`, `compare_flows`,
+`weighing_flows`) turn keys into dialogs and edits. This module connects
+them: what happens after a change (repaint, fresh group subtotals and chart
+extras in worker threads, the title) and the command palette's entries.
 """
 
 from __future__ import annotations
@@ -17,10 +18,12 @@ from textual.app import App, SystemCommand
 from textual.screen import Screen
 
 from ..core.errors import SteelyardError
+from .chart_extras import ChartExtras, chart_extras
 from .edit_flows import EditFlows
 from .file_flows import FileFlows, groups_of
+from .journal_flows import JournalFlows
 from .main_screen import MainScreen
-from .messages import SubtotalsReady
+from .messages import ExtrasReady, SubtotalsReady
 from .session import Session
 
 #: (title, help, action) for the command palette (ctrl+p)
@@ -41,13 +44,14 @@ PALETTE = (
     ("Show totals", "mass, CG, inertia, principal axes", "view:totals"),
     ("Show envelopes", "envelope status, chart and caution", "view:envelopes"),
     ("Show change log", "who changed what, and its effect", "view:log"),
+    ("Next sequence", "chart the next burn or drop sequence of this loadout", "view-action:sequence"),
     ("Filter items", "filter the table by text", "view-action:filter"),
     ("Sort", "sort the table by the next column", "view-action:sort"),
     ("Help: keys", "every key of the editor", "help"),
 )
 
 
-class SteelyardApp(FileFlows, EditFlows, App[int]):
+class SteelyardApp(FileFlows, EditFlows, JournalFlows, App[int]):
     CSS_PATH = "app.tcss"
     TITLE = "steelyard"
     SUB_TITLE = "steelyard"
@@ -134,6 +138,33 @@ class SteelyardApp(FileFlows, EditFlows, App[int]):
         s = self.session
         if s is not None and message.ledger is s.ledger and message.loadout == s.loadout:
             self.main.show(s, message.groups)
+
+    def on_main_screen_extras_wanted(self, message: MainScreen.ExtrasWanted) -> None:
+        s = self.session
+        if s is None:
+            return
+        key = (s.ledger, s.loadout)
+        if getattr(self, "_extras_asked", None) == key:
+            return  # already being computed
+        self._extras_asked = key
+        self._extras_worker(s.ledger, s.loadout, s.totals().state)
+
+    @work(thread=True, exclusive=True, group="extras", description="sequence paths and CG uncertainty")
+    def _extras_worker(self, ledger, loadout, state) -> None:
+        try:
+            extras = chart_extras(ledger, loadout, state)
+        except Exception as exc:  # a fault here must not end the editing session
+            extras = ChartExtras(ledger, loadout, sequence_error=f"cannot compute ({type(exc).__name__}: {exc})")
+        self.post_message(ExtrasReady(extras))
+
+    def on_extras_ready(self, message: ExtrasReady) -> None:
+        s = self.session
+        e = message.extras
+        if s is None or e.ledger is not s.ledger or e.loadout != s.loadout:
+            return
+        s.extras = e
+        if self.main.view == "envelopes":
+            self.main.show(s, totals_only=True)
 
     # ------------------------------------------------------- command palette
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:

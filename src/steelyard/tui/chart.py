@@ -4,8 +4,10 @@ Pure drawing. The caller hands over numbers already in display units (the
 polygon, this loadout's point, the other loadouts' points, a sequence path
 and the index of its least-margin step); nothing here computes mass
 properties. Each cell holds 2x4 braille dots for the envelope edges and the
-path; the markers are whole-cell glyphs that differ in shape, and a legend
-names every mark in words, so nothing depends on colour alone.
+path; the markers are whole-cell glyphs that differ in shape, an optional
+`region` (the CG uncertainty ellipse) shades the cells it covers with its own
+glyph, and a legend names every mark in words, so nothing depends on colour
+alone.
 
 The picture is rasterised with numpy once per (size, data, style) and kept
 as Strips; `render_line` only hands them out (Textual's Line API).
@@ -18,118 +20,26 @@ from collections.abc import Sequence
 
 import numpy as np
 from rich.segment import Segment
-from rich.style import Style
 from textual.events import Resize
 from textual.strip import Strip
 from textual.widget import Widget
 
-POINT, OTHER, WORST = "●", "○", "✖"
+from .chart_raster import (braille, cells_covered, clean_label, finite_point, finite_rows, fmt_tick,
+                           line_dots, nice_ticks)
+
+POINT, OTHER, WORST, REGION = "●", "○", "✖", "░"
 EDGE_SAMPLE, PATH_SAMPLE = "⠒⠒⠒", "⠒ ⠒"
 NO_DATA = "No envelope or loading to chart."
 TOO_SMALL = "Chart needs more room."
 TOO_WIDE = "Values too far apart to chart."
 
 # style ids -> component classes
-_PLAIN, _AXIS, _EDGE, _PATH, _OTHER, _WORST, _POINT = range(7)
+_PLAIN, _AXIS, _EDGE, _PATH, _OTHER, _WORST, _POINT, _REGION = range(8)
 _COMPONENTS = ("", "envelope-chart--axis", "envelope-chart--edge", "envelope-chart--path",
-               "envelope-chart--other", "envelope-chart--worst", "envelope-chart--point")
-# braille bit of the dot at (row 0..3, column 0..1) of a cell
-_BITS = np.array([[0x01, 0x08], [0x02, 0x10], [0x04, 0x20], [0x40, 0x80]], dtype=np.uint32)
-_MAX_SAMPLES = 400_000  # cap on rasterised dots per line set, whatever the path length
+               "envelope-chart--other", "envelope-chart--worst", "envelope-chart--point",
+               "envelope-chart--region")
 
 Run = tuple[str, int]  # text, style id
-
-
-def _clean(text: str) -> str:
-    """Caller text shown literally: control characters (escapes) become '?'."""
-    return "".join(ch if ch.isprintable() else "?" for ch in str(text))
-
-
-def _finite_rows(a: np.ndarray | None) -> np.ndarray:
-    if a is None:
-        return np.zeros((0, 2))
-    try:
-        a = np.asarray(a, dtype=float).reshape(-1, 2)
-    except (TypeError, ValueError):
-        return np.zeros((0, 2))
-    ok = np.isfinite(a[:, 0]) & np.isfinite(a[:, 1])  # faster than .all(axis=1) on (n, 2)
-    return a if ok.all() else a[ok]
-
-
-def _finite_point(p) -> tuple[float, float] | None:
-    if p is None:
-        return None
-    try:
-        x, y = float(p[0]), float(p[1])
-    except (TypeError, ValueError, IndexError):
-        return None
-    return (x, y) if math.isfinite(x) and math.isfinite(y) else None
-
-
-def nice_ticks(lo: float, hi: float, count: int) -> tuple[list[float], int]:
-    """About `count` round tick values (steps of 1, 2 or 5 × 10^k) in [lo, hi], and decimals."""
-    span = hi - lo
-    if not (span > 0) or count < 1:
-        return [], 0
-    raw = span / count
-    mag = 10.0 ** math.floor(math.log10(raw))
-    step = next(m * mag for m in (1, 2, 5, 10) if m * mag >= raw * (1 - 1e-9))
-    first = math.ceil(lo / step - 1e-9)
-    ticks = [k * step for k in range(first, math.floor(hi / step + 1e-9) + 1)]
-    return ticks, max(0, -math.floor(math.log10(step) + 1e-9))
-
-
-def _fmt(v: float, decimals: int) -> str:
-    s = f"{v:.{decimals}f}"
-    return "0" if s.strip("-0.") == "" else s
-
-
-def _moved(p: np.ndarray) -> np.ndarray:
-    """Mask of rows that differ from the row before (the first always counts)."""
-    keep = np.empty(len(p), dtype=bool)
-    keep[0] = True
-    keep[1:] = (p[1:, 0] != p[:-1, 0]) | (p[1:, 1] != p[:-1, 1])
-    return keep
-
-
-def _line_dots(pts: np.ndarray, closed: bool, dashed: bool) -> np.ndarray:
-    """Integer dot positions (n, 2) [col, row] along the polyline through pts (dot units).
-
-    Vertices are snapped to dots and repeats dropped first, so a 100,000-state
-    path that crosses only a few hundred dots costs a few hundred segments.
-    """
-    if len(pts) == 0:
-        return np.zeros((0, 2), dtype=int)
-    pts = np.rint(pts)
-    if len(pts) > 1:
-        pts = pts[_moved(pts)]
-    if closed and len(pts) > 1:
-        pts = np.vstack([pts, pts[:1]])
-    a, b = pts[:-1], pts[1:]
-    if len(a) == 0:
-        return pts.astype(int)
-    steps = np.maximum(np.abs(b - a).max(axis=1).astype(np.int64), 1)
-    total = int(steps.sum())
-    if total > _MAX_SAMPLES:
-        steps = np.maximum(steps * _MAX_SAMPLES // total, 1)
-        total = int(steps.sum())
-    seg = np.repeat(np.arange(len(a)), steps)
-    t = (np.arange(total) - np.repeat(np.cumsum(steps) - steps, steps)) / steps[seg]
-    dots = np.rint(np.vstack([a[seg] + (b - a)[seg] * t[:, None], pts[-1:]])).astype(int)
-    if dashed and len(dots) > 1:
-        dots = dots[_moved(dots)]
-        dots = dots[(np.arange(len(dots)) // 2) % 2 == 0]
-    return dots
-
-
-def _braille(dots: np.ndarray, rows: int, cols: int) -> np.ndarray:
-    """Braille bit pattern per cell (rows, cols) from dot positions."""
-    mask = np.zeros((rows * 4, cols * 2), dtype=bool)
-    if len(dots):
-        c, r = dots[:, 0], dots[:, 1]
-        ok = (c >= 0) & (c < cols * 2) & (r >= 0) & (r < rows * 4)
-        mask[r[ok], c[ok]] = True
-    return (mask.reshape(rows, 4, cols, 2) * _BITS[None, :, None, :]).sum(axis=(1, 3))
 
 
 class _Picture:
@@ -150,13 +60,16 @@ class _Picture:
         if drawn["point"]:
             entries.append([(POINT, _POINT), (" loadout" if short else " this loadout", _PLAIN)])
         if drawn["others"]:
-            names = ", ".join(_clean(n) for n in drawn["others"])
+            names = ", ".join(clean_label(n) for n in drawn["others"])
             if len(names) > 40:
                 names = names[:39] + "…"
             entries.append([(OTHER, _OTHER), (" other loadouts" if short else f" other loadouts: {names}",
                                               _PLAIN)])
         if drawn["worst"]:
             entries.append([(WORST, _WORST), (" least margin", _PLAIN)])
+        if drawn["region"]:
+            label = clean_label(self.d["region_label"])
+            entries.append([(REGION, _REGION), (" " + (label if not short else label.split(" (")[0]), _PLAIN)])
         lines: list[list[Run]] = [[]]
         used = 0
         for e in entries:
@@ -173,18 +86,20 @@ class _Picture:
 
     def rows(self) -> list[list[Run]]:
         d, w, h = self.d, self.w, self.h
-        poly, path = d["polygon"], d["path"]
+        poly, path, region = d["polygon"], d["path"], d["region"]
         point, others = d["point"], d["others"]
         worst = d["worst"] if path is not None and d["worst"] is not None and 0 <= d["worst"] < len(path) else None
         none = np.zeros((0, 2))
         allpts = np.vstack([poly, none if path is None else path, none if point is None else np.array([point]),
-                            np.array([(x, y) for _, x, y in others]).reshape(-1, 2)])
+                            np.array([(x, y) for _, x, y in others]).reshape(-1, 2),
+                            none if region is None else region])
         if w <= 0 or h <= 0:
             return []
         if len(allpts) == 0:
             return [[(NO_DATA, _PLAIN)]] + [[] for _ in range(h - 1)]
         drawn = {"edge": len(poly) >= 2, "path": path is not None and len(path) > 0,
-                 "point": point is not None, "others": [n for n, _, _ in others], "worst": worst is not None}
+                 "point": point is not None, "others": [n for n, _, _ in others], "worst": worst is not None,
+                 "region": region is not None}
         legend = self._legend(drawn, short=False)
         if len(legend) > 2:
             legend = min(legend, self._legend(drawn, short=True), key=len)
@@ -207,7 +122,7 @@ class _Picture:
         if not finite:
             return [[(TOO_WIDE, _PLAIN)]] + [[] for _ in range(h - 1)]
         yt, yd = nice_ticks(lo[1], hi[1], max(1, plot_h // 2))
-        ylabels = [_fmt(v, yd) for v in yt]
+        ylabels = [fmt_tick(v, yd) for v in yt]
         gutter = min(max((len(s) for s in ylabels), default=1), max(1, w // 3))
         plot_w = w - gutter - 1
         if plot_h < 1 or plot_w < 2:
@@ -226,12 +141,16 @@ class _Picture:
         grid_rows = ph + axis + 1
         codes = np.full((grid_rows, w), 0x20, dtype=np.uint32)
         style = np.zeros((grid_rows, w), dtype=np.int8)
-        edge = _braille(_line_dots(to_dots(d["polygon"]), True, False), ph, pw)
+        edge = braille(line_dots(to_dots(d["polygon"]), True, False), ph, pw)
         path = d["path"]
-        trail = _braille(_line_dots(to_dots(path), False, True), ph, pw) if path is not None else 0 * edge
+        trail = braille(line_dots(to_dots(path), False, True), ph, pw) if path is not None else 0 * edge
         bits = edge | trail
-        codes[:ph, x0:] = np.where(bits > 0, 0x2800 + bits, 0x20)
-        style[:ph, x0:] = np.where(edge > 0, _EDGE, np.where(trail > 0, _PATH, _PLAIN))
+        shade = cells_covered(to_dots(d["region"]), ph, pw) if d["region"] is not None else None
+        blank = np.full_like(bits, 0x20) if shade is None else np.where(shade, ord(REGION), 0x20)
+        codes[:ph, x0:] = np.where(bits > 0, 0x2800 + bits, blank)
+        style[:ph, x0:] = np.where(edge > 0, _EDGE, np.where(trail > 0, _PATH,
+                                                             _PLAIN if shade is None else np.where(shade, _REGION,
+                                                                                                   _PLAIN)))
 
         def mark(x: float, y: float, glyph: str, sid: int) -> None:
             c, r = to_dots(np.array([[x, y]]))[0]
@@ -265,7 +184,7 @@ class _Picture:
         end = -1
         for v in xt:
             c = x0 + int((v - lo[0]) * sx) // 2
-            text = _fmt(v, xd)
+            text = fmt_tick(v, xd)
             start = min(max(c - len(text) // 2, x0 - 1), w - len(text))
             if start <= end or start < 0:
                 continue
@@ -275,7 +194,7 @@ class _Picture:
             style[tick_row, start:start + len(text)] = _AXIS
             end = start + len(text)
         out: list[list[Run]] = []
-        ylab, xlab_text = _clean(d["y_label"]), _clean(d["x_label"])
+        ylab, xlab_text = clean_label(d["y_label"]), clean_label(d["x_label"])
         if top:
             out.append([(ylab if xlab else f"{ylab}  (across: {xlab_text})", _PLAIN)])
         self.exact = set(range(len(out), len(out) + grid_rows))
@@ -302,6 +221,7 @@ class EnvelopeChart(Widget):
     EnvelopeChart > .envelope-chart--other { color: $foreground; }
     EnvelopeChart > .envelope-chart--worst { color: $error; text-style: bold; }
     EnvelopeChart > .envelope-chart--axis { color: $text-muted; }
+    EnvelopeChart > .envelope-chart--region { color: $accent; }
     """
     COMPONENT_CLASSES = set(_COMPONENTS[1:])
 
@@ -312,7 +232,8 @@ class EnvelopeChart(Widget):
         self._cache: tuple[tuple, list[Strip]] | None = None
 
     @staticmethod
-    def _pack(polygon, point, others, path, worst, x_label, y_label) -> dict:
+    def _pack(polygon, point, others, path, worst, x_label, y_label, region=None,
+              region_label="CG uncertainty") -> dict:
         kept = []
         for entry in others or ():
             try:
@@ -322,24 +243,29 @@ class EnvelopeChart(Widget):
                 continue
             if math.isfinite(x) and math.isfinite(y):
                 kept.append((str(n), x, y))
-        p = None if path is None else _finite_rows(path)
+        p = None if path is None else finite_rows(path)
         try:
             worst = None if worst is None else int(worst)
         except (TypeError, ValueError):
             worst = None
-        return {"polygon": _finite_rows(polygon), "point": _finite_point(point), "others": kept,
+        r = None if region is None else finite_rows(region)
+        return {"polygon": finite_rows(polygon), "point": finite_point(point), "others": kept,
                 "path": p if p is not None and len(p) else None, "worst": worst,
-                "x_label": str(x_label), "y_label": str(y_label)}
+                "x_label": str(x_label), "y_label": str(y_label),
+                "region": r if r is not None and len(r) else None, "region_label": str(region_label)}
 
     def set_data(self, polygon: np.ndarray | None, point: tuple[float, float] | None = None,
                  others: Sequence[tuple[str, float, float]] = (), path: np.ndarray | None = None,
-                 worst: int | None = None, x_label: str = "CG", y_label: str = "mass") -> None:
+                 worst: int | None = None, x_label: str = "CG", y_label: str = "mass",
+                 region: np.ndarray | None = None, region_label: str = "CG uncertainty") -> None:
         """Replace what is drawn. Values in display units; polygon (k, 2) and path (p, 2) as [cg, mass].
 
         `worst` indexes `path` (the least-margin state). Rows with NaN are dropped,
-        so a half-filled sequence still draws.
+        so a half-filled sequence still draws. `region` (r, 2) is a closed outline
+        (e.g. the 2σ ellipse of the CG) whose cells are shaded with REGION and
+        named `region_label` in the legend.
         """
-        self._data = self._pack(polygon, point, others, path, worst, x_label, y_label)
+        self._data = self._pack(polygon, point, others, path, worst, x_label, y_label, region, region_label)
         self._cache = None
         self.refresh()
 
@@ -350,7 +276,8 @@ class EnvelopeChart(Widget):
     @property
     def has_data(self) -> bool:
         d = self._data
-        return bool(len(d["polygon"]) or d["point"] or d["others"] or d["path"] is not None)
+        return bool(len(d["polygon"]) or d["point"] or d["others"] or d["path"] is not None
+                    or d["region"] is not None)
 
     def on_resize(self, event: Resize) -> None:
         self._cache = None

@@ -41,6 +41,7 @@ class EditFlows:
         except SteelyardError as exc:
             self.notify(str(exc), severity="error", markup=False)
             return
+        self._journal_warning()
         self.refresh_views(focus_item=item if action != "delete" else None)
 
     def _preview(self, new_ledger) -> Text:
@@ -120,6 +121,7 @@ class EditFlows:
     def action_undo(self) -> None:
         if self._may_edit():
             change = self.session.undo()
+            self._journal_warning()
             self.notify("nothing to undo" if change is None else f"undid: {change.summary}", markup=False,
                         timeout=3)
             self.refresh_views(focus_item=None if change is None else change.item)
@@ -127,6 +129,7 @@ class EditFlows:
     def action_redo(self) -> None:
         if self._may_edit():
             change = self.session.redo()
+            self._journal_warning()
             self.notify("nothing to redo" if change is None else f"redid: {change.summary}", markup=False,
                         timeout=3)
             self.refresh_views(focus_item=None if change is None else change.item)

@@ -1,8 +1,9 @@
 """The envelopes view: status and margins in words and numbers, the chart, the caution.
 
 Status is always written out (INSIDE / OUTSIDE, which limit, how far); the
-chart repeats it as a picture. The chart takes a path for a burn or drop
-sequence: `show(..., path=...)` is the seam the sequence feature plugs into.
+chart repeats it as a picture. `ChartExtras` (computed off-thread, see
+`chart_extras`) adds the active loadout's burn or drop sequences (the path
+and its least-margin state) and the 2σ CG uncertainty region.
 """
 
 from __future__ import annotations
@@ -13,11 +14,14 @@ from textual.containers import Vertical
 from textual.widgets import Static
 
 from ..core.caution import CAUTION
-from ..core.display import DisplayUnits, fmt, pretty_unit
+from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from ..core.errors import SteelyardError
+from ..core.limits import envelope_points
 from ..core.model import Ledger
 from ..core.rollup import MassProperties
 from ..core.status import AXIS_INDEX
 from .chart import EnvelopeChart
+from .chart_extras import REGION_SIGMAS, ChartExtras
 from .session import Totals
 from .shown import axis_label, limit_words, margin_words, status_word
 from .text import clean
@@ -49,16 +53,64 @@ def status_text(totals: Totals, ledger: Ledger, du: DisplayUnits) -> Text:
     return t
 
 
+def sequence_text(extras: ChartExtras | None, choice: int, env_name: str | None, du: DisplayUnits) -> Text:
+    """One or two lines on the charted sequence: its least-margin state against the charted envelope."""
+    t = Text()
+    if extras is None:
+        return t
+    if extras.sequence_error is not None:
+        t.append("Sequences cannot be shown: " + clean(extras.sequence_error))
+        return t
+    seqs = extras.sequences
+    if not seqs:
+        return t
+    seq = seqs[choice % len(seqs)]
+    t.append(f"Sequence {clean(seq.name)}", style="bold")
+    if len(seqs) > 1:
+        t.append(f" ({choice % len(seqs) + 1} of {len(seqs)}; b: next)", style="dim")
+    t.append(f": {len(seq.path)} states, {len(seq.steps)} steps")
+    f = next((f for f in seq.findings if f.kind == "envelope" and f.name == env_name and f.applies), None)
+    if f is None or f.state is None:
+        t.append("; this envelope does not apply to it")
+        return t
+    lu = pretty_unit(du.length)
+    where = "the start" if not f.step else f"step {f.step} ({clean(seq.steps[f.step - 1].label)})"
+    t.append(f"; least margin at {where}: ")
+    t.append("INSIDE" if f.ok else "OUTSIDE", style="bold")
+    if f.margin is not None:
+        t.append(f" {fmt(du.l(abs(f.margin)))} {lu} {'to' if f.margin >= 0 else 'PAST'} the nearer limit")
+    if f.broken_states:
+        t.append(f"; {f.broken_states} states outside, steps {f.first_broken_step}–{f.last_broken_step}")
+    return t
+
+
+def uncertainty_text(extras: ChartExtras | None, du: DisplayUnits) -> Text:
+    t = Text()
+    if extras is None:
+        return t
+    if extras.uncertainty_error is not None:
+        t.append("No CG uncertainty: " + clean(extras.uncertainty_error))
+    elif extras.sigma is not None:
+        lu = pretty_unit(du.length)
+        t.append("CG uncertainty ", style="bold")
+        t.append(f"(items' tolerances, first order): σ mass {fmt(du.m(extras.sigma[0]))} {pretty_unit(du.mass)}, "
+                 + ", ".join(f"σ {AXIS_NAMES[k]} {fmt(du.l(extras.sigma[1 + k]))}" for k in range(3))
+                 + f" {lu}; ░ = {REGION_SIGMAS:g}σ region")
+    return t
+
+
 class EnvelopePanel(Vertical, can_focus=True):
     """Which envelope the chart shows is view state (`choice`); the rest is pushed in."""
 
     def __init__(self, **kw) -> None:
         super().__init__(**kw)
         self.choice = 0
+        self.sequence_choice = 0
 
     def compose(self):
         yield Static("", id="envelope-status")
         yield Static("", id="envelope-choice")
+        yield Static("", id="envelope-extras")
         yield EnvelopeChart(id="envelope-chart")
         yield Static(Text(CAUTION, style="italic"), id="envelope-caution")
 
@@ -66,29 +118,56 @@ class EnvelopePanel(Vertical, can_focus=True):
         if count:
             self.choice = (self.choice + step) % count
 
+    def next_sequence(self, step: int = 1) -> None:
+        self.sequence_choice += step
+
     def show(self, totals: Totals, ledger: Ledger, du: DisplayUnits,
              others: list[tuple[str, MassProperties]], path: np.ndarray | None = None,
-             worst: int | None = None) -> None:
+             worst: int | None = None, extras: ChartExtras | None = None) -> None:
+        """`path` (p, 2) [cg, mass] SI and `worst` draw a path directly; `extras` picks them itself."""
         self.query_one("#envelope-status", Static).update(status_text(totals, ledger, du))
         chart = self.query_one(EnvelopeChart)
         choice = self.query_one("#envelope-choice", Static)
+        lines = self.query_one("#envelope-extras", Static)
         if not ledger.envelopes:
             choice.update("")
+            lines.update("")
             chart.display = False
             return
         chart.display = True
         self.choice %= len(ledger.envelopes)
         env = ledger.envelopes[self.choice]
         k = AXIS_INDEX[env.axis]
-        pts = env.array
+        try:
+            pts = np.asarray(envelope_points(ledger, env), dtype=float).reshape(-1, 2)
+        except SteelyardError:
+            pts = env.array  # the status lines above already name the problem
         polygon = np.column_stack([du.l(pts[:, 0]), du.m(pts[:, 1])])
         point = None
-        if totals.mp is not None and totals.mp.mass > 0 and np.isfinite(totals.mp.cg[k]):
-            point = (du.l(float(totals.mp.cg[k])), du.m(totals.mp.mass))
-        other = [(clean(name), du.l(float(mp.cg[k])), du.m(mp.mass)) for name, mp in others]
+        mp = totals.mp
+        if mp is not None and mp.mass > 0 and np.isfinite(mp.cg[k]):
+            point = (du.l(float(mp.cg[k])), du.m(mp.mass))
+        other = [(clean(name), du.l(float(o.cg[k])), du.m(o.mass)) for name, o in others]
         more = f" ({self.choice + 1} of {len(ledger.envelopes)}; n / p: next / previous)" if len(
             ledger.envelopes) > 1 else ""
         choice.update(Text(f"Chart: {clean(env.name)}", style="bold") + Text(more, style="dim"))
+        region = None
+        if extras is not None:
+            if extras.sequences:
+                seq = extras.sequences[self.sequence_choice % len(extras.sequences)]
+                path = np.column_stack([seq.path.cg[:, k], seq.path.mass])
+                worst = extras.worst_state(seq, env.name)
+            if point is not None:
+                region = extras.region(env.axis, float(mp.cg[k]), float(mp.mass))
+        shown = [x for x in (sequence_text(extras, self.sequence_choice, env.name, du),
+                             uncertainty_text(extras, du)) if x.plain]
+        lines.update(Text("\n").join(shown) if shown else "")
+        lines.display = bool(shown)
+        if path is not None:
+            path = np.column_stack([du.l(path[:, 0]), du.m(path[:, 1])])
+        if region is not None:
+            region = np.column_stack([du.l(region[:, 0]), du.m(region[:, 1])])
         chart.set_data(polygon, point, other, path, worst,
                        x_label=f"CG {axis_label(ledger.frame, k)} [{pretty_unit(du.length)}]",
-                       y_label=f"mass [{pretty_unit(du.mass)}]")
+                       y_label=f"mass [{pretty_unit(du.mass)}]", region=region,
+                       region_label=f"{REGION_SIGMAS:g}σ CG region (tolerances)")

@@ -94,11 +94,14 @@ class FileFlows:
     def on_loaded(self, message: Loaded) -> None:
         self._close_loading()
         if self.session is not None:
+            self.session.close_journal(discard=True)  # saved, or the user chose to discard (_keep_work)
             self.session.release_lock()
         ledger = message.loaded.ledger if message.loaded is not None else Ledger()
         self.session = Session(ledger, loaded=message.loaded, path=message.path, demo=message.demo)
         holder = self.session.claim_lock()
         self.refresh_views(groups=message.groups)
+        if holder is None:
+            self.start_journal()
         if message.demo:
             self.notify("This is a copy of the demo ledger: Save as (W) writes it where you choose.",
                         timeout=6, markup=False)
@@ -114,6 +117,7 @@ class FileFlows:
                 if choice == "take":
                     self.session.take_over_lock()
                     self.notify("Lock taken over: you can edit and save.", markup=False)
+                    self.start_journal()  # the gone session's unsaved edits are offered here
                 self.update_title()
                 self.refresh_views()
 
@@ -161,9 +165,11 @@ class FileFlows:
                                                                    ("cancel", "Cancel")]) != "replace":
                     return False
         flags: dict[str, bool] = {}
+        old_path = s.path
         while True:
+            snap = s.snapshot()
             try:
-                written = await asyncio.to_thread(s.save, path, snapshot=s.snapshot(), **flags)
+                written = await asyncio.to_thread(s.save, path, snapshot=snap, **flags)
             except ChangedOnDisk:
                 choice = await self._ask(
                     "The file changed on disk since it was opened (someone else saved it?). Overwrite their "
@@ -190,6 +196,9 @@ class FileFlows:
                             severity="error", markup=False, timeout=8)
                 return False
             break
+        moved = old_path is None or os.path.realpath(old_path) != os.path.realpath(written)
+        s.journal_saved(snap[0], moved=moved)
+        self._journal_warning()
         self.notify(f"saved {written}", markup=False, timeout=3)
         self.update_title()
         self.refresh_views()
@@ -227,6 +236,8 @@ class FileFlows:
             await self._quit_now()
 
     async def _quit_now(self) -> None:
+        """Quit on purpose: nothing unsaved is wanted any more (saved, discarded, or none), so the journal goes."""
         if self.session is not None:
+            self.session.close_journal(discard=True)
             self.session.release_lock()
         self.exit(0)

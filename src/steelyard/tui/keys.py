@@ -37,6 +37,8 @@ MAIN_KEYS: tuple[tuple[str, str, str, bool, str], ...] = (
     ("4", "view('log')", "Log", False, "show the change log"),
     ("n", "envelope(1)", "Next envelope", False, "chart the next envelope (envelopes view)"),
     ("p", "envelope(-1)", "Previous envelope", False, "chart the previous envelope (envelopes view)"),
+    ("b", "sequence(1)", "Next sequence", False,
+     "chart the next burn or drop sequence that starts from this loadout (envelopes view)"),
 )
 
 #: keys handled by the widgets themselves, for the help screen only

@@ -11,6 +11,7 @@ from rich.text import Text
 from textual import on
 from textual.binding import Binding
 from textual.containers import Vertical
+from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import ContentSwitcher, Footer, Header, Input, Static
 
@@ -23,7 +24,7 @@ from .summary_strip import SummaryStrip
 from .text import clean
 from .totals_panel import TotalsPanel
 
-VIEW_ACTIONS = {"filter", "sort", "reverse_sort", "grouped", "fold_all", "view", "envelope"}
+VIEW_ACTIONS = {"filter", "sort", "reverse_sort", "grouped", "fold_all", "view", "envelope", "sequence"}
 VIEWS = ("ledger", "totals", "envelopes", "log")
 SORT_WORDS = {"file": "file order"}
 
@@ -39,6 +40,9 @@ def _bindings() -> list[Binding]:
 
 class MainScreen(Screen):
     BINDINGS = _bindings()
+
+    class ExtrasWanted(Message):
+        """The envelopes view needs sequence paths / uncertainty for the session's ledger now."""
 
     def __init__(self) -> None:
         super().__init__()
@@ -100,7 +104,10 @@ class MainScreen(Screen):
         if view == "totals":
             self.query_one(TotalsPanel).show(totals, ledger, du, session.system)
         elif view == "envelopes":
-            self.query_one(EnvelopePanel).show(totals, ledger, du, session.other_points())
+            extras = session.chart_extras()
+            if extras is None or extras.ledger is not ledger:
+                self.post_message(self.ExtrasWanted())  # computed in a worker; shown when ready
+            self.query_one(EnvelopePanel).show(totals, ledger, du, session.other_points(), extras=extras)
         elif view == "log":
             session.flush()
             self.query_one(LogView).show(session.history, du)
@@ -139,6 +146,20 @@ class MainScreen(Screen):
             self.action_view("envelopes")
         else:
             self.show(self.session, totals_only=True)
+
+    def action_sequence(self, step: int = 1) -> None:
+        """Chart the next burn or drop sequence that starts from the active loadout."""
+        if self.session is None:
+            return
+        self.query_one(EnvelopePanel).next_sequence(step)
+        if self.view != "envelopes":
+            self.action_view("envelopes")
+        else:
+            self.show(self.session, totals_only=True)
+        extras = self.session.chart_extras()
+        if extras is not None and not extras.sequences and extras.sequence_error is None:
+            self.notify("No sequence starts from this loadout ([[sequence]] with loadout = …).", timeout=3,
+                        markup=False)
 
     def action_filter(self) -> None:
         self.action_view("ledger")

@@ -1,4 +1,4 @@
-"""Messages the loading and subtotal workers post to the App (from their threads)."""
+"""Messages the App's worker threads post to it (loading, subtotals, journal restore, chart extras)."""
 
 from __future__ import annotations
 
@@ -27,3 +27,17 @@ class SubtotalsReady(Message):
     def __init__(self, ledger, loadout, groups) -> None:
         super().__init__()
         self.ledger, self.loadout, self.groups = ledger, loadout, groups
+
+
+class Restored(Message):
+    """The journal's edits rebuilt into a history (None and `error` when they could not apply)."""
+
+    def __init__(self, session, state, history, error: str | None) -> None:
+        super().__init__()
+        self.session, self.state, self.history, self.error = session, state, history, error
+
+
+class ExtrasReady(Message):
+    def __init__(self, extras) -> None:
+        super().__init__()
+        self.extras = extras

@@ -1,28 +1,36 @@
-"""One editing session on one ledger: history, loadout, units, file and lock.
+"""One editing session on one ledger: history, loadout, units, file, lock and journal.
 
 No widgets here: the App asks the session for numbers and tells it what the
 user did, so every rule (what is unsaved, what may be written, who holds the
-file) can be tested without a terminal. Numbers come from core; files and
-locks from io.
+file) can be tested without a terminal. Numbers come from core; files,
+locks and the journal of unsaved edits from io.
+
+Every accepted edit, undo and redo is journaled (`io.journal`, fsync'd) in
+`apply` / `undo` / `redo`, before the screen shows it, so a killed process
+or a dropped SSH session loses nothing; see docs/durability.md.
 """
 
 from __future__ import annotations
 
+import hashlib
 import os
 from dataclasses import dataclass
 
-from ..core.changes import Change, History, ledger_with_log, log_from_ledger
+from ..core.changes import Change, History, ledger_with_log, log_from_ledger, utc_stamp
 from ..core.display import DisplayUnits
 from ..core.errors import SteelyardError
 from ..core.loadout import State, resolve
 from ..core.model import Ledger
 from ..core.rollup import MassProperties, rollup_state
 from ..core.status import EnvelopeResult, envelope_results
+from ..io import journal as J
 from ..io.ledger_file import LoadedLedger, save_ledger
 from ..io.lock import Lock, LockInfo, Locked, LockUnavailable, acquire, is_stale, take_over, who_am_i
 
 #: display unit systems the units key cycles through (None: the file's own)
 UNIT_SYSTEMS: tuple[str | None, ...] = (None, "si", "us")
+#: the base hash of a journal for a file that does not exist yet (sha256 of no bytes)
+EMPTY_SHA256 = hashlib.sha256(b"").hexdigest()
 
 
 @dataclass(frozen=True)
@@ -66,6 +74,10 @@ class Session:
         # edits shown but not yet entered in the change log (see `apply(defer=True)`)
         self._pending: list[tuple] = []
         self._head: Ledger | None = None
+        self.journal: J.Journal | None = None
+        self.journal_error: str | None = None  # why edits are not journaled right now
+        self.journal_hold: str | None = None  # unsaved edits of an earlier session wait: read-only
+        self.extras = None  # chart_extras.ChartExtras, computed off-thread by the App
 
     # ---------------------------------------------------------------- state
     @property
@@ -85,13 +97,13 @@ class Session:
 
     @property
     def read_only(self) -> bool:
-        return self.holder is not None or self.no_lock is not None
+        return self.holder is not None or self.no_lock is not None or self.journal_hold is not None
 
     def read_only_reason(self) -> str:
         if self.holder is not None:
             h = self.holder
             return f"{h.user}@{h.host} is editing this file"
-        return self.no_lock or ""
+        return self.no_lock or self.journal_hold or ""
 
     @property
     def units(self) -> DisplayUnits:
@@ -112,7 +124,7 @@ class Session:
             marks.append("copy of the demo")
         if self.holder is not None:
             marks.append(f"read-only, locked by {self.holder.user}@{self.holder.host}")
-        elif self.no_lock is not None:
+        elif self.no_lock is not None or self.journal_hold is not None:
             marks.append("read-only")
         return f"{'* ' if self.dirty else ''}{self.name}" + (f" ({'; '.join(marks)})" if marks else "")
 
@@ -126,6 +138,11 @@ class Session:
 
     def totals_for(self, ledger: Ledger) -> Totals:
         return compute_totals(ledger, self.loadout)
+
+    def chart_extras(self):
+        """Sequences and uncertainty for the active loadout (maybe of an older ledger), or None."""
+        e = self.extras
+        return e if e is not None and e.loadout == self.loadout else None
 
     def other_points(self) -> list[tuple[str, MassProperties]]:
         """Roll-ups of the loadouts that are not active (for the chart)."""
@@ -163,6 +180,7 @@ class Session:
         totals are on screen; everything that reads the log flushes first.
         """
         self.check_writable()
+        self._journal(self.ledger, new_ledger, self._change(action, item, summary))
         if defer:
             self._pending.append((new_ledger, action, item, summary, self.loadout))
             self._head = new_ledger
@@ -185,12 +203,95 @@ class Session:
     def undo(self) -> Change | None:
         self.check_writable()
         self.flush()
-        return self.history.undo()
+        before = self.history.ledger
+        change = self.history.undo()
+        if change is not None:
+            self._journal(before, self.history.ledger, self._change("undo", change.item, f"undo: {change.summary}"))
+        return change
 
     def redo(self) -> Change | None:
         self.check_writable()
         self.flush()
-        return self.history.redo()
+        before = self.history.ledger
+        change = self.history.redo()
+        if change is not None:
+            self._journal(before, self.history.ledger, self._change("redo", change.item, f"redo: {change.summary}"))
+        return change
+
+    # -------------------------------------------------------------- journal
+    def _change(self, action: str, item: str | None, summary: str) -> dict:
+        """What the journal keeps beside an edit, so a restore rebuilds the change log."""
+        return {"action": action, "item": item, "summary": summary, "author": self.author,
+                "when": utc_stamp(), "loadout": self.loadout}
+
+    def _journal(self, before: Ledger, after: Ledger, change: dict) -> None:
+        if self.journal is None:
+            return
+        try:
+            self.journal.record(before, after, change=change)
+        except SteelyardError as exc:  # a full disk: warn, keep editing
+            self.journal_error = f"edits are not journaled: {exc}"
+
+    @property
+    def base_sha256(self) -> str:
+        return self.loaded.sha256 if self.loaded is not None else EMPTY_SHA256
+
+    def pending_journal(self) -> J.JournalState | None:
+        """Unsaved edits of an earlier session on this file (None: none, or no file)."""
+        if self.path is None:
+            return None
+        return J.pending(self.path, current_sha256=self.base_sha256)
+
+    def open_journal(self, *, resume: bool = False) -> None:
+        """Start journaling; on failure edits go on unjournaled and `journal_error` says why."""
+        self.close_journal()
+        if self.path is None or self.read_only:
+            return
+        try:
+            self.journal = J.Journal.open(self.path, self.base_sha256, resume=resume, user=self.author)
+            self.journal_error = None
+        except SteelyardError as exc:
+            self.journal_error = f"edits are not journaled: {exc}"
+
+    def close_journal(self, *, discard: bool = False) -> None:
+        if self.journal is not None:
+            try:
+                self.journal.close(discard=discard)
+            finally:
+                self.journal = None
+
+    def restored(self, history: History, state: J.JournalState) -> None:
+        """Take a history rebuilt from the journal (`journal_restore`) and carry on journaling."""
+        self._pending.clear()
+        self._head = None
+        self.history = history
+        if state.matches:
+            self.open_journal(resume=True)
+            return
+        J.discard(self.path)
+        self.open_journal()
+        self._journal(self.saved, self.ledger, self._change(
+            "restore", None, f"restored {len(state.records)} unsaved edits onto a changed file"))
+
+    def journal_saved(self, saved: Ledger, *, moved: bool) -> None:
+        """After a save (on the UI thread): the journal starts over from the file just written.
+
+        Edits made while the save ran (after its snapshot) are journaled again
+        against the saved ledger, so none is dropped with the old records.
+        """
+        if self.path is None or self.read_only:
+            return
+        try:
+            if moved or self.journal is None:
+                self.close_journal(discard=True)  # its edits are in the file saved elsewhere
+                self.open_journal()
+            else:
+                self.journal.saved(self.base_sha256)
+        except SteelyardError as exc:
+            self.journal_error = f"edits are not journaled: {exc}"
+            return
+        if self.ledger is not saved:
+            self._journal(saved, self.ledger, self._change("edit", None, "edits made while saving"))
 
     # ---------------------------------------------------------------- files
     def snapshot(self) -> tuple[Ledger, tuple]:

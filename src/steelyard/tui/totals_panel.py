@@ -1,4 +1,4 @@
-"""The totals view: mass, CG with axis directions, %MAC, inertia, principal axes.
+"""The totals view: mass, CG with axis directions, %MAC ([mac]), inertia, principal axes.
 
 Every number is from core's roll-up; this module only lays them out in the
 chosen display units and says which way each axis points.
@@ -12,23 +12,21 @@ from textual.containers import VerticalScroll
 from textual.widgets import Static
 
 from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
-from ..core.mac import percent_mac
+from ..core.errors import SteelyardError
+from ..core.limits import MacRef
+from ..core.limits import mac_reference as core_mac_reference
 from ..core.model import Ledger
 from .session import Totals
 from .shown import axis_label, unit_label
 from .text import clean
 
 
-def mac_reference(ledger: Ledger) -> tuple[float, float] | None:
-    """(LEMAC station, MAC length) in metres when the ledger defines a MAC.
+def mac_reference(ledger: Ledger) -> MacRef | None:
+    """The ledger's `[mac]` (LEMAC and MAC length, SI; docs/limits.md), or None when it has none.
 
-    Seam: the file key for the MAC is defined by another issue; a ledger that
-    carries a `mac` attribute with `lemac` and `length` (SI) lights this up.
+    Raises SteelyardError for a `[mac]` table that cannot be read.
     """
-    ref = getattr(ledger, "mac", None)
-    if ref is None:
-        return None
-    return float(ref.lemac), float(ref.length)
+    return core_mac_reference(ledger)
 
 
 def totals_text(totals: Totals, ledger: Ledger, du: DisplayUnits, system: str | None) -> Text:
@@ -48,9 +46,14 @@ def totals_text(totals: Totals, ledger: Ledger, du: DisplayUnits, system: str | 
     t.append(f"CG (from the datum) [{lu}]\n", style="bold")
     for k in range(3):
         t.append(f"  {axis_label(ledger.frame, k):<28} {fmt(du.l(mp.cg[k])):>14}\n")
-    ref = mac_reference(ledger)
+    try:
+        ref = mac_reference(ledger)
+    except SteelyardError as exc:
+        t.append("  %MAC: " + clean(exc) + "\n")
+        ref = None
     if ref is not None and np.isfinite(mp.cg[0]):
-        t.append(f"  {'CG in %MAC':<28} {fmt(percent_mac(mp.cg[0], *ref), 2):>14} %\n")
+        t.append(f"  {'x in %MAC':<28} {fmt(float(ref.percent(mp.cg[0])), 2):>14} %")
+        t.append(f"  LEMAC {fmt(du.l(ref.lemac), 2)}, MAC {fmt(du.l(ref.length), 2)} {lu}\n", style="dim")
     t.append(f"\nInertia about the CG [{iu}] (tensor; off-diagonals are minus the products)\n", style="bold")
     t.append("     " + "".join(f"{a:>17}" for a in AXIS_NAMES) + "\n")
     for r, a in enumerate(AXIS_NAMES):
