@@ -12,7 +12,7 @@ from shapely.geometry import Point, Polygon
 from textual.app import App, ComposeResult
 from textual.geometry import Region
 
-from steelyard.tui.chart import NO_DATA, OTHER, POINT, TOO_WIDE, WORST, EnvelopeChart
+from steelyard.tui.chart import NO_DATA, OTHER, POINT, REGION, TOO_WIDE, WORST, EnvelopeChart
 
 # an invented envelope, [cg mm, mass kg]
 ENVELOPE = np.array([[2700.0, 300.0], [2700.0, 520.0], [2950.0, 650.0], [3200.0, 650.0], [3200.0, 300.0]])
@@ -214,3 +214,39 @@ async def test_labels_and_names_are_literal():
         text = "\n".join(screen_lines(chart))
         assert "[i]CG[/i] (mm)" in text and "[b]x[/b]" in text
         assert "\x1b" not in text
+
+
+async def test_region_shades_the_cells_it_covers_and_is_named():
+    # a circle of radius 20 mm about (150, 450) inside RECT: its shaded cells must all lie inside the
+    # circle's bounding box, and the cells around the centre must be shaded (shapely decides "inside")
+    t = np.linspace(0.0, 2.0 * np.pi, 72)
+    circle = np.column_stack([150.0 + 20.0 * np.cos(t), 450.0 + 60.0 * np.sin(t)])
+    async with Host().run_test(size=(80, 24)) as pilot:
+        chart = pilot.app.query_one(EnvelopeChart)
+        chart.set_data(RECT, (150.0, 450.0), [], None, None, "CG (mm)", "mass (kg)", region=circle,
+                       region_label="2σ CG region")
+        await pilot.pause()
+        lines = screen_lines(chart)
+        text = "\n".join(lines)
+        assert f"{REGION} 2σ CG region" in text  # named in the legend with its own glyph
+        shaded = find(lines, REGION)
+        assert len(shaded) > 4  # the ellipse covers several cells at this size, plus the legend sample
+        point = find(lines, POINT)[0]
+        # the point sits inside the region: shaded cells on both sides of it on its row
+        row = [c for r, c in shaded if r == point[0]]
+        assert min(row) < point[1] < max(row)
+        assert REGION not in lines[0]  # nothing outside the plot (the top label row)
+
+
+async def test_region_smaller_than_a_cell_still_shows():
+    tiny = np.array([[150.0, 450.0], [150.01, 450.0], [150.01, 450.01], [150.0, 450.01]])
+    async with Host().run_test(size=(80, 24)) as pilot:
+        chart = pilot.app.query_one(EnvelopeChart)
+        chart.set_data(RECT, None, [], None, None, "CG (mm)", "mass (kg)", region=tiny)
+        await pilot.pause()
+        lines = screen_lines(chart)
+        # one cell in the plot, one in the legend
+        assert len(find(lines, REGION)) == 2
+        chart.set_data(RECT, None, [], None, None, "CG (mm)", "mass (kg)", region=np.array([[np.nan, np.nan]]))
+        await pilot.pause()
+        assert not find(screen_lines(chart), REGION)  # nothing drawable: no region, no legend entry

@@ -34,22 +34,42 @@ def string(s: str) -> str:
 
 
 def number(x: float, factor: float = 1.0) -> str:
-    """Shortest text for x_si/factor that reads back (times factor) to exactly x_si."""
+    """Text t for x in a unit of size `factor` (SI per unit), read back as float(t) * factor.
+
+    Chosen so that saving is a fixed point (save, load, save gives the same
+    bytes): among the floats next to x / factor and the short decimal
+    roundings of it, take one that reads back to exactly x, else one within
+    one unit in the last place of x, else the nearest; the shortest text wins
+    within each rank. A value that came from the file in this unit is always
+    written back as it was read.
+    """
     if isinstance(x, int) and not isinstance(x, bool) and factor == 1.0:
         return str(x)
     x = float(x)
     if not math.isfinite(x):
         return "nan" if math.isnan(x) else ("inf" if x > 0 else "-inf")
+    if factor == 1.0:
+        return _float_text(x)
     v = x / factor
-    # Up to 12 significant digits are accepted when they read back within two
-    # units in the last place (a value read as "5.9 lb/gal" goes through pint's
-    # exact factor, not this float one); otherwise as many digits as needed.
-    tol = 2 * math.ulp(x)
-    for digits in (12, 15, 16, 17):
-        text = f"{v:.{digits}g}"
-        back = float(text) * factor
-        if back == x or (digits == 12 and abs(back - x) <= tol) or digits == 17:
-            break
+    candidates = {float(f"{v:.{d}g}") for d in range(6, 18)}
+    up = down = v
+    candidates.add(v)
+    for _ in range(3):
+        up, down = math.nextafter(up, math.inf), math.nextafter(down, -math.inf)
+        candidates.update((up, down))
+    one_ulp = math.ulp(x)
+
+    def rank(c: float) -> tuple:
+        err = abs(c * factor - x)
+        grade = 0 if err == 0 else (1 if err <= one_ulp else 2)
+        text = _float_text(c)
+        return (grade, err if grade == 2 else 0.0, len(text), text)
+
+    return min((rank(c) for c in candidates if math.isfinite(c)), default=(0, 0, 0, _float_text(v)))[3]
+
+
+def _float_text(c: float) -> str:
+    text = repr(c)
     if "e" not in text and "." not in text and "n" not in text:
         text += ".0"
     return text

@@ -19,6 +19,7 @@ from textual.screen import Screen
 
 from ..core.errors import SteelyardError
 from .chart_extras import ChartExtras, chart_extras
+from .compare_flows import CompareFlows
 from .edit_flows import EditFlows
 from .file_flows import FileFlows, groups_of
 from .journal_flows import JournalFlows
@@ -39,6 +40,8 @@ PALETTE = (
     ("Save as", "save the ledger under another name", "save_as"),
     ("Open ledger", "open another ledger file", "open"),
     ("Loadout", "choose the loadout, edit amounts", "loadout"),
+    ("Compare…", "with another loadout, the saved ledger, a file or a snapshot", "compare"),
+    ("Weighing form", "scale readings and tares → empty mass and CG", "weighing"),
     ("Switch units", "file units, SI, US customary", "units"),
     ("Show ledger", "the item table", "view:ledger"),
     ("Show totals", "mass, CG, inertia, principal axes", "view:totals"),
@@ -51,7 +54,7 @@ PALETTE = (
 )
 
 
-class SteelyardApp(FileFlows, EditFlows, JournalFlows, App[int]):
+class SteelyardApp(FileFlows, EditFlows, JournalFlows, CompareFlows, App[int]):
     CSS_PATH = "app.tcss"
     TITLE = "steelyard"
     SUB_TITLE = "steelyard"

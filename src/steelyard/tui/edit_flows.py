@@ -20,6 +20,7 @@ from .preview import preview_text
 from .prompt import TextPrompt
 from .summary_strip import summary_text
 from .text import clean
+from .weighing_form import WeighingDone, WeighingForm
 
 
 class EditFlows:
@@ -168,6 +169,17 @@ class EditFlows:
         if self._may_edit(write=False):
             self.session.cycle_units()
             self.refresh_views()
+
+    # ------------------------------------------------------------ weighing
+    def action_weighing(self) -> None:
+        if self._may_edit():
+            self.push_screen(WeighingForm(self.session.ledger), self._weighing_done)
+
+    def _weighing_done(self, done: WeighingDone | None) -> None:
+        if done is None or self.session is None:
+            return
+        self._apply(done.ledger, action="weighing", item=done.item, summary=done.summary)
+        self.notify(f"Empty vehicle replaced by the weighing: {done.summary}", markup=False, timeout=6)
 
     def action_help(self) -> None:
         self.push_screen(HelpScreen())

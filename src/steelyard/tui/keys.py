@@ -24,6 +24,10 @@ MAIN_KEYS: tuple[tuple[str, str, str, bool, str], ...] = (
     ("ctrl+z,u", "undo", "Undo", True, "undo the last change (any number of steps)"),
     ("ctrl+y,U", "redo", "Redo", False, "redo the change undone last"),
     ("L", "loadout", "Loadout", True, "choose the loadout and edit its amounts"),
+    ("c", "compare", "Compare", False,
+     "compare with another loadout, the ledger as saved, or another file or snapshot"),
+    ("w", "weighing", "Weighing", False,
+     "weighing form: scale readings and tares give the empty mass and CG, replacing the empty-vehicle item"),
     ("t", "units", "Units", True, "switch display units: file units, SI, US customary"),
     ("slash,f", "filter", "Filter", False, "filter items by text in id, name or group (Esc clears)"),
     ("s", "sort", "Sort", False, "sort by the next column (file order, id, name, ..., moment)"),
@@ -59,6 +63,27 @@ LOADOUT_KEYS = (
     ("tab", "go to the amounts of the chosen loadout"),
     ("enter on an amount", "type a new amount: 0.75 (fraction), 75%, 82 kg, 16 gal; empty = none"),
     ("escape", "back to the ledger"),
+)
+COMPARE_KEYS = (
+    ("c (main screen)", "choose what to compare with: a loadout, the ledger as saved, a file or snapshot"),
+    ("1 / 2 / 3", "totals side by side · items added, removed, changed (ranked) · envelopes"),
+    ("up, down", "in the items: the highlighted item's fields show old → new below the list"),
+    ("enter on an item", "show its row in the ledger"),
+    ("s", "swap the sides (B against A becomes A against B)"),
+    ("escape, q", "back to the ledger"),
+)
+WEIGHING_KEYS = (
+    ("w (main screen)", "open the weighing form (prefilled from the file's [weighing] table)"),
+    ("tab, shift+tab, enter", "next / previous field (Enter moves on too)"),
+    ("enter on + point / + on board / + missing", "add a row; a row left empty is ignored"),
+    ("enter on Apply", "replace the empty-vehicle item (action 'weighing' in the change log; undo works)"),
+    ("escape", "cancel: nothing is changed"),
+)
+RESTORE_KEYS = (
+    ("on opening", "unsaved edits left by a crash or a dropped connection are offered, with what they are"),
+    ("Restore", "rebuild those edits (and their change-log entries) on the ledger"),
+    ("Discard them", "throw them away (asks once more)"),
+    ("escape, Later", "keep them in the journal and open the file read-only"),
 )
 OTHER_KEYS = (
     ("ctrl+p", "command palette: every main action by name"),

