@@ -108,7 +108,7 @@ def test_real_program_in_tmux_edit_one_value_save_and_quit(tmp_path):
         screen = _screen(sock, name)
         assert "Mass " not in screen, f"the program did not quit; the screen was:\n{screen}"
     finally:
-        _tmux(sock, "kill-server")
+        _tmux(sock, "kill-session", "-t", name)  # only this test's session (on its own socket)
     data = tomllib.loads(path.read_text())
     shelf = next(it for it in data["item"] if it["id"] == "shelf")
     assert shelf["mass"] == 5.25

@@ -62,8 +62,10 @@ async def test_add_item_through_the_form_changes_totals_exactly(tmp_path):
         assert f"x {fmt(float(cg[0] / Fraction('0.0254')))} aft" in text
         change = app.session.history.log[-1]
         assert change.action == "add" and change.item == "radio-2"
-        # the recorded effect is the exact Δmass: 2.3 lb (NIST SP 811)
+        # the recorded effect is the exact Δmass: 2.3 lb (NIST SP 811), and ΔCG the exact CG shift
         assert close(change.effect.d_mass, Fraction("2.3") * LB)
+        _m0, cg0 = exact_totals(path)
+        assert all(abs(Fraction(change.effect.d_cg[k]) - (cg[k] - cg0[k])) < Fraction(1, 10 ** 13) for k in range(3))
 
 
 async def test_undo_restores_bit_identical_totals_and_redo_reapplies(tmp_path):

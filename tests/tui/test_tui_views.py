@@ -133,7 +133,9 @@ async def test_help_lists_every_key_and_palette_has_the_main_actions(tmp_path):
         titles = {c.title for c in app.get_system_commands(app.screen)}
         for title, _help, _action in PALETTE:
             assert title in titles
-        assert {"Add item", "Save", "Undo", "Loadout"} <= titles
+        assert {"Add item", "Save", "Undo", "Loadout", "Compare…", "Weighing form", "Next sequence"} <= titles
+        for section in ("Compare screen", "Weighing form", "Unsaved edits found"):
+            assert section in text
         # every palette entry names an action that exists
         for _t, _h, action in PALETTE:
             if action.startswith("view"):
@@ -148,3 +150,25 @@ def test_docs_list_every_key():
     for keys, _action, _label, _show, _text in MAIN_KEYS:
         for key in pretty_keys(keys).lower().split(" / "):
             assert f"`{key}`" in doc, key
+
+
+async def test_palette_opens_the_compare_and_weighing_screens(tmp_path):
+    from steelyard.tui.choice_screen import ChoiceScreen
+    from steelyard.tui.weighing_form import WeighingForm
+
+    app = SteelyardApp(str(copy_fixture(tmp_path)))
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_loaded(app, pilot)
+        for typed, screen in (("Weighing form", WeighingForm), ("Compare", ChoiceScreen)):
+            await pilot.press("ctrl+p")
+            await pilot.pause(0.3)
+            await pilot.press(*["space" if ch == " " else ch for ch in typed])
+            await pilot.pause(0.5)
+            await pilot.press("enter")
+            for _ in range(40):
+                await pilot.pause(0.05)
+                if isinstance(app.screen, screen):
+                    break
+            assert isinstance(app.screen, screen), typed
+            await pilot.press("escape")
+            await pilot.pause(0.2)

@@ -18,7 +18,7 @@ from ..core.diff import ItemEffect, LedgerDiff, change_rows
 from ..core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from ..core.errors import SteelyardError
 from ..core.limits import mac_reference
-from .shown import signed
+from .shown import signed, status_word
 from .text import clean
 
 #: rows in the item list (the CLI's `steelyard diff --max-items 0` gives every one)
@@ -103,7 +103,7 @@ def totals_text(diff: LedgerDiff, du: DisplayUnits) -> Text:
 
 
 def _status(r) -> str:
-    return "—" if r is None else ("INSIDE" if r.inside else "OUTSIDE")
+    return "— (not on this side)" if r is None else status_word(r)
 
 
 def envelopes_text(diff: LedgerDiff, du: DisplayUnits) -> Text:

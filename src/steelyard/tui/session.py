@@ -14,44 +14,22 @@ from __future__ import annotations
 
 import hashlib
 import os
-from dataclasses import dataclass
-
-from ..core.changes import Change, History, ledger_with_log, log_from_ledger, utc_stamp
+from ..core.changes import Change, Effect, History, ledger_with_log, log_from_ledger, utc_stamp
 from ..core.display import DisplayUnits
 from ..core.errors import SteelyardError
-from ..core.loadout import State, resolve
 from ..core.model import Ledger
-from ..core.rollup import MassProperties, rollup_state
-from ..core.status import EnvelopeResult, envelope_results
+from ..core.rollup import MassProperties
 from ..io import journal as J
 from ..io.ledger_file import LoadedLedger, save_ledger
 from ..io.lock import Lock, LockInfo, Locked, LockUnavailable, acquire, is_stale, take_over, who_am_i
+from .totals import Totals, compute_totals, effect_of
+
+__all__ = ["EMPTY_SHA256", "UNIT_SYSTEMS", "Session", "Totals", "compute_totals", "effect_of"]
 
 #: display unit systems the units key cycles through (None: the file's own)
 UNIT_SYSTEMS: tuple[str | None, ...] = (None, "si", "us")
 #: the base hash of a journal for a file that does not exist yet (sha256 of no bytes)
 EMPTY_SHA256 = hashlib.sha256(b"").hexdigest()
-
-
-@dataclass(frozen=True)
-class Totals:
-    """Everything the panels show for one ledger under one loadout."""
-
-    loadout: str | None
-    state: State | None
-    mp: MassProperties | None
-    envelopes: tuple[EnvelopeResult, ...]
-    error: str | None = None  # why the loadout cannot be applied
-
-
-def compute_totals(ledger: Ledger, loadout: str | None) -> Totals:
-    """Roll-up and envelope status from core; a loadout problem becomes `error`."""
-    try:
-        state = resolve(ledger, loadout)
-    except SteelyardError as exc:
-        return Totals(loadout, None, None, (), str(exc))
-    mp = rollup_state(state)
-    return Totals(loadout, state, mp, tuple(envelope_results(ledger, mp)))
 
 
 class Session:
@@ -70,7 +48,7 @@ class Session:
         self.lock: Lock | None = None
         self.holder: LockInfo | None = None  # who holds the file when we are read-only
         self.no_lock: str | None = None  # why no lock could be made (a read-only folder)
-        self._cache: tuple[Ledger, str | None, Totals] | None = None
+        self._memo: list[tuple[Ledger, str | None, Totals]] = []  # the last few roll-ups, newest last
         # edits shown but not yet entered in the change log (see `apply(defer=True)`)
         self._pending: list[tuple] = []
         self._head: Ledger | None = None
@@ -129,15 +107,25 @@ class Session:
         return f"{'* ' if self.dirty else ''}{self.name}" + (f" ({'; '.join(marks)})" if marks else "")
 
     def totals(self) -> Totals:
-        c = self._cache
-        if c is not None and c[0] is self.ledger and c[1] == self.loadout:
-            return c[2]
-        t = compute_totals(self.ledger, self.loadout)
-        self._cache = (self.ledger, self.loadout, t)
-        return t
+        return self.totals_for(self.ledger)
 
-    def totals_for(self, ledger: Ledger) -> Totals:
-        return compute_totals(ledger, self.loadout)
+    def totals_for(self, ledger: Ledger, loadout: str | None | object = ...) -> Totals:
+        """Roll-up of `ledger` under the active loadout (or `loadout`), remembered for a few ledgers.
+
+        The form's preview rolls up the edited ledger; applying the edit then
+        finds it here, and the change log's effect reuses both sides.
+        """
+        lo = self.loadout if loadout is ... else loadout
+        for led, name, t in reversed(self._memo):
+            if led is ledger and name == lo:
+                return t
+        t = compute_totals(ledger, lo)
+        memo = self._memo + [(ledger, lo, t)]
+        while len(memo) > 4:  # drop the oldest, but keep what the screen shows now
+            k = next((k for k, (led, _n, _t) in enumerate(memo) if led is not self.ledger), 0)
+            del memo[k]
+        self._memo = memo
+        return t
 
     def chart_extras(self):
         """Sequences and uncertainty for the active loadout (maybe of an older ledger), or None."""
@@ -182,7 +170,7 @@ class Session:
         self.check_writable()
         self._journal(self.ledger, new_ledger, self._change(action, item, summary))
         if defer:
-            self._pending.append((new_ledger, action, item, summary, self.loadout))
+            self._pending.append((new_ledger, action, item, summary, self.loadout, self.ledger))
             self._head = new_ledger
             return None
         self.flush()
@@ -193,9 +181,9 @@ class Session:
         """Enter the deferred edits in the change log, oldest first."""
         out = []
         while self._pending:
-            new, action, item, summary, loadout = self._pending[0]
+            new, action, item, summary, loadout, old = self._pending[0]
             out.append(self.history.apply(new, action=action, item=item, summary=summary, loadout=loadout,
-                                          author=self.author))
+                                          author=self.author, effect=self._known_effect(old, new, loadout)))
             self._pending.pop(0)
         self._head = None
         return out
@@ -217,6 +205,13 @@ class Session:
         if change is not None:
             self._journal(before, self.history.ledger, self._change("redo", change.item, f"redo: {change.summary}"))
         return change
+
+    def _known_effect(self, old: Ledger, new: Ledger, loadout: str | None) -> Effect | None:
+        """The effect from remembered roll-ups of both sides; None (History computes it) otherwise."""
+        known = {id(led): t for led, name, t in self._memo if name == loadout and (led is old or led is new)}
+        if id(old) in known and id(new) in known:
+            return effect_of(known[id(old)], known[id(new)])
+        return None
 
     # -------------------------------------------------------------- journal
     def _change(self, action: str, item: str | None, summary: str) -> dict:
