@@ -109,6 +109,9 @@ async def test_typed_readings_and_a_bad_tare_change_nothing_until_fixed(tmp_path
         await type_into(app, pilot, "w-point-2-reading", "102.05828325 kg")
         text = " ".join(screen_text(app).split())
         assert f"Empty {fmt(float(EMPTY))} lb" in text
+        # a point's name is user text: markup stays literal, an escape sequence shows as a visible symbol
+        await type_into(app, pilot, "w-point-2-name", "[b]nose[/b]")
+        assert "[b]nose[/b] 222.5000" in " ".join(screen_text(app).split())
         await pilot.press("escape")
         await pilot.pause()
         assert app.session.ledger is before and not app.session.dirty

@@ -200,11 +200,18 @@ class Ledger:
         if "arrays" in self.__dict__:
             new.__dict__["arrays"] = self.arrays.with_row(i, item)
         new.__dict__["index"] = self.index
+        for carry in ROW_CACHES:  # per-row caches follow the edit instead of a full rescan
+            carry(self, new, i)
         return new
 
     def without_item(self, item_id: str) -> "Ledger":
         i = self.index[item_id]
         return self.evolve(items=self.items[:i] + self.items[i + 1:])
+
+
+#: hooks(old, new, row) that carry a derived per-row cache from a ledger to its
+#: one-row edit; modules that keep such caches (core.tank) register here
+ROW_CACHES: list = []
 
 
 def with_arrays(ledger: Ledger, arrays: ItemArrays) -> Ledger:

@@ -22,7 +22,7 @@ import numpy as np
 
 from .errors import SteelyardError, UnitError, item_subject
 from .limits import said
-from .model import Ledger
+from .model import ROW_CACHES, Ledger
 from .units import to_si
 
 KEY = "cg_table"
@@ -108,6 +108,22 @@ def tank_tables(ledger: Ledger) -> dict[int, TankTable]:
         cached = {i: read_table(ledger, i) for i, it in enumerate(ledger.items) if it.extra and KEY in it.extra}
         ledger.__dict__["_tank_tables"] = cached  # a ledger is immutable; an edit makes a new one
     return cached
+
+
+def _carry_tables(old: Ledger, new: Ledger, row: int) -> None:
+    """After a one-row edit: reuse the old ledger's tables, re-reading only that row."""
+    cached = old.__dict__.get("_tank_tables")
+    if cached is None:
+        return
+    tables = dict(cached)
+    tables.pop(row, None)
+    item = new.items[row]
+    if item.extra and KEY in item.extra:
+        tables[row] = read_table(new, row)
+    new.__dict__["_tank_tables"] = tables
+
+
+ROW_CACHES.append(_carry_tables)
 
 
 def cg_for_fill(ledger: Ledger, fill: np.ndarray) -> np.ndarray:
