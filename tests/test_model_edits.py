@@ -29,8 +29,12 @@ def test_edit_of_one_row_matches_a_rebuild():
     edited_rows = tank_rows[:1] + [0]
     for row in edited_rows:
         it = led.items[row]
-        moved = it.cg if row in tank_rows else (it.cg[0] + 0.1, it.cg[1], it.cg[2])  # a table fixes its full CG
-        new = led.with_item(it.evolve(mass=it.mass * 1.5, cg=moved))
+        if row in tank_rows:  # a table fixes its full CG; move its emptier rows instead
+            table = [list(r) for r in it.extra["cg_table"]]
+            table[0][1] = table[0][1] + 5 if not isinstance(table[0][1], str) else table[0][1]
+            new = led.with_item(it.evolve(mass=it.mass * 1.5, extra={**it.extra, "cg_table": table}))
+        else:
+            new = led.with_item(it.evolve(mass=it.mass * 1.5, cg=(it.cg[0] + 0.1, it.cg[1], it.cg[2])))
         ref = fresh(new)
         for name in names:
             a, b = rollup_state(resolve(new, name)), rollup_state(resolve(ref, name))
