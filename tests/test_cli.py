@@ -144,13 +144,19 @@ def test_rollup_json_contract_si(fixture):
         out = run(*args)
         assert out.returncode == 0, out.stderr
         rec = json.loads(out.stdout)
-        assert set(rec) == {"loadout", "mass_kg", "cg_m", "inertia_cg_kg_m2", "principal_kg_m2",
-                            "principal_axes", "envelopes"}
+        # DESIGN.md contract v1: these keys with these meanings; added keys are allowed
+        assert {"loadout", "mass_kg", "cg_m", "inertia_cg_kg_m2", "principal_kg_m2",
+                "principal_axes", "envelopes"} <= set(rec)
         assert rec["loadout"] == name
         assert len(rec["inertia_cg_kg_m2"]) == 3 and len(rec["principal_axes"]) == 3
         assert rec["principal_kg_m2"] == sorted(rec["principal_kg_m2"])
         for env in rec["envelopes"]:
-            assert set(env) == {"name", "axis", "inside", "limits_m", "margin_m"}
+            assert {"name", "axis", "inside", "limits_m", "margin_m"} <= set(env)
+            if env["limits_m"] is not None:  # margin: distance to the nearer of lo, hi (contract)
+                lo, hi = env["limits_m"]
+                c = rec["cg_m"]["xyz".index(env["axis"])]
+                assert env["margin_m"] == pytest.approx(min(c - lo, hi - c), abs=1e-12)
+                assert env["inside"] == (env["margin_m"] >= 0)
         exact = exact_totals(path, name)
         if exact is None:
             continue

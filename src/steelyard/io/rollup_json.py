@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 
+from ..core.limits import mac_reference
 from ..core.loadout import resolve
 from ..core.model import Ledger
 from ..core.rollup import MassProperties, rollup_state
@@ -31,7 +32,8 @@ def rollup_record(ledger: Ledger, loadout: str | None = None) -> dict:
 def record_from(ledger: Ledger, mp: MassProperties, loadout: str | None) -> dict:
     zero = mp.mass <= 0
     moments, axes = (None, None) if zero else mp.principal
-    return {
+    mac = mac_reference(ledger)
+    record = {
         "loadout": loadout,
         "mass_kg": _num(mp.mass),
         "cg_m": _vec(mp.cg),
@@ -41,7 +43,12 @@ def record_from(ledger: Ledger, mp: MassProperties, loadout: str | None) -> dict
         "envelopes": [
             {"name": r.name, "axis": r.axis, "inside": r.inside,
              "limits_m": None if r.limits is None else [r.lo, r.hi],
-             "margin_m": r.margin}
+             "margin_m": r.margin,
+             # added keys (the contract allows additions): the room on each side, and in mass
+             "margin_lo_m": r.margin_lo, "margin_hi_m": r.margin_hi, "mass_margin_kg": r.mass_margin}
             for r in envelope_results(ledger, mp)
         ],
     }
+    if mac is not None and not zero:
+        record["cg_percent_mac"] = _num(mac.percent(float(mp.cg[0])))
+    return record
