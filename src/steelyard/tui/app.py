@@ -109,11 +109,10 @@ class SteelyardApp(FileFlows, EditFlows, JournalFlows, CompareFlows, App[int]):
             self._focus(focus_item)
         self.update_title()
         self.after_refresh_loadout()
-        if groups is None:
-            self._subtotals_worker(s.ledger, s.loadout, s.totals().state)
 
     def _refresh_table(self, ledger, focus_item: str | None) -> None:
-        """After an edit's totals are on screen: enter it in the change log, redraw the table."""
+        """After an edit's totals are on screen: enter it in the change log, redraw the table, and
+        start fresh group subtotals (a worker thread holding the GIL would delay the totals' paint)."""
         s = self.session
         if s is None:
             return
@@ -124,6 +123,7 @@ class SteelyardApp(FileFlows, EditFlows, JournalFlows, CompareFlows, App[int]):
         if s.ledger is ledger:
             self.main.show_table(s)
             self._focus(focus_item)
+            self._subtotals_worker(s.ledger, s.loadout, s.totals().state)
 
     def _focus(self, item_id: str | None) -> None:
         if item_id is not None and item_id in self.session.ledger.index:
