@@ -115,3 +115,7 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
                        fmt(None if r.mass_margin is None else du.m(r.mass_margin), dm))
         console.print(et)
         console.print(Text(CAUTION, style="italic"))
+
+    from .render_control import print_control  # basic vs predicted, allocations, uncertainty
+
+    print_control(console, ledger, state, du)

@@ -9,29 +9,14 @@ raw segments, never as markup.
 
 from __future__ import annotations
 
-import re
 
 from rich.text import Text
 
-# C0 controls, DEL, C1 controls, and the bidirectional overrides/isolates that
-# can make text display in a different order than it is stored.
-_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
-
-
-def _visible(match: re.Match) -> str:
-    ch = match.group(0)
-    code = ord(ch)
-    if code < 0x20:
-        return chr(0x2400 + code)  # the Unicode "control pictures" block: ␛ for ESC
-    if code == 0x7F:
-        return "\u2421"  # ␡
-    return "\ufffd"
-
+from ..core.display import visible
 
 def clean(text: object) -> str:
     """`text` as a string with every control character replaced by a visible symbol."""
-    s = text if isinstance(text, str) else str(text)
-    return _CONTROL.sub(_visible, s) if _CONTROL.search(s) else s
+    return visible(text)
 
 
 def literal(text: object, style: str = "") -> Text:
