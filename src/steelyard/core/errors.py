@@ -9,6 +9,7 @@ so the CLI can print it as is and exit 2, and the TUI can show it inline.
 from __future__ import annotations
 
 import re
+from reprlib import Repr
 
 _CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f]")
 
@@ -69,3 +70,9 @@ def _short(text: str | None, limit: int = 120) -> str | None:
 
 def item_subject(item_id: object) -> str:
     return f"item {item_id!r}" if isinstance(item_id, str) else f"item #{item_id}"
+
+
+_REPR = Repr()
+_REPR.maxstring, _REPR.maxlong, _REPR.maxother = 80, 40, 80
+#: a value quoted in an error message, shortened when huge (a 400-digit number, a 4 MB name)
+said = _REPR.repr

@@ -19,18 +19,16 @@ user's description.
 
 from __future__ import annotations
 
-from reprlib import Repr
-
 from collections.abc import Iterable
 from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import SteelyardError, UnitError
+from .errors import SteelyardError, said
 from .inertia import COMPONENTS
 from .mac import percent_mac, station_from_percent_mac
 from .model import Envelope, Ledger
-from .units import to_si
+from .units import field_to_si, to_si
 
 #: condition words ``conditions`` may name; "zero-fuel" states are derived from loadouts
 CONDITION_WORDS = ("ramp", "takeoff", "landing", "zero-fuel")
@@ -41,10 +39,6 @@ _LIMIT_KEYS = {"name", "conditions", "loadouts", "sequences", "max_mass", "min_m
                "max_cg_offset", "axis", "through"}
 _AXES = ("x", "y", "z")
 
-_REPR = Repr()
-_REPR.maxstring, _REPR.maxlong, _REPR.maxother = 80, 40, 80
-#: a value quoted in an error message, shortened when huge (a 400-digit number, a 4 MB name)
-said = _REPR.repr
 
 
 def _cached(ledger: Ledger, key: str, build):
@@ -57,15 +51,7 @@ def _cached(ledger: Ledger, key: str, build):
 
 
 def _si(value, dimension: str, unit: str, subject: str, field: str) -> float:
-    if type(value) is bool:
-        raise SteelyardError(f"must be a {dimension}, got {said(value)}", subject=subject, field=field)
-    try:
-        return to_si(value, dimension, unit)
-    except UnitError as exc:
-        raise exc.located(subject=subject, field=field)
-    except (OverflowError, ValueError, TypeError):  # e.g. an integer too large for a float
-        raise SteelyardError(f"must be a finite {dimension}, got {said(value)}", subject=subject,
-                             field=field) from None
+    return field_to_si(value, dimension, unit, subject=subject, field=field)
 
 
 def _strict_table(raw, subject: str, keys: set[str]) -> dict:

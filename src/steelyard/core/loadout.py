@@ -19,7 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import SteelyardError
-from .limits import said
+from .errors import said
 from .model import Amount, Item, Ledger, Loadout
 from .tank import cg_for_fill
 

@@ -25,7 +25,7 @@ import numpy as np
 
 from .display import fmt
 from .errors import SteelyardError
-from .limits import said
+from .errors import said
 from .loadout import CONDITIONS, is_removable
 from .model import Ledger
 from .units import UnitError, from_si, parse_quantity

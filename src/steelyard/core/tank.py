@@ -20,10 +20,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import SteelyardError, UnitError, item_subject
-from .limits import said
+from .errors import SteelyardError, item_subject, said
 from .model import ROW_CACHES, Ledger
-from .units import to_si
+from .units import field_to_si
 
 KEY = "cg_table"
 #: how far (m) the table's full row may sit from the item's cg: rounding, not a second opinion
@@ -54,15 +53,7 @@ class TankTable:
 
 
 def _number(value, dimension: str, unit: str, where: str, field: str) -> float:
-    if type(value) is bool:
-        raise SteelyardError(f"must be a number, got {said(value)}", subject=where, field=field)
-    try:
-        return to_si(value, dimension, unit)
-    except UnitError as exc:
-        raise exc.located(subject=where, field=field)
-    except (OverflowError, ValueError, TypeError):  # e.g. an integer too large for a float
-        raise SteelyardError(f"must be a finite {dimension}, got {said(value)}", subject=where,
-                             field=field) from None
+    return field_to_si(value, dimension, unit, subject=where, field=field)
 
 
 def read_table(ledger: Ledger, row: int) -> TankTable:

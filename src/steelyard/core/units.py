@@ -19,7 +19,7 @@ from functools import lru_cache
 
 import pint
 
-from .errors import UnitError
+from .errors import SteelyardError, UnitError, said
 
 _REGISTRY: pint.UnitRegistry | None = None
 
@@ -191,3 +191,16 @@ def system_unit(system: str, dimension: str) -> str:
         return SYSTEMS[system][dimension]
     except KeyError:
         raise UnitError(f"unknown unit system {system!r} (use si or us)") from None
+
+
+def field_to_si(value: object, dimension: str, file_unit: str, *, subject: str, field: str) -> float:
+    """One value of a named field to SI, with any problem located at that subject and field."""
+    if type(value) is bool:
+        raise SteelyardError(f"must be a {dimension}, got {said(value)}", subject=subject, field=field)
+    try:
+        return to_si(value, dimension, file_unit)
+    except UnitError as exc:
+        raise exc.located(subject=subject, field=field)
+    except (OverflowError, ValueError, TypeError):  # e.g. an integer too large for a float
+        raise SteelyardError(f"must be a finite {dimension}, got {said(value)}", subject=subject,
+                             field=field) from None
