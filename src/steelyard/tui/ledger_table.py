@@ -170,9 +170,10 @@ class LedgerTable(ScrollView, can_focus=True):
         du = self.du
         mu = pretty_unit(du.mass) if du else ""
         lu = pretty_unit(du.length) if du else ""
+        mom = pretty_unit(du.moment) if du else ""  # the x moment: mass × station
         show_group = not self.spec.grouped or width >= 110
         fixed = [Column("qty", "qty", 4), Column("mass", f"mass {mu}", 9), Column("x", f"x {lu}", 8),
-                 Column("y", f"y {lu}", 7), Column("z", f"z {lu}", 7), Column("moment", "moment", 10)]
+                 Column("y", f"y {lu}", 7), Column("z", f"z {lu}", 7), Column("moment", f"Mx {mom}", 10)]
         group_w = 14 if show_group else 0
         seps = len(fixed) + (3 if show_group else 2) - 1
         name_w = max(10, width - 12 - group_w - sum(c.width for c in fixed) - seps)
