@@ -26,11 +26,11 @@ import time
 from pathlib import Path
 
 
-from steelyard.io.atomic import write_atomic
-from steelyard.io.ledger_file import open_ledger, save_ledger
-from steelyard.io.ledger_read import ledger_from_data
-from steelyard.io.ledger_write import ledger_to_toml
-from steelyard.io.toml_read import parse_toml
+from steelyard.io.durability.atomic import write_atomic
+from steelyard.io.ledger.file import open_ledger, save_ledger
+from steelyard.io.ledger.read import ledger_from_data
+from steelyard.io.ledger.write import ledger_to_toml
+from steelyard.io.ledger.toml_read import parse_toml
 
 ITEMS = 3000
 ROUNDS = 240

@@ -17,15 +17,15 @@ import pytest
 import tomli_w
 from shapely.geometry import LineString, Polygon
 
-from steelyard.core.changes import (Change, Effect, History, effect_between, ledger_with_log,
+from steelyard.core.history.changes import (Change, Effect, History, effect_between, ledger_with_log,
                                     log_from_ledger)
 from steelyard.core.errors import SteelyardError
-from steelyard.core.loadout import resolve
-from steelyard.core.model import Amount, Envelope, Item, Ledger, Loadout
-from steelyard.core.rollup import rollup_state
-from steelyard.io.ledger_file import load_ledger
-from steelyard.io.ledger_read import ledger_from_data
-from steelyard.io.ledger_write import ledger_to_toml
+from steelyard.core.loading.loadout import resolve
+from steelyard.core.document.model import Amount, Envelope, Item, Ledger, Loadout
+from steelyard.core.physics.rollup import rollup_state
+from steelyard.io.ledger.file import load_ledger
+from steelyard.io.ledger.read import ledger_from_data
+from steelyard.io.ledger.write import ledger_to_toml
 
 LB = 0.45359237  # kg, exact (NIST SP 811, the 1959 international pound)
 IN = 0.0254  # m, exact (NIST SP 811)

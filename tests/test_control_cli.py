@@ -18,12 +18,12 @@ import numpy as np
 import pytest
 from rich.console import Console
 
-from steelyard.cli.render_control import print_control
+from steelyard.cli.render.control import print_control
 from steelyard.core.caution import CAUTION
-from steelyard.core.growth import DEFAULT_GROWTH
-from steelyard.core.loadout import resolve
-from steelyard.io.ledger_file import load_ledger
-from steelyard.io.report_control import control_record, uncertainty_region
+from steelyard.core.control.growth import DEFAULT_GROWTH
+from steelyard.core.loading.loadout import resolve
+from steelyard.io.ledger.file import load_ledger
+from steelyard.io.report.control import control_record, uncertainty_region
 
 ROOT = Path(__file__).resolve().parents[1]
 LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact

@@ -19,10 +19,10 @@ import numpy as np
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.growth import growth_fractions
-from steelyard.core.uncertainty import parse_tolerances
-from steelyard.io.csv_io import ledger_to_csv, read_csv
-from steelyard.io.ledger_file import load_ledger
+from steelyard.core.control.growth import growth_fractions
+from steelyard.core.control.uncertainty import parse_tolerances
+from steelyard.io.exchange.csv_io import ledger_to_csv, read_csv
+from steelyard.io.ledger.file import load_ledger
 
 ROOT = Path(__file__).resolve().parents[1]
 FIXTURES = ROOT / "fixtures"

@@ -1,4 +1,4 @@
-"""`steelyard diff` and `steelyard.core.diff`: matching, tolerances, totals, envelopes, ranking.
+"""`steelyard diff` and `steelyard.core.history.diff`: matching, tolerances, totals, envelopes, ranking.
 
 Expected values are recomputed in the test, never read from the program:
 - unit factors: NIST SP 811 exact definitions (1 lb = 0.45359237 kg,
@@ -29,8 +29,8 @@ import scipy.linalg
 from shapely.geometry import LineString, Point, Polygon
 
 from steelyard.cli.main import main
-from steelyard.core.diff import ULPS, close, compare
-from steelyard.io.ledger_file import load_ledger
+from steelyard.core.history.diff import ULPS, close, compare
+from steelyard.io.ledger.file import load_ledger
 
 ROOT = Path(__file__).resolve().parents[1]
 TRAINER = ROOT / "fixtures" / "trainer.toml"

@@ -19,7 +19,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from shapely.geometry import LineString, Point, Polygon
 
-from steelyard.core.envelope import (
+from steelyard.core.limits.envelope import (
     REL_TOL,
     EnvelopeGeometry,
     envelope_problem,

@@ -31,13 +31,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.loadout import resolve
-from steelyard.core.rollup import rollup_state
-from steelyard.core.status import envelope_results
-from steelyard.io.ledger_file import open_ledger
-from steelyard.io.ledger_read import ledger_from_data
-from steelyard.io.ledger_write import ledger_to_toml
-from steelyard.io.toml_read import parse_toml
+from steelyard.core.loading.loadout import resolve
+from steelyard.core.physics.rollup import rollup_state
+from steelyard.core.limits.status import envelope_results
+from steelyard.io.ledger.file import open_ledger
+from steelyard.io.ledger.read import ledger_from_data
+from steelyard.io.ledger.write import ledger_to_toml
+from steelyard.io.ledger.toml_read import parse_toml
 
 HERE = Path(__file__).resolve().parent
 

@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.growth import (
+from steelyard.core.control.growth import (
     CATEGORIES, DEFAULT_GROWTH, allocation_margins, basic_and_predicted, growth_fractions,
 )
-from steelyard.core.model import FileUnits, Item, Ledger
+from steelyard.core.document.model import FileUnits, Item, Ledger
 
 
 def _ledger(extra=None):

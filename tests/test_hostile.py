@@ -18,11 +18,11 @@ import pytest
 
 from steelyard.cli.main import main
 from steelyard.core.errors import SteelyardError
-from steelyard.core.groups import subtotals
-from steelyard.core.loadout import resolve
-from steelyard.core.rollup import rollup_state
-from steelyard.io.ledger_file import open_ledger, save_ledger
-from steelyard.io.toml_write import string
+from steelyard.core.physics.groups import subtotals
+from steelyard.core.loading.loadout import resolve
+from steelyard.core.physics.rollup import rollup_state
+from steelyard.io.ledger.file import open_ledger, save_ledger
+from steelyard.io.ledger.toml_write import string
 
 HUGE_NAME = ("Kabelbaum " + "配線束" * 3 + "e\u0301" + "\U0001F6E9\ufe0f" + "\u200d") * 150_000  # ~4 MB of UTF-8
 DEEP_GROUP = "/".join(f"level-{k}" for k in range(500))

@@ -15,7 +15,7 @@ from scipy.spatial.transform import Rotation
 from sympy.physics.mechanics import Point, ReferenceFrame, inertia, inertia_of_point_mass
 
 from steelyard.core.errors import InertiaError
-from steelyard.core.inertia import (check_realisable, parallel_axis, principal, radii_of_gyration,
+from steelyard.core.physics.inertia import (check_realisable, parallel_axis, principal, radii_of_gyration,
                                     realisability_problem, realisability_problems, rotate,
                                     six_from_tensor, tensor_from_six)
 
@@ -46,7 +46,7 @@ def test_parallel_axis_matches_sympy_exactly():
 @given(st.lists(st.floats(-180, 180), min_size=3, max_size=3))
 def test_rotation_matches_scipy(angles):
     # scipy lower-case sequence = extrinsic (fixed body axes), as our rotate list.
-    from steelyard.core.rotation import rotation_matrix
+    from steelyard.core.physics.rotation import rotation_matrix
 
     turns = list(zip("zxy", angles))
     r_ours = rotation_matrix(turns)

@@ -25,10 +25,10 @@ from pathlib import Path
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.model import Amount, Envelope, Frame, Item, Loadout
-from steelyard.io import journal as J
-from steelyard.io.ledger_file import open_ledger, save_ledger
-from steelyard.io.ledger_write import ledger_to_toml
+from steelyard.core.document.model import Amount, Envelope, Frame, Item, Loadout
+import steelyard.io.durability.journal as J
+from steelyard.io.ledger.file import open_ledger, save_ledger
+from steelyard.io.ledger.write import ledger_to_toml
 
 FIXTURES = Path(__file__).resolve().parents[1] / "fixtures"
 
@@ -343,8 +343,8 @@ def test_sigkill_mid_appends_keeps_every_complete_record(ledger_file):
 
 _CHILD = textwrap.dedent("""
     import sys
-    from steelyard.io import journal as J
-    from steelyard.io.ledger_file import open_ledger
+    import steelyard.io.durability.journal as J
+    from steelyard.io.ledger.file import open_ledger
     path, sha = sys.argv[1], sys.argv[2]
     led = open_ledger(path).ledger
     j = J.Journal.open(path, sha)

@@ -27,7 +27,7 @@ def test_core_does_no_file_io():
 
     import steelyard.core as core
 
-    for path in pathlib.Path(core.__path__[0]).glob("*.py"):
+    for path in pathlib.Path(core.__path__[0]).rglob("*.py"):
         text = path.read_text()
         for banned in ("open(", "import pathlib", "from pathlib", "import os\n", "import tomllib", "import json"):
             assert banned not in text, f"{path.name} uses {banned!r}"
@@ -37,7 +37,7 @@ def test_headless_rollup_does_not_import_textual(tmp_path):
     code = ("import sys; from steelyard.cli.main import main; "
             "rc = main(['rollup', sys.argv[1], '--json']); "
             "print('TEXTUAL' if 'textual' in sys.modules else 'CLEAN', file=sys.stderr); sys.exit(rc)")
-    from steelyard.io.demo import demo_path
+    from steelyard.io.ledger.demo import demo_path
 
     out = subprocess.run([sys.executable, "-c", code, str(demo_path())], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr

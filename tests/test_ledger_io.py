@@ -12,10 +12,10 @@ from fractions import Fraction as F
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.io.ledger_file import ChangedOnDisk, CommentsWouldBeLost, has_comments, open_ledger, save_ledger
-from steelyard.io.ledger_read import ledger_from_data
-from steelyard.io.ledger_write import ledger_to_toml
-from steelyard.io.toml_read import parse_toml
+from steelyard.io.ledger.file import ChangedOnDisk, CommentsWouldBeLost, has_comments, open_ledger, save_ledger
+from steelyard.io.ledger.read import ledger_from_data
+from steelyard.io.ledger.write import ledger_to_toml
+from steelyard.io.ledger.toml_read import parse_toml
 
 FIXTURES = __import__("pathlib").Path(__file__).resolve().parents[1] / "fixtures"
 

@@ -20,13 +20,13 @@ import numpy as np
 import pytest
 from shapely.geometry import LineString, Polygon
 
-from steelyard.core.checks import check_ledger
+from steelyard.core.limits.checks import check_ledger
 from steelyard.core.errors import SteelyardError
-from steelyard.core.limits import envelope_specs, limit_specs, mac_reference
-from steelyard.core.status import envelope_results
-from steelyard.core.loadout import resolve
-from steelyard.core.rollup import rollup_state
-from steelyard.io.ledger_read import ledger_from_data
+from steelyard.core.limits.rules import envelope_specs, limit_specs, mac_reference
+from steelyard.core.limits.status import envelope_results
+from steelyard.core.loading.loadout import resolve
+from steelyard.core.physics.rollup import rollup_state
+from steelyard.io.ledger.read import ledger_from_data
 
 ROOT = Path(__file__).resolve().parents[1]
 LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact

@@ -18,9 +18,9 @@ import numpy as np
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.loadout import fill_fractions, loadout_condition, resolve
-from steelyard.core.rollup import rollup_state
-from steelyard.io.ledger_read import ledger_from_data
+from steelyard.core.loading.loadout import fill_fractions, loadout_condition, resolve
+from steelyard.core.physics.rollup import rollup_state
+from steelyard.io.ledger.read import ledger_from_data
 
 ROOT = Path(__file__).resolve().parents[1]
 LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact

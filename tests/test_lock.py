@@ -20,13 +20,13 @@ from pathlib import Path
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.io import lock as lockmod
-from steelyard.io.lock import (Lock, LockInfo, Locked, acquire, is_stale, lock_path, read_lock, take_over,
+import steelyard.io.durability.lock as lockmod
+from steelyard.io.durability.lock import (Lock, LockInfo, Locked, acquire, is_stale, lock_path, read_lock, take_over,
                                who_am_i)
 
 HOLDER = textwrap.dedent("""
     import sys
-    from steelyard.io.lock import acquire
+    from steelyard.io.durability.lock import acquire
     lock = acquire(sys.argv[1])
     print("held", flush=True)
     sys.stdin.readline()
@@ -195,7 +195,7 @@ def test_unreadable_lock_refuses_without_crashing(ledger, monkeypatch):
 def test_racing_processes_get_exactly_one_lock(ledger):
     code = textwrap.dedent("""
         import sys, time
-        from steelyard.io.lock import acquire, Locked
+        from steelyard.io.durability.lock import acquire, Locked
         while time.time() < float(sys.argv[2]):
             pass
         try:

@@ -6,11 +6,11 @@ tank tables are computed afresh (no carried cache).
 
 import numpy as np
 
-from steelyard.core.loadout import resolve
-from steelyard.core.model import Ledger
-from steelyard.core.rollup import rollup_state
-from steelyard.core.tank import cg_for_fill
-from steelyard.io.ledger_file import open_ledger
+from steelyard.core.loading.loadout import resolve
+from steelyard.core.document.model import Ledger
+from steelyard.core.physics.rollup import rollup_state
+from steelyard.core.loading.tank import cg_for_fill
+from steelyard.io.ledger.file import open_ledger
 
 FIXTURE = __import__("pathlib").Path(__file__).resolve().parents[1] / "fixtures" / "trainer-overweight.toml"
 

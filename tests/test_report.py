@@ -17,7 +17,7 @@ import pytest
 from shapely.geometry import Point, Polygon
 
 from steelyard.core.caution import CAUTION
-from steelyard.io.report_md import md_escape
+from steelyard.io.report.md import md_escape
 
 ROOT = Path(__file__).resolve().parents[1]
 NASTY_ITEM = '<b>Fuel & "oil"</b> <script>x()</script>'
@@ -195,7 +195,7 @@ def test_sequence_against_envelopes(ledger_path, tmp_path):
     text = out_path.read_text()
     assert "## Sequences" in text and "cargo drop" in text
     try:
-        import steelyard.core.sequence  # noqa: F401
+        import steelyard.core.loading.sequence  # noqa: F401
     except ImportError:
         assert "not evaluated" in text
         return

@@ -16,11 +16,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from sympy.physics.mechanics import ReferenceFrame, inertia, inertia_of_point_mass
 
-from steelyard.core.groups import subtotals
-from steelyard.core.inertia import tensor_from_six
-from steelyard.core.model import Item, Ledger
-from steelyard.core.loadout import resolve
-from steelyard.core.rollup import rollup, rollup_state
+from steelyard.core.physics.groups import subtotals
+from steelyard.core.physics.inertia import tensor_from_six
+from steelyard.core.document.model import Item, Ledger
+from steelyard.core.loading.loadout import resolve
+from steelyard.core.physics.rollup import rollup, rollup_state
 
 N = ReferenceFrame("N")
 
@@ -155,7 +155,7 @@ def test_rotation_rotates_the_tensor(a, angles):
 def test_quantity_and_loadout_fractions():
     # quantity q: q identical units at one CG (DESIGN.md contract); fraction f of a variable item.
     items = (Item("a", 2.0, (1.0, 0.0, 0.0), quantity=3), Item("t", 10.0, (3.0, 0.0, 0.0), variable=True))
-    from steelyard.core.model import Amount, Loadout
+    from steelyard.core.document.model import Amount, Loadout
 
     ledger = Ledger(items, loadouts=(Loadout("half", {"t": Amount("fraction", 0.5)}),))
     empty = rollup_state(resolve(ledger, None))

@@ -17,10 +17,10 @@ import pytest
 import sympy
 from shapely.geometry import LineString, Point, Polygon
 
-from steelyard.core.checks import check_ledger
+from steelyard.core.limits.checks import check_ledger
 from steelyard.core.errors import SteelyardError
-from steelyard.core.sequence_path import build_path, sequence_path
-from steelyard.io.ledger_read import ledger_from_data
+from steelyard.core.loading.sequence_path import build_path, sequence_path
+from steelyard.io.ledger.read import ledger_from_data
 
 ROOT = Path(__file__).resolve().parents[1]
 LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact

@@ -18,9 +18,9 @@ from hypothesis import strategies as st
 from scipy.spatial.transform import Rotation
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.inertia import realisability_problem
-from steelyard.core.model import Item, Shape
-from steelyard.core.shapes import SHAPE_PARAMS, shape_tensor, validate_shape
+from steelyard.core.physics.inertia import realisability_problem
+from steelyard.core.document.model import Item, Shape
+from steelyard.core.physics.shapes import SHAPE_PARAMS, shape_tensor, validate_shape
 
 M = 3.7  # kg, arbitrary test mass
 

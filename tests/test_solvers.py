@@ -18,8 +18,8 @@ import shapely
 from shapely.geometry import Polygon
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.mac import percent_mac, station_from_percent_mac
-from steelyard.core.solvers import (
+from steelyard.core.limits.mac import percent_mac, station_from_percent_mac
+from steelyard.core.limits.solvers import (
     add_mass,
     ballast_for_limit,
     ballast_to_enter,

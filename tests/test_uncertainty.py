@@ -7,10 +7,10 @@ import pytest
 import sympy as sp
 from scipy.stats import norm
 
-from steelyard.core import uncertainty as unc
+import steelyard.core.control.uncertainty as unc
 from steelyard.core.errors import SteelyardError
-from steelyard.core.model import FileUnits, Item, Ledger
-from steelyard.core.uncertainty import (
+from steelyard.core.document.model import FileUnits, Item, Ledger
+from steelyard.core.control.uncertainty import (
     monte_carlo, parse_tolerances, probability_outside, propagate, tolerance_kinds, worst_case,
 )
 

@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-from steelyard.io.ledger_file import load_ledger
+from steelyard.io.ledger.file import load_ledger
 
 ROOT = Path(__file__).resolve().parents[1]
 FIXTURE = ROOT / "fixtures" / "weighing-example.toml"

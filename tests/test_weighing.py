@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.model import FileUnits, Frame, Item, Ledger
-from steelyard.core.weighing import parse_weighing, reduce_weighing, replaced_item
+from steelyard.core.document.model import FileUnits, Frame, Item, Ledger
+from steelyard.core.control.weighing import parse_weighing, reduce_weighing, replaced_item
 
 LB, IN, GAL = 0.45359237, 0.0254, 3.785411784e-3  # NIST SP 811, exact
 

@@ -38,9 +38,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from make_ledger import ledger_text  # noqa: E402
 
 from steelyard.cli.main import main as cli_main  # noqa: E402
-from steelyard.core.diff import carried, compare_carried  # noqa: E402
-from steelyard.io.diff_json import diff_record  # noqa: E402
-from steelyard.io.ledger_file import open_ledger  # noqa: E402
+from steelyard.core.history.diff import carried, compare_carried  # noqa: E402
+from steelyard.io.exchange.diff_json import diff_record  # noqa: E402
+from steelyard.io.ledger.file import open_ledger  # noqa: E402
 
 _MASS = re.compile(r"^mass = (\S+)$", re.M)
 _CG = re.compile(r"^cg = \[(\S+), ", re.M)

@@ -15,7 +15,7 @@ import time
 
 import numpy as np
 
-from steelyard.core.envelope import EnvelopeGeometry, evaluate
+from steelyard.core.limits.envelope import EnvelopeGeometry, evaluate
 
 # Invented envelopes (cg m, mass kg).
 ENVELOPES = {

@@ -75,7 +75,7 @@ def bench_load(path: Path) -> None:
     runs = {
         "tomllib.load": [py, "-c", "import sys, tomllib; tomllib.load(open(sys.argv[1], 'rb'))", str(path)],
         "rtoml.load": [py, "-c", "import sys, rtoml; rtoml.load(open(sys.argv[1], encoding='utf-8'))", str(path)],
-        "imports only": [py, "-c", "import steelyard.cli.main, steelyard.io.ledger_file, numpy, pint"],
+        "imports only": [py, "-c", "import steelyard.cli.main, steelyard.io.ledger.file, numpy, pint"],
         "steelyard rollup": [py, "-m", "steelyard", "rollup", str(path)],
     }
     results = {}
@@ -103,8 +103,8 @@ def bench_load(path: Path) -> None:
 
 
 def bench_journal(folder: Path) -> None:
-    from steelyard.io import journal as J
-    from steelyard.io.ledger_file import open_ledger
+    import steelyard.io.durability.journal as J
+    from steelyard.io.ledger.file import open_ledger
 
     ledger_path = folder / "journal-bench.toml"
     make_ledger.write_ledger(ledger_path, 100_000, seed=3)

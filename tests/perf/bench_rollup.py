@@ -13,7 +13,7 @@ import time
 
 import numpy as np
 
-from steelyard.core.rollup import rollup
+from steelyard.core.physics.rollup import rollup
 
 
 def best(fn, repeat=5):

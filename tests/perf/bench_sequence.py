@@ -28,11 +28,11 @@ from pathlib import Path
 
 import numpy as np
 
-from steelyard.core.checks import check_ledger
-from steelyard.core.limits import envelope_specs
-from steelyard.core.sequence_path import build_path
-from steelyard.core.status import geometry
-from steelyard.io.ledger_read import ledger_from_data
+from steelyard.core.limits.checks import check_ledger
+from steelyard.core.limits.rules import envelope_specs
+from steelyard.core.loading.sequence_path import build_path
+from steelyard.core.limits.status import geometry
+from steelyard.io.ledger.read import ledger_from_data
 
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(Path(__file__).resolve().parent))
@@ -129,7 +129,7 @@ def run(label: str, text: str, python_too: bool) -> None:
     print(f"  check_ledger (everything)  {t_check * 1e3:8.2f} ms   (every loadout, zero fuel, sequence, limit)")
     print(f"  bare numpy pass            {t_bare * 1e3:8.2f} ms")
     if python_too:
-        from steelyard.core.loadout import fill_fractions
+        from steelyard.core.loading.loadout import fill_fractions
 
         base = fill_fractions(led, path.loadout)
         items = [(float(m * q * (1.0 if i in rows else base[i])), float(x))

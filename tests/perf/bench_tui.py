@@ -73,8 +73,8 @@ async def first_paint(path: Path, edits: int = 0) -> tuple[float, list[float]]:
 
 def core_share(path: Path, repeat: int = 7) -> float:
     """Best time of core's own work for one edit's totals (a fresh Ledger, resolve, roll-up, envelopes)."""
-    from steelyard.io.ledger_file import open_ledger
-    from steelyard.tui.session import compute_totals
+    from steelyard.io.ledger.file import open_ledger
+    from steelyard.tui.state.session import compute_totals
 
     ledger = open_ledger(path).ledger
     best = float("inf")

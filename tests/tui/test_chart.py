@@ -12,7 +12,7 @@ from shapely.geometry import Point, Polygon
 from textual.app import App, ComposeResult
 from textual.geometry import Region
 
-from steelyard.tui.chart import NO_DATA, OTHER, POINT, REGION, TOO_WIDE, WORST, EnvelopeChart
+from steelyard.tui.widgets.chart import NO_DATA, OTHER, POINT, REGION, TOO_WIDE, WORST, EnvelopeChart
 
 # an invented envelope, [cg mm, mass kg]
 ENVELOPE = np.array([[2700.0, 300.0], [2700.0, 520.0], [2950.0, 650.0], [3200.0, 650.0], [3200.0, 300.0]])

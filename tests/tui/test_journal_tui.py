@@ -27,11 +27,11 @@ import uuid
 
 import pytest
 
-from steelyard.io import journal as J
-from steelyard.io.ledger_file import open_ledger
+import steelyard.io.durability.journal as J
+from steelyard.io.ledger.file import open_ledger
 from steelyard.tui.app import SteelyardApp
-from steelyard.tui.confirm import ConfirmScreen
-from steelyard.tui.restore_screen import RestoreScreen
+from steelyard.tui.screens.confirm import ConfirmScreen
+from steelyard.tui.screens.restore_screen import RestoreScreen
 from tui_helpers import LB, close, copy_fixture, exact_totals, screen_text, settle, wait_loaded
 
 SIZE = (80, 24)

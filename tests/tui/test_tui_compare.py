@@ -16,9 +16,9 @@ from fractions import Fraction
 from steelyard.core.caution import CAUTION
 from steelyard.core.display import fmt
 from steelyard.tui.app import SteelyardApp
-from steelyard.tui.choice_screen import ChoiceScreen
-from steelyard.tui.compare_screen import CompareScreen
-from steelyard.tui.prompt import TextPrompt
+from steelyard.tui.screens.choice_screen import ChoiceScreen
+from steelyard.tui.screens.compare_screen import CompareScreen
+from steelyard.tui.screens.prompt import TextPrompt
 from tui_helpers import LB, screen_text, settle, type_into, wait_loaded
 
 SIZE = (80, 24)

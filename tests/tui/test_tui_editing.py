@@ -11,9 +11,9 @@ from fractions import Fraction
 import numpy as np
 
 from steelyard.core.display import fmt
-from steelyard.io.demo import demo_path
+from steelyard.io.ledger.demo import demo_path
 from steelyard.tui.app import SteelyardApp
-from steelyard.tui.item_form import ItemForm
+from steelyard.tui.screens.item_form import ItemForm
 from tui_helpers import (DEMO, LB, close, copy_fixture, cursor_to, exact_totals, screen_text, settle, type_into,
                          wait_loaded)
 
@@ -140,8 +140,8 @@ async def test_save_reopen_equal_and_change_log_kept(tmp_path):
         assert not app.session.dirty
         saved = app.session.ledger
         author = app.session.author
-    from steelyard.core.changes import log_from_ledger
-    from steelyard.io.ledger_file import open_ledger
+    from steelyard.core.history.changes import log_from_ledger
+    from steelyard.io.ledger.file import open_ledger
 
     reopened = open_ledger(path).ledger
     assert reopened.items == saved.items

@@ -18,7 +18,7 @@ from shapely.geometry import LineString, Polygon
 
 from steelyard.core.display import fmt
 from steelyard.tui.app import SteelyardApp
-from steelyard.tui.chart import REGION, WORST, EnvelopeChart
+from steelyard.tui.widgets.chart import REGION, WORST, EnvelopeChart
 from tui_helpers import ROOT, copy_fixture, exact_totals, screen_text, settle, wait_loaded
 
 SIZE = (80, 24)

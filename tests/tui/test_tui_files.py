@@ -7,9 +7,9 @@ import subprocess
 import sys
 from pathlib import Path
 
-from steelyard.io.lock import acquire, lock_path, this_host
+from steelyard.io.durability.lock import acquire, lock_path, this_host
 from steelyard.tui.app import SteelyardApp
-from steelyard.tui.item_form import ItemForm
+from steelyard.tui.screens.item_form import ItemForm
 from tui_helpers import copy_fixture, cursor_to, screen_text, settle, wait_loaded
 
 SIZE = (80, 24)
@@ -155,7 +155,7 @@ async def test_a_long_load_runs_in_a_thread_and_reports_progress(tmp_path):
     sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "perf"))
     from make_ledger import write_ledger
 
-    from steelyard.tui.loading_screen import LoadingScreen
+    from steelyard.tui.screens.loading_screen import LoadingScreen
     from steelyard.tui.messages import LoadProgress
 
     path = tmp_path / "big.toml"

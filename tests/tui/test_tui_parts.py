@@ -13,12 +13,12 @@ import numpy as np
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.groups import subtotals
-from steelyard.core.model import FileUnits, Item, Ledger, Loadout
-from steelyard.io.ledger_file import open_ledger
-from steelyard.tui.edits import add_item, delete_item, duplicate_item, move_item, replace_item
-from steelyard.tui.form_values import GIVEN_INERTIA, initial_fields, item_from_fields, quantity
-from steelyard.tui.rows import LedgerIndex, RowSpec, build_rows, leaf_path
+from steelyard.core.physics.groups import subtotals
+from steelyard.core.document.model import FileUnits, Item, Ledger, Loadout
+from steelyard.io.ledger.file import open_ledger
+from steelyard.tui.state.edits import add_item, delete_item, duplicate_item, move_item, replace_item
+from steelyard.tui.state.form_values import GIVEN_INERTIA, initial_fields, item_from_fields, quantity
+from steelyard.tui.state.rows import LedgerIndex, RowSpec, build_rows, leaf_path
 from steelyard.tui.text import clean
 from tui_helpers import TRAINER
 

@@ -5,10 +5,10 @@ from __future__ import annotations
 from fractions import Fraction
 
 from steelyard.tui.app import PALETTE, SteelyardApp
-from steelyard.tui.help_screen import HelpScreen
+from steelyard.tui.screens.help_screen import HelpScreen
 from steelyard.tui.keys import MAIN_KEYS, pretty_keys
-from steelyard.tui.loadout_screen import LoadoutScreen
-from steelyard.tui.rows import SORT_KEYS
+from steelyard.tui.screens.loadout_screen import LoadoutScreen
+from steelyard.tui.state.rows import SORT_KEYS
 from tui_helpers import LB, close, copy_fixture, exact_totals, screen_text, settle, type_into, wait_loaded
 
 SIZE = (80, 24)
@@ -153,8 +153,8 @@ def test_docs_list_every_key():
 
 
 async def test_palette_opens_the_compare_and_weighing_screens(tmp_path):
-    from steelyard.tui.choice_screen import ChoiceScreen
-    from steelyard.tui.weighing_form import WeighingForm
+    from steelyard.tui.screens.choice_screen import ChoiceScreen
+    from steelyard.tui.screens.weighing_form import WeighingForm
 
     app = SteelyardApp(str(copy_fixture(tmp_path)))
     async with app.run_test(size=SIZE) as pilot:

@@ -16,7 +16,7 @@ from pathlib import Path
 
 from steelyard.core.display import fmt
 from steelyard.tui.app import SteelyardApp
-from steelyard.tui.weighing_form import WeighingForm
+from steelyard.tui.screens.weighing_form import WeighingForm
 from tui_helpers import LB, ROOT, copy_fixture, screen_text, settle, type_into, wait_loaded
 
 SIZE = (80, 24)

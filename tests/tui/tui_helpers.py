@@ -73,7 +73,7 @@ def close(a: float, b: Fraction, rel: float = 1e-12) -> bool:
 
 
 async def wait_loaded(app, pilot, timeout: float = 20.0) -> None:
-    from steelyard.tui.loading_screen import LoadingScreen
+    from steelyard.tui.screens.loading_screen import LoadingScreen
 
     waited = 0.0
     while app.session is None or isinstance(app.screen, LoadingScreen):

@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from ..core.errors import SteelyardError
-from ..io.ledger_file import LoadedLedger, open_ledger
-from .progress import LoadProgress
+from steelyard.core.errors import SteelyardError
+from steelyard.io.ledger.file import LoadedLedger, open_ledger
+from steelyard.cli.progress import LoadProgress
 
 
 def load_for_cli(path: str) -> LoadedLedger:

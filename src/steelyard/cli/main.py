@@ -1,7 +1,7 @@
 """The `steelyard` command.
 
 With no sub-command it opens the full-screen editor (or, headless, the
-demo's roll-up). Sub-commands are the modules `steelyard.cli.cmd_*`, each
+demo's roll-up). Sub-commands are the modules `steelyard.cli.commands.cmd_*`, each
 with NAME, HELP, add_arguments(parser) and run(args) -> exit code. Headless
 commands never import Textual.
 """
@@ -13,8 +13,8 @@ import importlib
 import pkgutil
 import sys
 
-from .. import __version__
-from ..core.errors import SteelyardError
+from steelyard import __version__
+from steelyard.core.errors import SteelyardError
 
 EXIT_OK, EXIT_LIMIT, EXIT_INPUT = 0, 1, 2
 
@@ -27,11 +27,11 @@ class _Parser(argparse.ArgumentParser):
 
 
 def _commands():
-    import steelyard.cli as pkg
+    import steelyard.cli.commands as pkg
 
     for info in sorted(pkgutil.iter_modules(pkg.__path__), key=lambda m: m.name):
         if info.name.startswith("cmd_"):
-            yield importlib.import_module(f"steelyard.cli.{info.name}")
+            yield importlib.import_module(f"steelyard.cli.commands.{info.name}")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -51,7 +51,7 @@ def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     try:
         if not argv or (len(argv) == 1 and not argv[0].startswith("-") and argv[0] not in _names()):
-            from .open_default import run_default
+            from steelyard.cli.open_default import run_default
 
             return run_default(argv[0] if argv else None)
         parser = build_parser()
@@ -70,7 +70,7 @@ def main(argv: list[str] | None = None) -> int:
 
 
 def _names() -> set[str]:
-    import steelyard.cli as pkg
+    import steelyard.cli.commands as pkg
 
     return {m.name[4:] for m in pkgutil.iter_modules(pkg.__path__) if m.name.startswith("cmd_")}
 

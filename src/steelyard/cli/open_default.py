@@ -10,10 +10,10 @@ import sys
 
 def run_default(path: str | None) -> int:
     if sys.stdout.isatty() and sys.stdin.isatty() and importlib.util.find_spec("steelyard.tui.app"):
-        from ..tui.launch import launch
+        from steelyard.tui.launch import launch
 
         return launch(path)
-    from ..io.demo import demo_path
-    from .cmd_rollup import run
+    from steelyard.io.ledger.demo import demo_path
+    from steelyard.cli.commands.cmd_rollup import run
 
     return run(argparse.Namespace(file=path or str(demo_path()), loadout=None, json=False, units=None))

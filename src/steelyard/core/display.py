@@ -10,8 +10,8 @@ import math
 import re
 from dataclasses import dataclass
 
-from .model import FileUnits
-from .units import SYSTEMS, unit_factor
+from steelyard.core.document.model import FileUnits
+from steelyard.core.units import SYSTEMS, unit_factor
 
 AXIS_NAMES = ("x", "y", "z")
 

@@ -19,7 +19,7 @@ from functools import lru_cache
 
 import pint
 
-from .errors import SteelyardError, UnitError, said
+from steelyard.core.errors import SteelyardError, UnitError, said
 
 _REGISTRY: pint.UnitRegistry | None = None
 

@@ -17,15 +17,15 @@ from textual import work
 from textual.app import App, SystemCommand
 from textual.screen import Screen
 
-from ..core.errors import SteelyardError
-from .chart_extras import ChartExtras, chart_extras
-from .compare_flows import CompareFlows
-from .edit_flows import EditFlows
-from .file_flows import FileFlows, groups_of
-from .journal_flows import JournalFlows
-from .main_screen import MainScreen
-from .messages import ExtrasReady, SubtotalsReady
-from .session import Session
+from steelyard.core.errors import SteelyardError
+from steelyard.tui.widgets.chart_extras import ChartExtras, chart_extras
+from steelyard.tui.flows.compare import CompareFlows
+from steelyard.tui.flows.edit import EditFlows
+from steelyard.tui.flows.file import FileFlows, groups_of
+from steelyard.tui.flows.journal import JournalFlows
+from steelyard.tui.screens.main_screen import MainScreen
+from steelyard.tui.messages import ExtrasReady, SubtotalsReady
+from steelyard.tui.state.session import Session
 
 #: (title, help, action) for the command palette (ctrl+p)
 PALETTE = (

@@ -8,7 +8,7 @@ import sys
 
 def launch(path: str | None) -> int:
     """Open FILE (or the demo as an unsaved copy when None); 0 on a normal quit, 2 if it cannot load."""
-    from .app import SteelyardApp
+    from steelyard.tui.app import SteelyardApp
 
     app = SteelyardApp(os.path.abspath(path) if path else None)
     try:

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 from rich.text import Text
 
-from ..core.display import visible
+from steelyard.core.display import visible
 
 def clean(text: object) -> str:
     """`text` as a string with every control character replaced by a visible symbol."""

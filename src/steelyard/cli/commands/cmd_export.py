@@ -1,0 +1,71 @@
+"""`steelyard export FILE --csv OUT | --json OUT`: items for spreadsheets, or everything in SI for scripts."""
+
+from __future__ import annotations
+
+import os
+import sys
+
+NAME = "export"
+HELP = "write the ledger's items as CSV (units in the headers) or as JSON in SI with the roll-ups"
+DESCRIPTION = (
+    "CSV: one row per item, numbers in the file's units (or --units), header cells such as "
+    "'mass [lb]' and 'x [in]', own inertia per unit about the item's CG in body axes with products "
+    "as integrals (∫xy dm). `steelyard import` reads it back value for value. JSON: every item in SI "
+    "with the roll-up of the vehicle and of each loadout (the rollup --json record) and the growth, "
+    "allocation and uncertainty figures. OUT '-' writes to stdout. See docs/exchange.md.")
+
+
+def add_arguments(p) -> None:
+    p.add_argument("file", help="ledger file (TOML)")
+    p.add_argument("--csv", metavar="OUT", help="write the items as CSV to OUT ('-': stdout)")
+    p.add_argument("--json", metavar="OUT", help="write items and roll-ups as JSON (SI) to OUT ('-': stdout)")
+    p.add_argument("--units", choices=("si", "us"), help="CSV units (default: the file's own)")
+    p.add_argument("--decimal-comma", action="store_true",
+                   help="CSV with decimal commas and ';' between cells (for spreadsheets set up that way)")
+    p.add_argument("--samples", type=int, default=20000, help="Monte Carlo samples for the JSON (default 20000)")
+    p.add_argument("--seed", type=int, default=0, help="Monte Carlo seed (default 0)")
+
+
+def _write(out: str, text: str, *, bom: bool = False) -> None:
+    from steelyard.io.durability.atomic import write_atomic
+
+    if out == "-":
+        sys.stdout.write(text)
+        return
+    data = ("\ufeff" if bom else "").encode("utf-8") + text.encode("utf-8")
+    write_atomic(out, data)
+
+
+def run(args) -> int:
+    from steelyard.core.errors import SteelyardError
+    from steelyard.cli.loading import load_for_cli
+
+    if not args.csv and not args.json:
+        raise SteelyardError("say what to write: --csv OUT and/or --json OUT", field="--csv")
+    if args.csv and args.json and args.csv == args.json:
+        raise SteelyardError("--csv and --json need different files", field="--json")
+    if args.samples < 0:
+        raise SteelyardError("must be >= 0", field="--samples")
+    loaded = load_for_cli(args.file)
+    for out in (args.csv, args.json):
+        if out and out != "-" and os.path.realpath(out) == os.path.realpath(loaded.path):
+            raise SteelyardError("would overwrite the ledger itself", file=out)
+    try:
+        texts = []
+        if args.csv:
+            from steelyard.io.exchange.csv_io import ledger_to_csv
+
+            texts.append((args.csv, ledger_to_csv(loaded.ledger, system=args.units,
+                                                  decimal_comma=args.decimal_comma)))
+        if args.json:
+            from steelyard.io.exchange.json_export import export_json
+
+            texts.append((args.json, export_json(loaded.ledger, source=loaded.path, samples=args.samples,
+                                                 seed=args.seed)))
+    except SteelyardError as exc:
+        raise exc.located(file=loaded.path)
+    for out, text in texts:  # everything built before anything is written
+        _write(out, text)
+        if out != "-":
+            print(f"wrote {out}", file=sys.stderr)
+    return 0

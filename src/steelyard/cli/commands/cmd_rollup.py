@@ -1,0 +1,41 @@
+"""`steelyard rollup FILE`: mass, CG, inertia and the weight statement."""
+
+from __future__ import annotations
+
+import json
+import sys
+
+NAME = "rollup"
+HELP = "total mass, CG, inertia tensor and group weight statement of a ledger"
+
+
+def add_arguments(p) -> None:
+    p.add_argument("file", help="ledger file (TOML)")
+    p.add_argument("--loadout", metavar="NAME", help="apply this loadout (default: variable items empty)")
+    p.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
+    p.add_argument("--units", choices=("si", "us"), help="display units (default: the file's own)")
+
+
+def run(args) -> int:
+    from steelyard.core.errors import SteelyardError
+    from steelyard.core.loading.loadout import resolve
+    from steelyard.core.physics.rollup import rollup_state
+    from steelyard.cli.loading import check_loadout, load_for_cli
+
+    loaded = load_for_cli(args.file)
+    check_loadout(loaded, args.loadout)
+    try:
+        state = resolve(loaded.ledger, args.loadout)
+    except SteelyardError as exc:
+        raise exc.located(file=loaded.path)
+    mp = rollup_state(state)
+    if args.json:
+        from steelyard.io.exchange.rollup_json import record_from
+
+        json.dump(record_from(loaded.ledger, mp, args.loadout), sys.stdout, indent=2, allow_nan=False)
+        sys.stdout.write("\n")
+        return 0
+    from steelyard.cli.render.rollup import print_rollup
+
+    print_rollup(loaded, state, mp, args.units)
+    return 0

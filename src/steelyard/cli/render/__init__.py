@@ -1,0 +1,2 @@
+"""Terminal text for the headless commands (rich tables), kept apart from the commands' logic.
+"""

@@ -1,0 +1,220 @@
+"""The ledger's domain model: immutable items, loadouts, envelopes.
+
+Values are SI (kg, m, kg·m², kg/m³). Per-item numbers are also kept as numpy
+columns (`ItemArrays`) built once per ledger, so roll-ups, checks and diffs
+never loop over items in Python. Edits make a new `Ledger`; the old one stays
+valid, which is what undo and diff need.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field, replace
+from functools import cached_property
+
+import numpy as np
+
+from steelyard.core.physics.inertia import rotate, tensor_from_six
+from steelyard.core.physics.rotation import rotation_matrix
+
+DIRECTIONS = ("fwd", "aft", "left", "right", "up", "down")
+OPPOSITE = {"fwd": "aft", "aft": "fwd", "left": "right", "right": "left", "up": "down", "down": "up"}
+
+
+@dataclass(frozen=True)
+class Shape:
+    """A solid whose own inertia follows from its dimensions (SI, by key)."""
+
+    kind: str
+    params: Mapping[str, float] = field(default_factory=dict)
+    axis: str = "z"
+
+    def local_tensor(self, mass: float) -> np.ndarray:
+        from steelyard.core.physics.shapes import shape_tensor  # shapes imports model-free helpers only
+
+        return shape_tensor(self.kind, dict(self.params), self.axis, mass)
+
+
+@dataclass(frozen=True)
+class Item:
+    """One line of the ledger. `mass` is per unit; for a variable item, its full amount."""
+
+    id: str
+    mass: float
+    cg: tuple[float, float, float]
+    name: str = ""
+    group: str = ""
+    quantity: int = 1
+    inertia: tuple[float, float, float, float, float, float] | None = None
+    shape: Shape | None = None
+    rotate: tuple[tuple[str, float], ...] = ()
+    variable: bool = False
+    density: float | None = None
+    #: keys this version does not interpret, kept as read so a save loses nothing
+    extra: Mapping[str, object] = field(default_factory=dict)
+    #: field -> unit the user wrote that field in ("41.5 lb"), kept on save
+    given_units: Mapping[str, str] = field(default_factory=dict)
+
+    @property
+    def label(self) -> str:
+        return self.name or self.id
+
+    def own_tensor(self) -> np.ndarray:
+        """Own inertia of one unit about its own CG, body axes (3, 3)."""
+        if self.inertia is not None:
+            t = tensor_from_six(np.asarray(self.inertia, dtype=float))
+        elif self.shape is not None:
+            t = self.shape.local_tensor(self.mass)
+        else:
+            return np.zeros((3, 3))
+        if self.rotate:
+            t = rotate(t, rotation_matrix(self.rotate))
+        return t
+
+    def evolve(self, **changes) -> "Item":
+        return replace(self, **changes)
+
+
+@dataclass(frozen=True)
+class Amount:
+    """How much of a variable item a loadout carries."""
+
+    kind: str  # "fraction" | "mass" | "volume"
+    value: float  # fraction 0..1, kg, or m³
+    given: str | None = None  # the text as written, for saving
+
+
+@dataclass(frozen=True)
+class Loadout:
+    name: str
+    set: Mapping[str, Amount] = field(default_factory=dict)
+    base: str | None = None
+    extra: Mapping[str, object] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Envelope:
+    """A CG envelope: polygon of (cg on `axis` [m], mass [kg]) vertices."""
+
+    name: str
+    axis: str
+    points: tuple[tuple[float, float], ...]
+    extra: Mapping[str, object] = field(default_factory=dict)
+
+    @property
+    def array(self) -> np.ndarray:
+        return np.asarray(self.points, dtype=float).reshape(-1, 2)
+
+
+@dataclass(frozen=True)
+class FileUnits:
+    mass: str = "kg"
+    length: str = "m"
+    inertia: str = "kg*m**2"
+    extra: Mapping[str, str] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Frame:
+    x: str = "aft"
+    y: str = "right"
+    z: str = "up"
+
+    def direction(self, axis: int) -> str:
+        return (self.x, self.y, self.z)[axis]
+
+
+@dataclass(frozen=True)
+class ItemArrays:
+    """Per-item columns, SI. Own inertia is per unit, body axes."""
+
+    unit_mass: np.ndarray  # (n,)
+    quantity: np.ndarray  # (n,) float
+    cg: np.ndarray  # (n, 3), column-major: the roll-up reads it as (3, n)
+    own: np.ndarray  # (n, 3, 3)
+    variable: np.ndarray  # (n,) bool
+
+    @classmethod
+    def from_items(cls, items: Sequence[Item]) -> "ItemArrays":
+        n = len(items)
+        unit_mass = np.fromiter((it.mass for it in items), float, n)
+        quantity = np.fromiter((it.quantity for it in items), float, n)
+        cg = np.asfortranarray(np.array([it.cg for it in items], dtype=float).reshape(n, 3))
+        variable = np.fromiter((it.variable for it in items), bool, n)
+        own = np.zeros((n, 3, 3))
+        for i, it in enumerate(items):
+            if it.inertia is not None or it.shape is not None:
+                own[i] = it.own_tensor()
+        return cls(unit_mass, quantity, cg, own, variable)
+
+    def with_row(self, i: int, item: Item) -> "ItemArrays":
+        """A copy with row i replaced: cheap enough for an edit on 100k items."""
+        out = ItemArrays(self.unit_mass.copy(), self.quantity.copy(), self.cg.copy(order="F"),
+                         self.own.copy(), self.variable.copy())
+        out.unit_mass[i] = item.mass
+        out.quantity[i] = item.quantity
+        out.cg[i] = item.cg
+        out.own[i] = item.own_tensor()
+        out.variable[i] = item.variable
+        return out
+
+
+@dataclass(frozen=True)
+class Ledger:
+    items: tuple[Item, ...] = ()
+    units: FileUnits = field(default_factory=FileUnits)
+    frame: Frame = field(default_factory=Frame)
+    loadouts: tuple[Loadout, ...] = ()
+    envelopes: tuple[Envelope, ...] = ()
+    #: top-level tables this version does not interpret, kept as read
+    extra: Mapping[str, object] = field(default_factory=dict)
+
+    @cached_property
+    def arrays(self) -> ItemArrays:
+        return ItemArrays.from_items(self.items)
+
+    @cached_property
+    def index(self) -> dict[str, int]:
+        return {it.id: i for i, it in enumerate(self.items)}
+
+    def item(self, item_id: str) -> Item:
+        return self.items[self.index[item_id]]
+
+    def loadout(self, name: str) -> Loadout:
+        for lo in self.loadouts:
+            if lo.name == name:
+                return lo
+        raise KeyError(name)
+
+    def evolve(self, **changes) -> "Ledger":
+        """A new ledger with some fields replaced (cached columns rebuilt lazily)."""
+        return replace(self, **changes)
+
+    def with_item(self, item: Item) -> "Ledger":
+        """Replace the item with the same id, or append it; columns updated in place of a rebuild."""
+        i = self.index.get(item.id)
+        if i is None:
+            return self.evolve(items=self.items + (item,))
+        items = self.items[:i] + (item,) + self.items[i + 1:]
+        new = self.evolve(items=items)
+        if "arrays" in self.__dict__:
+            new.__dict__["arrays"] = self.arrays.with_row(i, item)
+        new.__dict__["index"] = self.index
+        for carry in ROW_CACHES:  # per-row caches follow the edit instead of a full rescan
+            carry(self, new, i)
+        return new
+
+    def without_item(self, item_id: str) -> "Ledger":
+        i = self.index[item_id]
+        return self.evolve(items=self.items[:i] + self.items[i + 1:])
+
+
+#: hooks(old, new, row) that carry a derived per-row cache from a ledger to its
+#: one-row edit; modules that keep such caches (core.tank) register here
+ROW_CACHES: list = []
+
+
+def with_arrays(ledger: Ledger, arrays: ItemArrays) -> Ledger:
+    """Attach columns built elsewhere (the loader builds them in bulk)."""
+    ledger.__dict__["arrays"] = arrays
+    return ledger

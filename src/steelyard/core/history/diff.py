@@ -1,0 +1,537 @@
+"""Comparing two configurations item by item, and what the changes do to the totals.
+
+A *side* is a ledger with a loadout (or none), or a snapshot, which is one
+configuration already. Both sides are compared *as carried*: every row's
+mass per unit and own inertia are what that side has on board, so two
+loadouts of one file, a ledger and last month's snapshot of it, or two
+versions of a file all compare the same way. A load item also keeps its
+full amount (`capacity_kg`), so a bigger tank shows even when it is empty.
+
+Items match by id. Values are SI floats; two numbers are equal when they
+differ by at most `ULPS` units in the last place of the larger one, so a
+length typed "12 in" in one file and "1 ft" in the other (a one-ulp
+difference after conversion) is no change. Everything per item runs over
+numpy columns; only rows that differ are turned into Python dicts.
+"""
+
+from __future__ import annotations
+
+import math
+import operator
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from functools import cached_property
+from itertools import repeat
+
+import numpy as np
+
+from steelyard.core.display import DisplayUnits, fmt, pretty_unit
+from steelyard.core.errors import SteelyardError, item_subject
+from steelyard.core.physics.inertia import COMPONENTS
+from steelyard.core.loading.loadout import fill_fractions, state_from_fill
+from steelyard.core.document.model import Amount, Envelope, Ledger, Loadout
+from steelyard.core.physics.rollup import MassProperties, rollup_state
+from steelyard.core.limits.status import EnvelopeResult, envelope_results
+from steelyard.core.units import unit_factor
+
+#: Equality tolerance for SI numbers, in units in the last place of the larger magnitude.
+ULPS = 8
+#: The top-level table that makes a ledger a snapshot (see steelyard.io.ledger.snapshot).
+SNAPSHOT_TABLE = "snapshot"
+#: Per-item key in a snapshot for a load item: { capacity_kg = full amount, fill = 0..1 }.
+LOADED_KEY = "loaded"
+
+#: Item fields in the order they are reported.
+FIELDS = ("name", "group", "quantity", "mass_kg", "cg_m", "inertia_kg_m2", "shape", "rotate",
+          "variable", "capacity_kg", "density_kg_m3")
+
+
+def close(a, b) -> np.ndarray:
+    """Elementwise: equal within ULPS ulps of the larger magnitude (NaN equals NaN)."""
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    with np.errstate(invalid="ignore", over="ignore"):
+        tol = ULPS * np.spacing(np.maximum(np.abs(a), np.abs(b)))
+        return (a == b) | (np.abs(a - b) <= tol) | (np.isnan(a) & np.isnan(b))
+
+
+def _same(a, b) -> bool:
+    """Loose equality of nested values (numbers within ULPS, everything else exactly)."""
+    if isinstance(a, bool) or isinstance(b, bool) or isinstance(a, str) or isinstance(b, str):
+        return type(a) is type(b) and a == b
+    if isinstance(a, (int, float)) and isinstance(b, (int, float)):
+        if a == b or (math.isnan(a) and math.isnan(b)):
+            return True
+        return abs(a - b) <= ULPS * math.ulp(max(abs(a), abs(b)))
+    if isinstance(a, (list, tuple)) and isinstance(b, (list, tuple)):
+        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
+    if isinstance(a, Mapping) and isinstance(b, Mapping):
+        return a.keys() == b.keys() and all(_same(a[k], b[k]) for k in a)
+    return a == b
+
+
+# --------------------------------------------------------------------------- one side, as carried
+
+
+@dataclass(frozen=True, eq=False)
+class Carried:
+    """Per-item columns of one side as carried (SI), in the ledger's own item order."""
+
+    ledger: Ledger
+    loadout: str | None
+    ids: list[str]
+    labels: list[str]
+    groups: list[str]
+    quantity: np.ndarray  # (n,) float
+    mass: np.ndarray  # (n,) carried mass per unit
+    cg: np.ndarray  # (n, 3)
+    six: np.ndarray  # (n, 6) carried own inertia per unit as given, NaN where none is given
+    variable: np.ndarray  # (n,) bool: a load item (in a snapshot: was one)
+    capacity: np.ndarray  # (n,) full amount of a load item (mass × quantity), NaN for fixed
+    density: np.ndarray  # (n,) NaN where none
+    extras: list[Mapping[str, object]]  # unknown item keys, the snapshot marker taken out
+    mp: MassProperties
+    row_mass: np.ndarray  # (n,) total carried mass of each row
+    geometry: np.ndarray  # (n,) bool: the item has a shape or turns (compared in Python)
+    has_extra: np.ndarray  # (n,) bool: extras[i] is not empty
+
+    @property
+    def is_snapshot(self) -> bool:
+        return is_snapshot(self.ledger)
+
+
+def is_snapshot(ledger: Ledger) -> bool:
+    return isinstance(ledger.extra.get(SNAPSHOT_TABLE), Mapping)
+
+
+def _loaded_marker(item_id: str, raw: object) -> tuple[float, float]:
+    ok = isinstance(raw, Mapping) and all(
+        type(raw.get(k)) in (int, float) and np.isfinite(raw.get(k)) for k in ("capacity_kg", "fill"))
+    if not ok:
+        raise SteelyardError("must be { capacity_kg = <full amount, kg>, fill = <0..1> }",
+                             subject=item_subject(item_id), field=LOADED_KEY)
+    return float(raw["capacity_kg"]), float(raw["fill"])
+
+
+def _pick(xs: list, rows: list[int]) -> list:
+    """xs[i] for i in rows, at C speed."""
+    if not rows:
+        return []
+    got = operator.itemgetter(*rows)(xs)
+    return list(got) if len(rows) > 1 else [got]
+
+
+def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
+    """One side as carried under `loadout` (None: load items empty; a snapshot has none)."""
+    items = ledger.items
+    n = len(items)
+    a = ledger.arrays
+    fill = fill_fractions(ledger, loadout)
+    state = state_from_fill(ledger, fill, loadout)
+    variable = a.variable.copy()
+    capacity = np.where(variable, a.unit_mass * a.quantity, np.nan)
+    extras: list[Mapping[str, object]] = list(map(operator.attrgetter("extra"), items))
+    if is_snapshot(ledger):
+        for i in [i for i, ex in enumerate(extras) if LOADED_KEY in ex]:
+            capacity[i], _ = _loaded_marker(items[i].id, extras[i][LOADED_KEY])
+            variable[i] = True
+            extras[i] = {k: v for k, v in extras[i].items() if k != LOADED_KEY}
+    six = np.full((n, 6), np.nan)
+    rows = [i for i, it in enumerate(items) if it.inertia is not None]
+    if rows:
+        r = np.array(rows)
+        six[r] = np.array([items[i].inertia for i in rows], dtype=float) * fill[r, None]
+    density = np.full(n, np.nan)
+    rows = [i for i, it in enumerate(items) if it.density is not None]
+    if rows:
+        density[np.array(rows)] = [items[i].density for i in rows]
+    ids = list(map(operator.attrgetter("id"), items))
+    labels = [name or i for name, i in zip(map(operator.attrgetter("name"), items), ids)]
+    geometry = np.fromiter((it.shape is not None or bool(it.rotate) for it in items), bool, n)
+    has_extra = np.fromiter(map(bool, extras), bool, n)
+    return Carried(ledger, loadout, ids, labels, list(map(operator.attrgetter("group"), items)), a.quantity,
+                   a.unit_mass * fill, a.cg, six, variable, capacity, density, extras, rollup_state(state),
+                   state.mass, geometry, has_extra)
+
+
+# --------------------------------------------------------------------------- results
+
+
+@dataclass(frozen=True)
+class ItemChange:
+    """A matched item whose fields differ: field -> (old, new), SI, in FIELDS order then extra.*"""
+
+    id: str
+    fields: Mapping[str, tuple[object, object]]
+
+
+@dataclass(frozen=True)
+class ItemEffect:
+    """How far one item's change alone moves A's CG (B's value put into A, nothing else)."""
+
+    id: str
+    kind: str  # "added" | "removed" | "changed"
+    mass_delta: float  # kg carried, B − A
+    cg_shift: np.ndarray  # (3,) m; NaN when A (or A after the change) has no mass
+
+    @property
+    def shift(self) -> float:
+        return float(np.sqrt(self.cg_shift @ self.cg_shift))
+
+
+@dataclass(frozen=True)
+class EnvelopeChange:
+    name: str
+    a: EnvelopeResult | None  # None: the envelope is not in A
+    b: EnvelopeResult | None
+
+    @property
+    def margin_delta(self) -> float | None:
+        if self.a is None or self.b is None or self.a.margin is None or self.b.margin is None:
+            return None
+        return self.b.margin - self.a.margin
+
+    @property
+    def status_changed(self) -> bool:
+        return (self.a is None) != (self.b is None) or (
+            self.a is not None and self.b is not None and self.a.inside != self.b.inside)
+
+
+@dataclass(frozen=True)
+class DefinitionChanges:
+    """Named definitions (envelopes, loadouts) added, removed or changed field by field."""
+
+    added: tuple[str, ...] = ()
+    removed: tuple[str, ...] = ()
+    changed: tuple[tuple[str, Mapping[str, tuple[object, object]]], ...] = ()
+
+    def __bool__(self) -> bool:
+        return bool(self.added or self.removed or self.changed)
+
+
+@dataclass(frozen=True, eq=False)
+class LedgerDiff:
+    a: Carried
+    b: Carried
+    added: tuple[str, ...]  # in B's order
+    removed: tuple[str, ...]  # in A's order
+    changed: tuple[ItemChange, ...]  # in A's order
+    ranked: tuple[ItemEffect, ...]  # every added, removed and changed item, largest |ΔCG| first
+    envelopes: tuple[EnvelopeChange, ...]
+    frame: Mapping[str, tuple[str, str]] = field(default_factory=dict)
+    envelope_definitions: DefinitionChanges = DefinitionChanges()
+    loadout_definitions: DefinitionChanges | None = None  # None: not compared
+
+    @property
+    def identical(self) -> bool:
+        return not (self.added or self.removed or self.changed or self.frame or self.envelope_definitions
+                    or self.loadout_definitions)
+
+    @property
+    def delta_mass(self) -> float:
+        return self.b.mp.mass - self.a.mp.mass
+
+    @property
+    def delta_cg(self) -> np.ndarray:
+        return self.b.mp.cg - self.a.mp.cg
+
+    @property
+    def delta_inertia(self) -> np.ndarray:
+        return self.b.mp.inertia_cg - self.a.mp.inertia_cg
+
+    @cached_property
+    def delta_principal(self) -> np.ndarray | None:
+        if self.a.mp.mass <= 0 or self.b.mp.mass <= 0:
+            return None
+        return self.b.mp.principal_moments - self.a.mp.principal_moments
+
+
+# --------------------------------------------------------------------------- field values
+
+
+def _num(x: float) -> float | None:
+    x = float(x)
+    return x if np.isfinite(x) else None
+
+
+def _six(row: np.ndarray) -> dict | None:
+    return None if np.isnan(row).all() else {k: float(v) for k, v in zip(COMPONENTS, row)}
+
+
+def _shape(item) -> dict | None:
+    s = item.shape
+    if s is None:
+        return None
+    out: dict = {"kind": s.kind, "axis": s.axis}
+    for k, v in s.params.items():
+        out[k] = [float(x) for x in v] if isinstance(v, tuple) else float(v)
+    return out
+
+
+def _rotate(item) -> list:
+    return [[axis, float(deg)] for axis, deg in item.rotate]
+
+
+_VALUES = {
+    "name": lambda s, i: s.labels[i],
+    "group": lambda s, i: s.groups[i],
+    "quantity": lambda s, i: int(s.quantity[i]),
+    "mass_kg": lambda s, i: float(s.mass[i]),
+    "cg_m": lambda s, i: [float(x) for x in s.cg[i]],
+    "inertia_kg_m2": lambda s, i: _six(s.six[i]),
+    "shape": lambda s, i: _shape(s.ledger.items[i]),
+    "rotate": lambda s, i: _rotate(s.ledger.items[i]),
+    "variable": lambda s, i: bool(s.variable[i]),
+    "capacity_kg": lambda s, i: _num(s.capacity[i]),
+    "density_kg_m3": lambda s, i: _num(s.density[i]),
+}
+
+
+def _value(side: Carried, i: int, name: str) -> object:
+    """Field `name` of row i as reported (SI; None where the item gives none)."""
+    return _VALUES[name](side, i)
+
+
+# --------------------------------------------------------------------------- comparing
+
+
+def _strings_differ(xs: list[str], ys: list[str], ia: list[int], ib: list[int]) -> np.ndarray:
+    return np.fromiter(map(operator.ne, _pick(xs, ia), _pick(ys, ib)), bool, len(ia))
+
+
+def _item_masks(a: Carried, b: Carried, ia: np.ndarray, ib: np.ndarray) -> dict[str, np.ndarray]:
+    """field -> (k,) bool 'differs' over the matched pairs (A row ia[k], B row ib[k])."""
+    la, lb = ia.tolist(), ib.tolist()
+    m = {
+        "name": _strings_differ(a.labels, b.labels, la, lb),
+        "group": _strings_differ(a.groups, b.groups, la, lb),
+        "quantity": a.quantity[ia] != b.quantity[ib],
+        "mass_kg": ~close(a.mass[ia], b.mass[ib]),
+        "cg_m": ~close(a.cg[ia], b.cg[ib]).all(axis=1),
+        "inertia_kg_m2": ~close(a.six[ia], b.six[ib]).all(axis=1),
+        "variable": a.variable[ia] != b.variable[ib],
+        "capacity_kg": ~close(a.capacity[ia], b.capacity[ib]),
+        "density_kg_m3": ~close(a.density[ia], b.density[ib]),
+    }
+    shape = np.zeros(len(ia), bool)
+    rotate = np.zeros(len(ia), bool)
+    ai, bi = a.ledger.items, b.ledger.items
+    for k in np.flatnonzero(a.geometry[ia] | b.geometry[ib]).tolist():
+        x, y = ai[la[k]], bi[lb[k]]
+        if x.shape is not None or y.shape is not None:
+            shape[k] = not _same(_shape(x), _shape(y))
+        if x.rotate or y.rotate:
+            rotate[k] = not _same(_rotate(x), _rotate(y))
+    m["shape"], m["rotate"] = shape, rotate
+    return m
+
+
+def _extra_changes(ea: Mapping, eb: Mapping) -> dict[str, tuple[object, object]]:
+    out = {}
+    for k in sorted(set(ea) | set(eb)):
+        x, y = ea.get(k), eb.get(k)
+        if not _same(x, y):
+            out[f"extra.{k}"] = (x, y)
+    return out
+
+
+def _rank(a: Carried, b: Carried, kinds: list[str], ids: list[str], ra: np.ndarray,
+          rb: np.ndarray) -> tuple[ItemEffect, ...]:
+    """Closed form: ΔCG_i = (m_b (r_b − c) − m_a (r_a − c)) / (M + m_b − m_a), c and M of A.
+
+    ra, rb: rows in A and B (−1 where absent). One vectorised pass, no roll-up per item.
+    """
+    k = len(ids)
+    if k == 0:
+        return ()
+    has_a, has_b = ra >= 0, rb >= 0
+    m_a = np.where(has_a, a.row_mass[np.maximum(ra, 0)] if len(a.ids) else 0.0, 0.0)
+    m_b = np.where(has_b, b.row_mass[np.maximum(rb, 0)] if len(b.ids) else 0.0, 0.0)
+    r_a = a.cg[np.maximum(ra, 0)] if len(a.ids) else np.zeros((k, 3))
+    r_b = b.cg[np.maximum(rb, 0)] if len(b.ids) else np.zeros((k, 3))
+    c, big_m = a.mp.cg, a.mp.mass
+    new_m = big_m + m_b - m_a
+    with np.errstate(invalid="ignore", divide="ignore"):
+        moment = (m_b[:, None] * np.where(has_b[:, None], r_b - c, 0.0)
+                  - m_a[:, None] * np.where(has_a[:, None], r_a - c, 0.0))
+        shift = moment / new_m[:, None]
+    undefined = ~(new_m > 0) if big_m > 0 else np.ones(k, bool)
+    shift[undefined] = np.nan
+    norm = np.sqrt((shift * shift).sum(axis=1))
+    key = np.where(np.isnan(norm), -1.0, norm)
+    order = np.argsort(-key, kind="stable")
+    dm = m_b - m_a
+    return tuple(ItemEffect(ids[i], kinds[i], float(dm[i]), shift[i]) for i in order.tolist())
+
+
+def _envelope_points(env: Envelope) -> list:
+    return [[float(c), float(m)] for c, m in env.points]
+
+
+def _envelope_definitions(a: Ledger, b: Ledger) -> DefinitionChanges:
+    ea = {e.name: e for e in a.envelopes}
+    eb = {e.name: e for e in b.envelopes}
+    changed = []
+    for name, x in ea.items():
+        y = eb.get(name)
+        if y is None:
+            continue
+        fields: dict = {}
+        if x.axis != y.axis:
+            fields["axis"] = (x.axis, y.axis)
+        if not _same(_envelope_points(x), _envelope_points(y)):
+            fields["points_m_kg"] = (_envelope_points(x), _envelope_points(y))
+        fields.update(_extra_changes(x.extra, y.extra))
+        if fields:
+            changed.append((name, fields))
+    return DefinitionChanges(tuple(n for n in eb if n not in ea), tuple(n for n in ea if n not in eb),
+                             tuple(changed))
+
+
+def _amount(a: Amount | None) -> dict | None:
+    if a is None:
+        return None
+    key = {"fraction": "fraction", "mass": "mass_kg", "volume": "volume_m3"}.get(a.kind, a.kind)
+    return {key: float(a.value)}
+
+
+def _loadout_definitions(a: Ledger, b: Ledger) -> DefinitionChanges:
+    la: dict[str, Loadout] = {lo.name: lo for lo in a.loadouts}
+    lb: dict[str, Loadout] = {lo.name: lo for lo in b.loadouts}
+    changed = []
+    for name, x in la.items():
+        y = lb.get(name)
+        if y is None:
+            continue
+        fields: dict = {}
+        if x.base != y.base:
+            fields["base"] = (x.base, y.base)
+        same_set = x.set == y.set  # as written: the common case, decided at C speed
+        for item_id in [] if same_set else list(x.set) + [k for k in y.set if k not in x.set]:
+            u, v = _amount(x.set.get(item_id)), _amount(y.set.get(item_id))
+            if not _same(u, v):
+                fields[f"set.{item_id}"] = (u, v)
+        fields.update(_extra_changes(x.extra, y.extra))
+        if fields:
+            changed.append((name, fields))
+    return DefinitionChanges(tuple(n for n in lb if n not in la), tuple(n for n in la if n not in lb),
+                             tuple(changed))
+
+
+def _envelope_changes(a: Carried, b: Carried) -> tuple[EnvelopeChange, ...]:
+    ra = {r.name: r for r in envelope_results(a.ledger, a.mp)}
+    rb = {r.name: r for r in envelope_results(b.ledger, b.mp)}
+    names = list(ra) + [n for n in rb if n not in ra]
+    return tuple(EnvelopeChange(n, ra.get(n), rb.get(n)) for n in names)
+
+
+def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> LedgerDiff:
+    """The diff of two sides already as carried.
+
+    `loadouts`: also compare loadout definitions; by default only when both
+    sides are whole ledgers with no loadout chosen (two versions of a file).
+    """
+    b_index = b.ledger.index
+    a_index = a.ledger.index
+    if a.ids == b.ids:  # same items in the same order (two loadouts, a snapshot of this ledger)
+        ib_all = ia_all = np.arange(len(a.ids), dtype=np.int64)
+    else:
+        ib_all = np.fromiter(map(b_index.get, a.ids, repeat(-1)), np.int64, len(a.ids))
+        ia_all = np.fromiter(map(a_index.get, b.ids, repeat(-1)), np.int64, len(b.ids))
+    matched = np.flatnonzero(ib_all >= 0)
+    ia, ib = matched, ib_all[matched]
+    masks = _item_masks(a, b, ia, ib)
+    any_diff = np.zeros(len(ia), bool)
+    for name in FIELDS:
+        any_diff |= masks[name]
+    extra_fields: dict[int, dict] = {}
+    for k in np.flatnonzero(a.has_extra[ia] | b.has_extra[ib]).tolist():
+        ch = _extra_changes(a.extras[ia[k]], b.extras[ib[k]])
+        if ch:
+            extra_fields[k] = ch
+            any_diff[k] = True
+    changed = []
+    for k in np.flatnonzero(any_diff).tolist():
+        i, j = int(ia[k]), int(ib[k])
+        fields = {name: (_value(a, i, name), _value(b, j, name)) for name in FIELDS if masks[name][k]}
+        fields.update(extra_fields.get(k, {}))
+        changed.append(ItemChange(a.ids[i], fields))
+    removed_rows = np.flatnonzero(ib_all < 0)
+    added_rows = np.flatnonzero(ia_all < 0)
+    removed = tuple(a.ids[i] for i in removed_rows.tolist())
+    added = tuple(b.ids[j] for j in added_rows.tolist())
+
+    ch_a = np.array([a_index[c.id] for c in changed], dtype=np.int64)
+    ch_b = np.array([b_index[c.id] for c in changed], dtype=np.int64)
+    ra = np.concatenate([ch_a, removed_rows, np.full(len(added_rows), -1)]).astype(np.int64)
+    rb = np.concatenate([ch_b, np.full(len(removed_rows), -1), added_rows]).astype(np.int64)
+    kinds = ["changed"] * len(changed) + ["removed"] * len(removed) + ["added"] * len(added)
+    ranked = _rank(a, b, kinds, [c.id for c in changed] + list(removed) + list(added), ra, rb)
+
+    fa, fb = a.ledger.frame, b.ledger.frame
+    frame = {k: (getattr(fa, k), getattr(fb, k)) for k in ("x", "y", "z") if getattr(fa, k) != getattr(fb, k)}
+    if loadouts is None:
+        loadouts = (a.loadout is None and b.loadout is None and not a.is_snapshot and not b.is_snapshot)
+    return LedgerDiff(a, b, added, removed, tuple(changed), ranked, _envelope_changes(a, b), frame,
+                      _envelope_definitions(a.ledger, b.ledger),
+                      _loadout_definitions(a.ledger, b.ledger) if loadouts else None)
+
+
+def compare(a: Ledger, a_loadout: str | None, b: Ledger, b_loadout: str | None, *,
+            loadouts: bool | None = None) -> LedgerDiff:
+    """Diff of ledger `a` under `a_loadout` against `b` under `b_loadout` (None: load items empty)."""
+    return compare_carried(carried(a, a_loadout), carried(b, b_loadout), loadouts=loadouts)
+
+
+# --------------------------------------------------------------------------- display helpers (pure)
+
+
+def _q(x: float | None, convert, unit: str) -> str:
+    return "—" if x is None else f"{fmt(convert(x))} {pretty_unit(unit)}"
+
+
+def _shape_text(s: dict | None, du: DisplayUnits) -> str:
+    if s is None:
+        return "—"
+    lu = pretty_unit(du.length)
+    parts = [s["kind"], f"axis {s['axis']}"]
+    for k, v in s.items():
+        if k not in ("kind", "axis"):
+            size = "×".join(fmt(du.l(x)) for x in v) if isinstance(v, list) else fmt(du.l(v))
+            parts.append(f"{k} {size} {lu}")
+    return ", ".join(parts)
+
+
+def _six_text(t: dict | None, du: DisplayUnits) -> str:
+    if t is None:
+        return "—"
+    return ", ".join(f"{k} {fmt(du.i(v))}" for k, v in t.items()) + f" {pretty_unit(du.inertia)}"
+
+
+def change_rows(name: str, old: object, new: object, du: DisplayUnits) -> list[tuple[str, str, str]]:
+    """One changed field as display rows (label, old text, new text), in display units.
+
+    A vector or table field gives one row per component that differs, so a
+    screen or a report shows "cg x  99.0000 in → 98.5000 in" rather than two lists.
+    """
+    mu, lu, iu = du.mass, du.length, du.inertia
+    if name in ("mass_kg", "capacity_kg"):
+        return [(name[:-3], _q(old, du.m, mu), _q(new, du.m, mu))]
+    if name == "cg_m":
+        return [(f"cg {ax}", _q(o, du.l, lu), _q(n, du.l, lu)) for ax, o, n in zip("xyz", old, new)
+                if not _same(o, n)]
+    if name == "inertia_kg_m2":
+        if old is None or new is None:
+            return [("inertia", _six_text(old, du), _six_text(new, du))]
+        return [(f"inertia {k}", _q(old[k], du.i, iu), _q(new[k], du.i, iu)) for k in COMPONENTS
+                if not _same(old[k], new[k])]
+    if name == "density_kg_m3":  # lb per US gallon beside pounds, else kg/m³
+        f, unit = (unit_factor("lb/gal", "density"), "lb/gal") if mu == "lb" else (1.0, "kg/m³")
+        return [("density", *("—" if v is None else f"{fmt(v / f)} {unit}" for v in (old, new)))]
+    if name == "shape":
+        return [("shape", _shape_text(old, du), _shape_text(new, du))]
+    if name == "rotate":
+        return [("rotate", *(" then ".join(f"{a} {d:g}°" for a, d in r) or "none" for r in (old, new)))]
+    if name == "variable":
+        return [("variable", *("load item" if v else "fixed" for v in (old, new)))]
+    return [(name, *("—" if v is None else v if isinstance(v, str) else repr(v) for v in (old, new)))]

@@ -1,0 +1,133 @@
+"""`Ledger` -> canonical TOML text.
+
+Canonical means: the same ledger always gives the same bytes; keys come in a
+fixed order, one `[[item]]` table per item, numbers in the file's own units
+printed with the fewest digits that read back to the identical value. So a
+version-control diff shows only what really changed.
+"""
+
+from __future__ import annotations
+
+import math
+
+from steelyard.core.physics.inertia import COMPONENTS
+from steelyard.core.document.model import Envelope, FileUnits, Item, Ledger, Loadout
+from steelyard.core.errors import UnitError
+from steelyard.core.units import parse_quantity, unit_factor
+from steelyard.io.ledger.toml_write import key, number, string, tables, value
+
+
+def _factor(unit: str, dimension: str) -> float:
+    return unit_factor(unit, dimension)
+
+
+def _qty(x: float, dimension: str, file_unit: str, given: str | None) -> str:
+    if given:
+        return string(_with_unit(x, dimension, given))
+    return number(x, _factor(file_unit, dimension))
+
+
+def _with_unit(x: float, dimension: str, unit: str) -> str:
+    """'76.1 lb': digits checked through the reader's own path (pint's exact factor),
+    so that saving an unchanged file gives the same bytes and the same value."""
+    v = x / _factor(unit, dimension)
+    candidates = [float(f"{v:.{d}g}") for d in (12, 15, 16, 17)]
+    up = down = v
+    for _ in range(4):  # the float factor and pint's exact one may differ by an ulp or two
+        up, down = math.nextafter(up, math.inf), math.nextafter(down, -math.inf)
+        candidates += [up, down]
+    for c in candidates:
+        text = repr(c)  # shortest text of that float exactly (number() would round to 12 digits)
+        try:
+            if parse_quantity(f"{text} {unit}", dimension) == x:
+                return f"{text} {unit}"
+        except UnitError:
+            break
+    return f"{number(x, _factor(unit, dimension))} {unit}"
+
+
+def _item(it: Item, u: FileUnits) -> list[str]:
+    g = it.given_units
+    out = ["[[item]]", f"id = {string(it.id)}"]
+    if it.name:
+        out.append(f"name = {string(it.name)}")
+    if it.group:
+        out.append(f"group = {string(it.group)}")
+    out.append(f"mass = {_qty(it.mass, 'mass', u.mass, g.get('mass'))}")
+    out.append("cg = [" + ", ".join(_qty(c, "length", u.length, g.get(f"cg.{k}"))
+                                    for k, c in enumerate(it.cg)) + "]")
+    if it.quantity != 1:
+        out.append(f"quantity = {it.quantity}")
+    if it.inertia is not None:
+        parts = [f"{k} = {_qty(v, 'inertia', u.inertia, g.get('inertia.' + k))}"
+                 for k, v in zip(COMPONENTS, it.inertia)]
+        out.append("inertia = { " + ", ".join(parts) + " }")
+    if it.shape is not None:
+        parts = [f"kind = {string(it.shape.kind)}"]
+        for k, v in it.shape.params.items():
+            if isinstance(v, tuple):
+                parts.append(f"{key(k)} = [" + ", ".join(_qty(x, "length", u.length, None) for x in v) + "]")
+            else:
+                parts.append(f"{key(k)} = {_qty(v, 'length', u.length, None)}")
+        if it.shape.axis != "z":
+            parts.append(f"axis = {string(it.shape.axis)}")
+        out.append("shape = { " + ", ".join(parts) + " }")
+    if it.rotate:
+        out.append("rotate = [" + ", ".join(f"[{string(a)}, {number(d)}]" for a, d in it.rotate) + "]")
+    if it.variable:
+        out.append("variable = true")
+    if it.density is not None:
+        dunit = u.extra.get("density", f"({u.mass})/({u.length})**3")
+        out.append(f"density = {_qty(it.density, 'density', dunit, g.get('density'))}")
+    for k in sorted(it.extra):
+        out.append(f"{key(k)} = {value(it.extra[k])}")
+    return out
+
+
+def _loadout(lo: Loadout) -> list[str]:
+    out = ["[[loadout]]", f"name = {string(lo.name)}"]
+    if lo.base is not None:
+        out.append(f"base = {string(lo.base)}")
+    for k in sorted(lo.extra):
+        out.append(f"{key(k)} = {value(lo.extra[k])}")
+    if lo.set:
+        out.append("[loadout.set]")
+        for item_id, amount in lo.set.items():
+            text = number(amount.value) if amount.kind == "fraction" else string(amount.given or "")
+            if amount.kind != "fraction" and not amount.given:
+                unit = "kg" if amount.kind == "mass" else "m**3"
+                text = string(f"{number(amount.value)} {unit}")
+            out.append(f"{key(item_id)} = {text}")
+    return out
+
+
+def _envelope(env: Envelope, u: FileUnits) -> list[str]:
+    lf, mf = _factor(u.length, "length"), _factor(u.mass, "mass")
+    pts = ", ".join(f"[{number(c, lf)}, {number(m, mf)}]" for c, m in env.points)
+    out = ["[[envelope]]", f"name = {string(env.name)}", f"axis = {string(env.axis)}", f"points = [{pts}]"]
+    for k in sorted(env.extra):
+        out.append(f"{key(k)} = {value(env.extra[k])}")
+    return out
+
+
+def _is_table(v: object) -> bool:
+    """A table or an array of tables: these must come after every plain key."""
+    return isinstance(v, dict) or (isinstance(v, list) and bool(v) and all(isinstance(x, dict) for x in v))
+
+
+def ledger_to_toml(ledger: Ledger) -> str:
+    u = ledger.units
+    plain = {k: v for k, v in sorted(ledger.extra.items()) if not _is_table(v)}
+    blocks: list[list[str]] = [["steelyard = 1"] + [f"{key(k)} = {value(v)}" for k, v in plain.items()]]
+    units = {"mass": u.mass, "length": u.length, "inertia": u.inertia, **dict(sorted(u.extra.items()))}
+    blocks.append(["[units]"] + [f"{key(k)} = {string(v)}" for k, v in units.items()])
+    f = ledger.frame
+    blocks.append(["[frame]", f"x = {string(f.x)}", f"y = {string(f.y)}", f"z = {string(f.z)}"])
+    blocks.extend(_item(it, u) for it in ledger.items)
+    blocks.extend(_loadout(lo) for lo in ledger.loadouts)
+    blocks.extend(_envelope(env, u) for env in ledger.envelopes)
+    text = "\n\n".join("\n".join(b) for b in blocks) + "\n"
+    rest = tables({k: v for k, v in sorted(ledger.extra.items()) if _is_table(v)})
+    if rest:
+        text += "\n" + rest
+    return text

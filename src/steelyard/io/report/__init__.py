@@ -1,0 +1,2 @@
+"""Review reports (HTML, Markdown, text): weight statement, growth, envelopes with charts, change log.
+"""

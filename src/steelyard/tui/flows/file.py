@@ -1,0 +1,243 @@
+"""The App's file actions: load (in a thread, with progress), save, save as, open, quit.
+
+Saving asks instead of overwriting: when the file changed on disk, when the
+rewrite would drop hand-written comments, when Save as would replace another
+file, and when there is no file yet (the demo copy, a new ledger). Quitting
+with unsaved work asks too. The lock is taken on open and released on quit.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import os
+import time
+
+from textual import work
+
+from steelyard.core.errors import SteelyardError
+from steelyard.core.physics.groups import subtotals
+from steelyard.core.loading.loadout import resolve
+from steelyard.core.document.model import Ledger
+from steelyard.io.ledger.demo import demo_path
+from steelyard.io.ledger.file import ChangedOnDisk, CommentsWouldBeLost, open_ledger
+from steelyard.tui.screens.confirm import ConfirmScreen
+from steelyard.tui.screens.loading_screen import LoadingScreen
+from steelyard.tui.widgets.log_view import when
+from steelyard.tui.messages import Loaded, LoadFailed, LoadProgress
+from steelyard.tui.screens.prompt import TextPrompt
+from steelyard.tui.state.session import Session
+from steelyard.tui.text import clean
+
+
+def groups_of(ledger: Ledger, state) -> list:
+    """Group subtotals from core (run in a worker thread for big ledgers)."""
+    if state is None:
+        return []
+    return subtotals([it.group for it in ledger.items], state.mass, state.cg, state.own)
+
+
+class FileFlows:
+    """Needs `self.session`, `self.refresh_views()` and `self.update_title()` from the App."""
+
+    # ------------------------------------------------------------------ load
+    def start_load(self, path: str | None, *, first: bool) -> None:
+        what = "the demo ledger" if path is None else path
+        self._loading = LoadingScreen(what)
+        self.push_screen(self._loading)
+        # start reading once the progress screen is painted: a parser holding the GIL
+        # would otherwise keep even the first frame off the screen
+        self.call_after_refresh(self._load_worker, path, first)
+
+    @work(thread=True, exclusive=True, group="load", description="load ledger")
+    def _load_worker(self, path: str | None, first: bool) -> None:
+        last = [0.0]
+
+        def progress(phase: str, fraction: float | None = None) -> None:
+            now = time.monotonic()
+            if now - last[0] > 0.1:
+                last[0] = now
+                self.post_message(LoadProgress(phase, fraction))
+
+        demo = path is None
+        try:
+            if not demo and not os.path.exists(path):
+                loaded, ledger = None, Ledger()  # a new ledger, written on the first save
+            else:
+                loaded = open_ledger(str(demo_path()) if demo else path, progress=progress)
+                ledger = loaded.ledger
+            progress("adding up groups", None)
+            try:
+                state = resolve(ledger, None)
+            except SteelyardError:
+                state = None
+            groups = groups_of(ledger, state)
+        except SteelyardError as exc:
+            self.post_message(LoadFailed(str(exc), first))
+            return
+        self.post_message(Loaded(loaded, demo, groups, path))
+
+    def on_load_progress(self, message: LoadProgress) -> None:
+        if isinstance(self.screen, LoadingScreen):
+            self.screen.progress(message.phase, message.fraction)
+
+    def _close_loading(self) -> None:
+        if isinstance(self.screen, LoadingScreen):
+            self.pop_screen()
+
+    def on_load_failed(self, message: LoadFailed) -> None:
+        self._close_loading()
+        if message.first:
+            self.exit(return_code=2, message=f"steelyard: {message.error}")
+        else:
+            self.notify(message.error, title="Cannot open", severity="error", markup=False, timeout=8)
+
+    def on_loaded(self, message: Loaded) -> None:
+        self._close_loading()
+        if self.session is not None:
+            self.session.close_journal(discard=True)  # saved, or the user chose to discard (_keep_work)
+            self.session.release_lock()
+        ledger = message.loaded.ledger if message.loaded is not None else Ledger()
+        self.session = Session(ledger, loaded=message.loaded, path=message.path, demo=message.demo)
+        holder = self.session.claim_lock()
+        self.refresh_views(groups=message.groups)
+        if holder is None:
+            self.start_journal()
+        if message.demo:
+            self.notify("This is a copy of the demo ledger: Save as (W) writes it where you choose.",
+                        timeout=6, markup=False)
+        elif message.loaded is None:
+            self.notify(f"New ledger: {message.path} is written on the first save.", markup=False)
+        if holder is not None:
+            self._locked(holder)
+
+    def _locked(self, holder) -> None:
+        who = f"{clean(holder.user)}@{clean(holder.host)} (process {holder.pid}, since {when(holder.since)})"
+        if self.session.lock_is_stale():
+            def answer(choice: str | None) -> None:
+                if choice == "take":
+                    self.session.take_over_lock()
+                    self.notify("Lock taken over: you can edit and save.", markup=False)
+                    self.start_journal()  # the gone session's unsaved edits are offered here
+                self.update_title()
+                self.refresh_views()
+
+            self.push_screen(ConfirmScreen(
+                f"This file is locked by {who}, but that session looks gone (stale lock). Take the lock "
+                "over and edit? Choose read-only if someone may still be working on it.",
+                [("take", "Take over"), ("read", "Read-only")], title="File locked"), answer)
+        else:
+            self.notify(f"{who} is editing this file: opened read-only. Save as (W) keeps your work elsewhere.",
+                        title="Read-only", severity="warning", timeout=10, markup=False)
+        self.update_title()
+
+    # ------------------------------------------------------------------ save
+    def action_save(self) -> None:
+        if self.session is not None:
+            self._save_worker(None, False)
+
+    def action_save_as(self) -> None:
+        if self.session is not None:
+            self._save_worker("ask", False)
+
+    @work(exclusive=True, group="save", description="save")
+    async def _save_worker(self, path: str | None, quit_after: bool) -> None:
+        if await self.save_steps(path) and quit_after:
+            await self._quit_now()
+
+    async def _ask(self, question: str, answers, title: str = "Please choose") -> str:
+        return await self.push_screen_wait(ConfirmScreen(question, answers, title=title))
+
+    async def _ask_path(self, title: str, value: str = "") -> str | None:
+        hint = "a ledger file path (TOML), relative to " + os.getcwd()
+        return await self.push_screen_wait(TextPrompt(title, value, hint=hint, placeholder="ledger.toml"))
+
+    async def save_steps(self, path: str | None) -> bool:
+        """Save, asking whatever needs asking; True when the ledger is on disk."""
+        s = self.session
+        if path == "ask" or (path is None and s.path is None):
+            path = await self._ask_path("Save as", s.path or "")
+            if not path:
+                return False
+            path = os.path.expanduser(path)
+            same = s.path is not None and os.path.realpath(path) == os.path.realpath(s.path)
+            if not same and os.path.exists(path):
+                if await self._ask(f"{path} exists. Replace it?", [("replace", "Replace"),
+                                                                   ("cancel", "Cancel")]) != "replace":
+                    return False
+        flags: dict[str, bool] = {}
+        old_path = s.path
+        while True:
+            snap = s.snapshot()
+            try:
+                written = await asyncio.to_thread(s.save, path, snapshot=snap, **flags)
+            except ChangedOnDisk:
+                choice = await self._ask(
+                    "The file changed on disk since it was opened (someone else saved it?). Overwrite their "
+                    "version, or save yours under another name?",
+                    [("overwrite", "Overwrite"), ("save_as", "Save as…"), ("cancel", "Cancel")], "Changed on disk")
+                if choice == "overwrite":
+                    flags["overwrite_changed"] = True
+                    continue
+                return await self.save_steps("ask") if choice == "save_as" else False
+            except CommentsWouldBeLost:
+                choice = await self._ask(
+                    "This file has hand-written comments. Saving rewrites it in canonical form and drops "
+                    "them. Save anyway?", [("save", "Save, drop comments"), ("save_as", "Save as…"),
+                                           ("cancel", "Cancel")], "Comments")
+                if choice == "save":
+                    flags["allow_comment_loss"] = True
+                    continue
+                return await self.save_steps("ask") if choice == "save_as" else False
+            except SteelyardError as exc:
+                self.notify(str(exc), title="Not saved", severity="error", markup=False, timeout=8)
+                return False
+            except OSError as exc:
+                self.notify(f"{path or s.path}: cannot write ({exc.strerror})", title="Not saved",
+                            severity="error", markup=False, timeout=8)
+                return False
+            break
+        moved = old_path is None or os.path.realpath(old_path) != os.path.realpath(written)
+        s.journal_saved(snap[0], moved=moved)
+        self._journal_warning()
+        self.notify(f"saved {written}", markup=False, timeout=3)
+        self.update_title()
+        self.refresh_views()
+        return True
+
+    # ------------------------------------------------------------ open, quit
+    def action_open(self) -> None:
+        self._open_worker()
+
+    @work(exclusive=True, group="open")
+    async def _open_worker(self) -> None:
+        if self.session is not None and self.session.dirty and not await self._keep_work("opening another file"):
+            return
+        path = await self._ask_path("Open ledger")
+        if path:
+            self.start_load(os.path.expanduser(path), first=False)
+
+    async def _keep_work(self, doing: str) -> bool:
+        """Ask about unsaved work; True when it is safe to go on."""
+        choice = await self._ask(f"There are unsaved changes. Save them before {doing}?",
+                                 [("save", "Save"), ("discard", "Discard"), ("cancel", "Cancel")], "Unsaved work")
+        if choice == "save":
+            return await self.save_steps(None)
+        return choice == "discard"
+
+    async def action_quit(self) -> None:
+        if self.session is None or not self.session.dirty:
+            await self._quit_now()
+        else:
+            self._quit_worker()
+
+    @work(exclusive=True, group="quit")
+    async def _quit_worker(self) -> None:
+        if await self._keep_work("quitting"):
+            await self._quit_now()
+
+    async def _quit_now(self) -> None:
+        """Quit on purpose: nothing unsaved is wanted any more (saved, discarded, or none), so the journal goes."""
+        if self.session is not None:
+            self.session.close_journal(discard=True)
+            self.session.release_lock()
+        self.exit(0)

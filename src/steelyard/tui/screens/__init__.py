@@ -1,0 +1,2 @@
+"""Full screens and modal dialogs of the editor.
+"""

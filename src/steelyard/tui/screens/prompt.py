@@ -1,0 +1,40 @@
+"""A one-line question answered by typing: a file name, a group path."""
+
+from __future__ import annotations
+
+from rich.text import Text
+from textual import on
+from textual.binding import Binding
+from textual.containers import Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Input, Static
+
+from steelyard.tui.text import clean
+
+
+class TextPrompt(ModalScreen[str | None]):
+    """Enter answers (the text, stripped), Escape gives None."""
+
+    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+
+    def __init__(self, title: str, value: str = "", *, hint: str = "", placeholder: str = "") -> None:
+        super().__init__()
+        self.heading, self.value, self.hint, self.placeholder = title, value, hint, placeholder
+
+    def compose(self):
+        with Vertical(classes="dialog"):
+            yield Static(Text(self.heading, style="bold"), classes="dialog-title")
+            if self.hint:
+                yield Static(Text(clean(self.hint), style="dim"), classes="dialog-text")
+            yield Input(self.value, placeholder=self.placeholder, id="prompt-input")
+            yield Static("Enter to accept, Escape to cancel", classes="dialog-text")
+
+    def on_mount(self) -> None:
+        self.query_one(Input).focus()
+
+    @on(Input.Submitted)
+    def _submitted(self, event: Input.Submitted) -> None:
+        self.dismiss(event.value.strip())
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
