@@ -72,7 +72,20 @@ def item_subject(item_id: object) -> str:
     return f"item {item_id!r}" if isinstance(item_id, str) else f"item #{item_id}"
 
 
-_REPR = Repr()
+class _Said(Repr):
+    """repr, shortened, and with numpy values shown as the plain numbers they are:
+    a message says "got -225.0", never "got np.float64(-225.0)"."""
+
+    def repr1(self, x, level):
+        if type(x).__module__ == "numpy" and hasattr(x, "tolist"):
+            try:
+                x = x.tolist()  # a numpy scalar -> int/float/bool; an array -> nested lists
+            except Exception:  # pragma: no cover - an exotic numpy object: its own repr
+                pass
+        return super().repr1(x, level)
+
+
+_REPR = _Said()
 _REPR.maxstring, _REPR.maxlong, _REPR.maxother = 80, 40, 80
 #: a value quoted in an error message, shortened when huge (a 400-digit number, a 4 MB name)
 said = _REPR.repr

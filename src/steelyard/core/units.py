@@ -8,6 +8,11 @@ with its unit ("41.5 lb") is parsed once per distinct string (cached).
 Building the registry itself takes about half a second, so it is built only
 when a unit outside the table of common exact factors below is met; a test
 checks every table entry against pint.
+
+Text is read strictly, because pint reads what a person mistypes as
+something else ("41,5 lb" as 415 lb, "3 2 in" as 6 in, "1 kg 2" as 2 kg): a
+value is one ASCII number and one unit (or, for a length, a sum such as
+"3 ft 2 in"), and anything else is refused with the reason.
 """
 
 from __future__ import annotations
@@ -59,7 +64,6 @@ EXACT: dict[str, tuple[str, Fraction]] = {
     "m**3": ("volume", Fraction(1)), "L": ("volume", Fraction(1, 1000)), "gal": ("volume", _GAL),
     "kg/m**3": ("density", Fraction(1)), "kg/L": ("density", Fraction(1000)), "lb/gal": ("density", _LB / _GAL),
 }
-_SIMPLE = re.compile(r"^\s*([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z*/0-9]+)\s*$")
 
 #: dimension name -> (pint dimensionality, SI unit string)
 DIMENSIONS: dict[str, tuple[str, str]] = {
@@ -69,6 +73,7 @@ DIMENSIONS: dict[str, tuple[str, str]] = {
     "volume": ("[length] ** 3", "m ** 3"),
     "density": ("[mass] / [length] ** 3", "kg / m ** 3"),
     "moment": ("[mass] * [length]", "kg * m"),
+    "force": ("[mass] * [length] / [time] ** 2", "N"),
     "dimensionless": ("[]", ""),
 }
 
@@ -80,8 +85,23 @@ SYSTEMS: dict[str, dict[str, str]] = {
            "volume": "gal", "density": "lb/gal"},
 }
 
-_NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
-_TERM = re.compile(rf"\s*({_NUMBER})\s*([A-Za-z_][A-Za-z_0-9*/^ ]*?)\s*(?=$|{_NUMBER})")
+
+#: a number as a person types it: ASCII digits only (float() also takes "1_5" and other scripts' digits)
+NUMBER = r"[-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
+_NUMBER = re.compile(NUMBER)
+_LEAD = re.compile(rf"({NUMBER})\s*")
+_UNSIGNED = r"(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
+_SUM_TERM = re.compile(rf"({_UNSIGNED})\s*([A-Za-z_]+)\s*")
+_SUM = re.compile(rf"(?:{_UNSIGNED}\s*[A-Za-z_]+\s*){{2,}}")
+_DECIMAL_COMMA = re.compile(r"[0-9],[0-9]")
+_THOUSANDS = re.compile(r"[0-9],[0-9]{3}(?![0-9])")
+_EXPONENT = re.compile(r"(?:\*\*|\^)\s*[-+]?[0-9]+")
+_DIGIT = re.compile(r"\d")  # any script's digit: none belongs in a unit once exponents are gone
+_OPERATORS = re.compile(r"\s*(\*\*|[*/^()])\s*")
+_NONZERO = re.compile(r"[1-9]")
+#: what a value of each dimension looks like, for messages
+EXAMPLES = {"mass": "41.5 lb", "length": "122 in", "inertia": "0.8 slug*ft**2", "volume": "30 gal",
+            "density": "6 lb/gal", "moment": "120 lb*in", "force": "650 lbf", "dimensionless": "12 %"}
 
 
 def _dimensionality(dimension: str):
@@ -92,78 +112,163 @@ def _dimensionality(dimension: str):
 
 
 @lru_cache(maxsize=512)
-def unit_factor(unit: str, dimension: str) -> float:
-    """Factor that turns a number in `unit` into SI for `dimension`.
+def exact_factor(unit: str, dimension: str) -> Fraction:
+    """Exact rational factor that turns a number in `unit` into SI for `dimension`.
 
-    Raises UnitError for an unknown unit or one of the wrong dimension.
+    Raises UnitError for an unknown unit, one of the wrong dimension, or one with
+    a number in it ("kg 2" is pint's kg times 2: a typo, never a unit).
     """
     if not isinstance(unit, str) or not unit.strip():
-        raise UnitError(f"unit must be a non-empty string, got {unit!r}")
-    known = EXACT.get(unit.replace(" ", ""))
+        raise UnitError(f"unit must be a non-empty string, got {said(unit)}")
+    known = EXACT.get(_OPERATORS.sub(r"\1", unit.strip()).replace("^", "**"))
     if known is not None:
         if known[0] != dimension:
-            raise UnitError(f"unit {unit!r} is not a {dimension} unit")
-        return float(known[1])
+            raise UnitError(f"unit {said(unit)} is not a {dimension} unit")
+        return known[1]
+    if _DIGIT.search(_EXPONENT.sub("", unit)):
+        raise UnitError(f"unit {said(unit)} has a number in it; write one number, then its unit")
     try:
         q = registry().Quantity(Fraction(1), unit)
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError) as exc:
-        raise UnitError(f"unknown unit {unit!r}") from exc
+        raise UnitError(f"unknown unit {said(unit)}") from exc
     except Exception as exc:  # pint raises assorted errors on odd strings
-        raise UnitError(f"cannot read unit {unit!r} ({type(exc).__name__})") from exc
+        raise UnitError(f"cannot read unit {said(unit)} ({type(exc).__name__})") from exc
     if q.dimensionality != _dimensionality(dimension):
-        raise UnitError(f"unit {unit!r} is not a {dimension} unit")
-    factor = float(q.to(DIMENSIONS[dimension][1]).magnitude)
-    if not math.isfinite(factor) or factor <= 0:
-        raise UnitError(f"unit {unit!r} has no usable size")
+        raise UnitError(f"unit {said(unit)} is not a {dimension} unit")
+    try:
+        factor = Fraction(q.to(DIMENSIONS[dimension][1]).magnitude)
+        size = float(factor)
+    except (TypeError, ValueError, OverflowError, ZeroDivisionError):
+        size = math.nan
+    if not math.isfinite(size) or size <= 0:
+        raise UnitError(f"unit {said(unit)} has no usable size")
     return factor
+
+
+@lru_cache(maxsize=512)
+def unit_factor(unit: str, dimension: str) -> float:
+    """Factor that turns a number in `unit` into SI for `dimension` (exact_factor, rounded once)."""
+    return float(exact_factor(unit, dimension))
+
+
+def _decimal(number: str) -> Fraction | None:
+    """The exact value of a number's text; None for spellings too long to expand cheaply
+    ("1e999999999" would build a billion-digit integer)."""
+    _, _, exponent = number.lower().partition("e")
+    if len(number) > 60 or (exponent and (len(exponent) > 5 or abs(int(exponent)) > 400)):
+        return None
+    return Fraction(number)
+
+
+def _checked(value: float, number: str, text: str) -> float:
+    """`value` read from `number`; refuse what a float cannot hold instead of turning it into inf or 0."""
+    if not math.isfinite(value):
+        raise UnitError(f"{said(text)} is too large to represent")
+    if value == 0.0 and _NONZERO.search(number.lower().partition("e")[0]):
+        raise UnitError(f"{said(text)} is too small to represent (it would read as 0)")
+    return value
+
+
+def _times(number: str, factor: Fraction, text: str) -> float:
+    exact = _decimal(number)
+    try:
+        value = float(number) * float(factor) if exact is None else float(exact * factor)
+    except OverflowError:
+        value = math.inf
+    return _checked(value, number, text)
+
+
+def number_problem(text: str) -> str | None:
+    """Why `text` is not a plain number ("41,5", "1_5", "٤٢", "nan"), or None when it is one."""
+    s = text.strip()
+    if _NUMBER.fullmatch(s):
+        return None
+    if _DECIMAL_COMMA.search(s):
+        return _comma_message(text, s)
+    if s.lower().lstrip("+-") in ("inf", "infinity", "nan"):
+        return f"must be a finite number, got {said(text)}"
+    return f"must be a number written in ASCII digits (such as 41.5 or -3e2), got {said(text)}"
+
+
+def _comma_message(text: str, s: str) -> str:
+    if _THOUSANDS.search(s):
+        return f"{said(text)}: commas are not read in numbers; use a decimal point (41.5) and no thousands separator"
+    return f"{said(text)}: use a decimal point: {s.replace(',', '.')}"
+
+
+def parse_number(text: str) -> float:
+    """A bare number as typed ("-1e3", "41.5"), strictly: ASCII digits, a decimal point, no
+    underscores, and nothing that would silently become inf or 0. Raises UnitError saying why."""
+    problem = number_problem(text)
+    if problem:
+        raise UnitError(problem)
+    s = text.strip()
+    return _checked(float(s), s, text)
 
 
 @lru_cache(maxsize=65536)
 def parse_quantity(text: str, dimension: str) -> float:
-    """Parse "41.5 lb" (or "3 ft 2 in") into an SI float of `dimension`.
+    """Parse one number and its unit ("41.5 lb") into an SI float of `dimension`.
 
-    A bare number in the string is rejected: its unit would be a guess.
+    A length may also be a sum of unsigned terms, largest unit first ("3 ft 2 in").
+    Anything else is refused with the reason: a bare number (its unit would be a
+    guess), a decimal comma, a second number ("3 2 in", "1 kg 2"), a minus in
+    front of a sum ("-3 ft 2 in": is the 2 in added or taken away?).
     """
     s = text.strip()
     if not s:
         raise UnitError("empty value")
-    simple = _SIMPLE.match(s)
-    if simple and simple.group(2) in EXACT:
-        dim, factor = EXACT[simple.group(2)]
-        if dim != dimension:
-            raise UnitError(f"{text!r} is not a {dimension}")
-        try:
-            return _finite(float(Fraction(simple.group(1)) * factor), text)
-        except OverflowError:
-            raise UnitError(f"{text!r} is too large to represent") from None
-    terms = _TERM.findall(s)
-    if len(terms) > 1 and "".join(f"{n}{u}" for n, u in terms).replace(" ", "") == s.replace(" ", ""):
-        # "3 ft 2 in": a sum of terms of one dimension
-        total = 0.0
-        for number, unit in terms:
-            total += float(number) * unit_factor(unit.strip(), dimension)
-        return _finite(total, text)
+    example = EXAMPLES.get(dimension, f"1 {DIMENSIONS[dimension][1]}")
+    if _DECIMAL_COMMA.search(s):
+        raise UnitError(_comma_message(text, s))
+    lead = _LEAD.match(s)
+    if lead is None:
+        if s.split()[0].lower().lstrip("+-") in ("inf", "infinity", "nan"):
+            raise UnitError(f"{said(text)} is not a finite number")
+        raise UnitError(f"{said(text)} must start with a number in ASCII digits, e.g. '{example}'")
+    number, unit = lead.group(1), s[lead.end():]
+    if not unit:
+        if dimension == "dimensionless":
+            return _checked(float(number), number, text)
+        raise UnitError(f"{said(text)} has no unit; write e.g. '{s} {DIMENSIONS[dimension][1]}'")
+    if _DIGIT.search(_EXPONENT.sub("", unit)):
+        return _sum(s, text, dimension, example)
     try:
-        q = registry().parse_expression(s)
-    except Exception as exc:
-        raise UnitError(f"cannot read {text!r} as a {dimension}") from exc
-    if not isinstance(q, pint.Quantity):
-        raise UnitError(f"{text!r} has no unit; write e.g. '{text} {DIMENSIONS[dimension][1]}'")
-    if q.dimensionality != _dimensionality(dimension):
-        raise UnitError(f"{text!r} is not a {dimension}")
+        factor = exact_factor(unit, dimension)
+    except UnitError as exc:
+        raise UnitError(f"{said(text)}: {exc.message}") from None
+    return _times(number, factor, text)
+
+
+def _sum(s: str, text: str, dimension: str, example: str) -> float:
+    """ "3 ft 2 in": unsigned terms, each unit smaller than the one before."""
+    signed = s[0] in "+-"
+    body = s[1:].lstrip() if signed else s
+    if dimension != "length" or not _SUM.fullmatch(body):
+        also = " (or a sum of lengths such as '3 ft 2 in')" if dimension == "length" else ""
+        raise UnitError(f"{said(text)}: write one number and one unit, e.g. '{example}'{also}")
+    terms = _SUM_TERM.findall(body)
     try:
-        value = float(q.to(DIMENSIONS[dimension][1]).magnitude)
+        factors = [exact_factor(unit, "length") for _, unit in terms]
+    except UnitError as exc:
+        raise UnitError(f"{said(text)}: {exc.message}") from None
+    if any(a <= b for a, b in zip(factors, factors[1:])):
+        raise UnitError(f"{said(text)}: in a sum of lengths each unit must be smaller than the one before, "
+                        "e.g. '3 ft 2 in'")
+    exact = [_decimal(n) for n, _ in terms]
+    if any(x is None for x in exact):
+        raise UnitError(f"{said(text)}: write one number and one unit, e.g. '{example}'")
+    total = sum((x * f for x, f in zip(exact, factors)), Fraction(0))
+    if s[0] == "-":
+        last = total / factors[-1]
+        shown = str(last.numerator) if last.denominator == 1 else f"{float(last):.12g}"
+        raise UnitError(f"{said(text)}: a minus in front of a sum of lengths is ambiguous; write one number "
+                        f"and one unit, e.g. '-{shown} {terms[-1][1]}'")
+    try:
+        value = float(total)
     except OverflowError:
-        raise UnitError(f"{text!r} is too large to represent") from None
-    except (TypeError, ValueError) as exc:
-        raise UnitError(f"cannot read {text!r} as a number") from exc
-    return _finite(value, text)
-
-
-def _finite(value: float, text: str) -> float:
-    if not math.isfinite(value):
-        raise UnitError(f"{text!r} is not a finite number")
-    return value
+        value = math.inf
+    return _checked(value, "".join(n for n, _ in terms), text)
 
 
 def to_si(value: object, dimension: str, file_unit: str) -> float:
@@ -175,7 +280,11 @@ def to_si(value: object, dimension: str, file_unit: str) -> float:
             out = float(value) * unit_factor(file_unit, dimension)
         except OverflowError:
             raise UnitError(f"{str(value)[:20]}… is too large to represent") from None
-        return _finite(out, repr(value))
+        if not math.isfinite(out):
+            raise UnitError(f"{said(value)} is not a finite number")
+        if out == 0.0 and value != 0:
+            raise UnitError(f"{said(value)} {file_unit} is too small to represent (it would read as 0)")
+        return out
     if isinstance(value, str):
         return parse_quantity(value, dimension)
     raise UnitError(f"expected a {dimension} (number or string with unit), got {type(value).__name__}")

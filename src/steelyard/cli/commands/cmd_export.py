@@ -36,6 +36,13 @@ def _write(out: str, text: str, *, bom: bool = False) -> None:
     write_atomic(out, data)
 
 
+def _for_terminal(csv_text: str) -> str:
+    """CSV shown on a terminal: each control character in a cell as a visible symbol (␛, ␇, ␍)."""
+    from steelyard.core.display import visible
+
+    return "\n".join(visible(line) for line in csv_text.split("\n"))
+
+
 def run(args) -> int:
     from steelyard.core.errors import SteelyardError
     from steelyard.cli.loading import load_for_cli
@@ -55,8 +62,10 @@ def run(args) -> int:
         if args.csv:
             from steelyard.io.exchange.csv_io import ledger_to_csv
 
-            texts.append((args.csv, ledger_to_csv(loaded.ledger, system=args.units,
-                                                  decimal_comma=args.decimal_comma)))
+            text = ledger_to_csv(loaded.ledger, system=args.units, decimal_comma=args.decimal_comma)
+            if args.csv == "-" and sys.stdout.isatty():
+                text = _for_terminal(text)  # shown, not saved: no ESC, BEL or CR from a name reaches the terminal
+            texts.append((args.csv, text))
         if args.json:
             from steelyard.io.exchange.json_export import export_json
 

@@ -15,17 +15,27 @@ units, strings with a unit ("150 in"), or for x stations "25 %mac".
 from __future__ import annotations
 
 import json
+import re
 import sys
 
 NAME = "solve"
 HELP = "weight shift, weight added, ballast and payload remaining for a loadout"
 MODES = ("shift", "add", "ballast", "payload")
+#: a value that starts "-" then a digit (or "-."), as in "-1e3", "-3in", "-.5": a negative number, never an
+#: option. argparse's own test knows only "-2000" and "-0.5", so "--mass -1e3" failed as a missing argument.
+NEGATIVE_NUMBER = re.compile(r"^-\.?[0-9]")
+
+
+def _negatives_are_values(parser) -> None:
+    """Let option values be negative numbers in any spelling (no option of `solve` looks like one)."""
+    parser._negative_number_matcher = NEGATIVE_NUMBER  # argparse's hook for this (a parser attribute)
 
 
 def add_arguments(p) -> None:
     sub = p.add_subparsers(dest="mode", metavar="MODE", required=True)
 
     def common(q):
+        _negatives_are_values(q)
         q.add_argument("file", help="ledger file (TOML)")
         q.add_argument("--loadout", metavar="NAME", help="the loadout (default: variable items empty)")
         q.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")

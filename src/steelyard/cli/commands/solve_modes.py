@@ -10,14 +10,14 @@ import math
 import numpy as np
 
 from steelyard.core.display import DisplayUnits, fmt, pretty_unit
-from steelyard.core.errors import SteelyardError, UnitError
+from steelyard.core.errors import SteelyardError, UnitError, said
 from steelyard.core.limits.rules import applies, envelope_specs, fuel_rows, limit_specs, mac_reference, zero_fuel_fill
 from steelyard.core.loading.loadout import fill_fractions, loadout_condition, state_from_fill
 from steelyard.core.document.model import Ledger
 from steelyard.core.physics.rollup import rollup_state
 from steelyard.core.limits.solvers import add_mass, ballast_for_limit, ballast_to_enter, payload_remaining, weight_shift
 from steelyard.core.limits.status import AXIS_INDEX, geometry
-from steelyard.core.units import parse_quantity, to_si
+from steelyard.core.units import number_problem, parse_number, parse_quantity, to_si
 
 
 class _Ctx:
@@ -51,9 +51,9 @@ class _Ctx:
             if self.mac is None or self.axis != "x":
                 raise SteelyardError("%MAC needs the file's [mac] table and the x axis", field=option)
             try:
-                return float(self.mac.station(float(t.lower().replace(" ", "")[:-4])))
-            except ValueError:
-                raise SteelyardError(f"cannot read {text!r} as a %MAC", field=option) from None
+                return float(self.mac.station(parse_number(t.lower().replace(" ", "")[:-4])))
+            except UnitError as exc:
+                raise SteelyardError(f"cannot read {said(text)} as a %MAC ({exc.message})", field=option) from None
         return self._value(t, "length", self.ledger.units.length, option)
 
     def mass_value(self, text: str, option: str) -> float:
@@ -61,11 +61,11 @@ class _Ctx:
 
     @staticmethod
     def _value(t: str, dimension: str, unit: str, option: str) -> float:
+        """A bare number in the file's unit, or a number with its unit; strictly (core.units)."""
         try:
-            try:
-                return to_si(float(t), dimension, unit)
-            except ValueError:
-                return parse_quantity(t, dimension)
+            if number_problem(t) is None or not any(ch.isalpha() or ch == "%" for ch in t):
+                return to_si(parse_number(t), dimension, unit)
+            return parse_quantity(t, dimension)
         except UnitError as exc:
             raise exc.located(field=option)
 
@@ -131,7 +131,11 @@ def _shift(c: _Ctx) -> tuple[dict, list[str]]:
 
 def _add(c: _Ctx) -> tuple[dict, list[str]]:
     w, s = c.mass_value(c.args.mass, "--mass"), c.length(c.args.station, "--station")
+    if not c.mass + w > 0:  # worded here, in the file's units and as typed (the solver's message is in kg)
+        raise SteelyardError(f"{said(c.args.mass)} removes {c.m(-w)}, and the loadout has {c.m(c.mass)}: "
+                             "no mass would be left", field="--mass")
     new_mass, new_cg = add_mass(c.mass, c.cg, w, s)
+    _finite(new_mass=new_mass, new_cg=new_cg)
     rec = {"mode": "add", "mass_kg": c.mass, "cg_m": c.cg, "axis": c.axis, "added_kg": w, "station_m": s,
            "new_mass_kg": new_mass, "new_cg_m": new_cg, "envelopes": []}
     lines = [c.head(), f"{'Add' if w >= 0 else 'Remove'} {c.m(abs(w))} at {c.l(s)}: mass {c.m(new_mass)}, "
@@ -227,8 +231,29 @@ def _payload(c: _Ctx) -> tuple[dict, list[str]]:
     return rec, lines
 
 
+_WORDS = {"new_mass": "the new mass", "new_cg": "the new CG", "moved_kg": "the mass to move",
+          "ballast_kg": "the ballast", "payload_kg": "the payload", "new_mass_kg": "the new mass",
+          "new_cg_m": "the new CG", "target_cg_m": "the target CG", "kg": "a mass limit"}
+
+
+def _finite(**values) -> None:
+    """An answer that overflowed (1e308 lb at 1e308 in) is refused, not printed as "CG inf in"."""
+    for key, v in values.items():
+        if isinstance(v, dict):
+            _finite(**v)
+        elif isinstance(v, (list, tuple)):
+            for x in v:
+                _finite(**(x if isinstance(x, dict) else {key: x}))
+        elif isinstance(v, float) and not math.isfinite(v):
+            raise SteelyardError(f"{_WORDS.get(key, key)} comes out as {v}: the values given are too large "
+                                 "to compute with")
+
+
 def solve(ledger: Ledger, args) -> tuple[dict, list[str]]:
     c = _Ctx(ledger, args)
-    rec, lines = {"shift": _shift, "add": _add, "ballast": _ballast, "payload": _payload}[args.mode](c)
+    # huge inputs may overflow inside the solvers; the answer is checked below instead of warned about
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
+        rec, lines = {"shift": _shift, "add": _add, "ballast": _ballast, "payload": _payload}[args.mode](c)
+    _finite(**rec)
     rec["loadout"] = args.loadout
     return rec, lines

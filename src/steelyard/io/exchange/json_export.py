@@ -18,6 +18,7 @@ from steelyard.core.loading.loadout import resolve
 from steelyard.core.document.model import Ledger
 from steelyard.io.report.control import tolerance_si
 from steelyard.io.report.control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth
+from steelyard.io.exchange.csv_model import item_more
 from steelyard.io.exchange.rollup_json import rollup_record
 
 FORMAT = "steelyard-export"
@@ -44,7 +45,7 @@ def items_record(ledger: Ledger) -> list[dict]:
                "quantity": it.quantity, "cg_m": cg[i], "variable": it.variable,
                "inertia_kg_m2": own[i] if (it.inertia is not None or it.shape is not None) else None,
                "density_kg_m3": it.density}
-        extra = it.extra or {}
+        extra = item_more(it)
         if "maturity" in extra:
             row["maturity"] = extra["maturity"]
         if "maturity" in extra or "growth" in extra:
@@ -69,7 +70,10 @@ def export_record(ledger: Ledger, *, source: str | None = None, samples: int = D
         "rollup": rollup_record(ledger, None),
         "loadouts": [rollup_record(ledger, lo.name) for lo in ledger.loadouts],
     }
-    control = control_record(ledger, resolve(ledger, None), samples=samples, seed=seed)
+    # Denormal masses (5e-324 kg) overflow the uncertainty figures' divisions (core.control.uncertainty);
+    # such a figure becomes null below (`_num`) instead of a RuntimeWarning on the user's terminal.
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
+        control = control_record(ledger, resolve(ledger, None), samples=samples, seed=seed)
     if control:
         out["control"] = control
     return out

@@ -1,0 +1,143 @@
+"""What one CSV cell may hold, both ways: columns, numbers, text, quoting.
+
+- Numbers are ASCII decimals only. Python's float() also reads "1_5" as 15
+  and Arabic-Indic or full-width digits as if they were ASCII, and turns
+  "1e-400" into 0 and "1e400" into inf without a word: a spreadsheet cell
+  that says any of these is refused, with its line and column.
+- Text (id, name, group, maturity) is kept verbatim: spaces are data (RFC 4180:
+  "Spaces are considered part of a field and should not be ignored").
+- A text cell that a spreadsheet would run as a formula (first character
+  = + - @ TAB or CR, the OWASP CSV-injection list) is written with a leading
+  apostrophe; see `protect` for the rule that makes this reversible.
+- A cell is quoted (RFC 4180 §2.6-2.7) when it holds the separator, a quote,
+  CR or LF, or starts or ends with white space.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+
+import numpy as np
+
+from steelyard.core.physics.inertia import COMPONENTS
+from steelyard.core.units import NUMBER
+
+#: column key -> dimension of its numbers (None: no unit), in export order
+COLUMNS: dict[str, str | None] = {
+    "id": None, "name": None, "group": None, "mass": "mass", "x": "length", "y": "length", "z": "length",
+    "quantity": None, "variable": None, **{c: "inertia" for c in COMPONENTS}, "density": "density",
+    "maturity": None, "growth": None, "tol kind": None, "tol mass": "mass", "tol x": "length",
+    "tol y": "length", "tol z": "length", "other": None,
+}
+REQUIRED = ("id", "mass", "x", "y", "z")
+#: columns whose cells are free text: verbatim, formula-protected
+TEXT_COLUMNS = ("id", "name", "group", "maturity")
+CONTROL_KEYS = ("maturity", "growth", "tolerance")
+TOL_COLUMNS = ("tol kind", "tol mass", "tol x", "tol y", "tol z")
+HEADER = re.compile(r"^(?P<name>[^\[\]]*?)\s*(?:\[(?P<unit>[^\[\]]*)\])?$")
+SI_UNIT = {"mass": "kg", "length": "m", "inertia": "kg*m**2", "density": "kg/m**3"}
+TRUE, FALSE = {"true", "yes", "y", "1"}, {"false", "no", "n", "0", ""}
+
+# ------------------------------------------------------------------------------ text cells
+
+#: first characters a spreadsheet may take as the start of a formula (OWASP, CSV injection)
+FORMULA_LEAD = "=+-@\t\r"
+_NEEDS_GUARD = re.compile(r"'*[=+\-@\t\r]")
+_GUARDED = re.compile(r"'+[=+\-@\t\r]")
+
+
+def protect(text: str) -> str:
+    """Text as written to a cell: one apostrophe more in front when, after any apostrophes
+    it already starts with, its first character is one of = + - @ TAB CR.
+
+    "=SUM(A1)" -> "'=SUM(A1)", "'=x" -> "''=x", "'quoted'" unchanged: `unprotect`
+    inverts it for every text, so export then import gives the text back.
+    """
+    return "'" + text if _NEEDS_GUARD.match(text) else text
+
+
+def unprotect(cell: str) -> str:
+    """The text a cell stands for: one leading apostrophe removed where `protect` adds one."""
+    return cell[1:] if _GUARDED.match(cell) else cell
+
+
+def _needs_quotes(cell: str, sep: str) -> bool:
+    return (sep in cell or '"' in cell or "\n" in cell or "\r" in cell
+            or (cell != "" and (cell[0].isspace() or cell[-1].isspace())))
+
+
+def row_text(cells: list[str], sep: str) -> str:
+    """One CSV record (RFC 4180): quoted where needed, quotes doubled, "\\n" at the end."""
+    return sep.join('"' + c.replace('"', '""') + '"' if _needs_quotes(c, sep) else c for c in cells) + "\n"
+
+
+# ------------------------------------------------------------------------------ number cells
+
+def number_text(si: float, factor: float, decimal_comma: bool = False) -> str:
+    """Short text t for si/factor with float(t) * factor == si exactly when one exists."""
+    v = si / factor + 0.0  # + 0.0 turns -0.0 into 0.0
+    text = f"{v:.17g}"
+    for digits in (12, 15, 16, 17):
+        t = f"{v:.{digits}g}"
+        if float(t) * factor == si:
+            text = t
+            break
+    else:  # the quotient's own rounding is off; a neighbour may multiply back exactly
+        up = down = v
+        for _ in range(4):
+            up, down = math.nextafter(up, math.inf), math.nextafter(down, -math.inf)
+            hit = next((c for c in (up, down) if c * factor == si), None)
+            if hit is not None:
+                text = repr(hit)
+                break
+    return text.replace(".", ",") if decimal_comma else text
+
+
+_CELL = re.compile(NUMBER)
+_COLUMN = re.compile(rf"(?:(?:{NUMBER})?\n)*")
+_NONZERO = re.compile(r"[1-9]")
+
+
+def cell_problem(cell: str, decimal_comma: bool) -> str | None:
+    """Why a (stripped) number cell is not a plain ASCII decimal, or None."""
+    work = cell.replace(",", ".") if decimal_comma else cell
+    if decimal_comma and "." in cell:
+        return f"{cell!r}: with --decimal-comma write a decimal comma and no thousands separator"
+    if work == "" or _CELL.fullmatch(work):
+        return None
+    if work.lower().lstrip("+-") in ("nan", "inf", "infinity"):
+        return f"must be a finite number, got {cell!r}"
+    hint = " (decimal commas? use --decimal-comma)" if "," in cell and not decimal_comma else ""
+    return f"must be a bare number in ASCII digits, got {cell!r}{hint}"
+
+
+def parse_cells(cells: list[str], decimal_comma: bool) -> tuple[np.ndarray, np.ndarray, int | None, str]:
+    """(values, blank mask, first bad row or None, why) for a column of stripped cells.
+
+    One regular-expression pass checks the whole column; numpy then converts it. A
+    literal that is not zero but reads as 0.0 (underflow) or that reads as inf is bad.
+    Messages quote the cell as written.
+    """
+    n = len(cells)
+    blank = np.fromiter((c == "" for c in cells), bool, n)
+    work = cells
+    if decimal_comma:
+        dot = next((k for k, c in enumerate(cells) if "." in c), None)
+        if dot is not None:
+            return np.full(n, np.nan), blank, dot, cell_problem(cells[dot], True) or ""
+        work = [c.replace(",", ".") for c in cells]
+    joined = "\n".join(work) + "\n"
+    if joined.count("\n") != n or not _COLUMN.fullmatch(joined):
+        k = next(k for k, c in enumerate(cells) if "\n" in c or cell_problem(c, decimal_comma))
+        return np.full(n, np.nan), blank, k, (cell_problem(cells[k], decimal_comma)
+                                              or f"must be a bare number, got {cells[k]!r}")
+    vals = np.array([c or "nan" for c in work], dtype=float)
+    big = np.isinf(vals)
+    if big.any():
+        k = int(np.argmax(big))
+        return vals, blank, k, f"{cells[k]!r} is too large to represent"
+    for k in np.flatnonzero(vals == 0.0).tolist():
+        if _NONZERO.search(work[k].lower().partition("e")[0]):
+            return vals, blank, k, f"{cells[k]!r} is too small to represent (it would read as 0)"
+    return vals, blank, None, ""

@@ -1,0 +1,77 @@
+"""An imported ledger must open: write it, read it back with the ledger reader, say where.
+
+The import builds items from cells, but only the reader (and the checks every
+command runs) decides what a ledger may hold: a `cg_table` on a fixed item, a
+group too deep, an id the format refuses. So the built ledger is written to
+TOML and read back before anything is saved, and a problem the reader finds
+on an item that came from the CSV is reported at that CSV line and column.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+
+from steelyard.core.control.growth import growth_fractions
+from steelyard.core.control.uncertainty import parse_tolerances
+from steelyard.core.document.model import Ledger
+from steelyard.core.errors import SteelyardError, said
+from steelyard.core.limits.checks import validate
+from steelyard.core.physics.inertia import COMPONENTS
+from steelyard.io.exchange.csv_cells import COLUMNS, TOL_COLUMNS
+from steelyard.io.ledger.read import ledger_from_data
+from steelyard.io.ledger.toml_read import parse_toml
+from steelyard.io.ledger.write import ledger_to_toml
+
+
+@dataclass(frozen=True)
+class CsvPlaces:
+    """Where each imported item came from: item subject -> (CSV line, id); column key -> header cell."""
+
+    rows: dict[str, tuple[int, str]] = field(default_factory=dict)
+    labels: dict[str, str] = field(default_factory=dict)
+
+
+def _column(ledger_field: str | None, labels: dict[str, str]) -> str | None:
+    """The CSV column that holds a ledger field ("cg.1" -> "y", "cg_table" -> "other"), if the CSV has it."""
+    if not ledger_field:
+        return None
+    head = re.split(r"[.\s\[]", ledger_field, maxsplit=1)[0]
+    rest = ledger_field[len(head) + 1:]
+    if head == "cg":
+        key = "xyz"[int(rest[0])] if rest[:1] in ("0", "1", "2") else "x"
+    elif head == "inertia":
+        key = rest if rest in COMPONENTS else "xx"
+    elif head == "tolerance":
+        key = next((c for c in TOL_COLUMNS if c in labels), "tol kind")
+    elif head in COLUMNS:
+        key = head
+    else:  # cg_table, removable, user, ...: the keys the `other` column carries
+        key = "other"
+    return key if key in labels else None
+
+
+def _placed(exc: SteelyardError, source: str, places: CsvPlaces | None) -> SteelyardError:
+    if places is None or exc.subject not in places.rows:
+        return exc.located(file=source)
+    line, ident = places.rows[exc.subject]
+    key = _column(exc.field, places.labels)
+    where = f"column {said(places.labels[key])}" if key else exc.field
+    return SteelyardError(exc.message, file=source, subject=f"line {line} (item {said(ident)})", field=where)
+
+
+def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None) -> str:
+    """Write the ledger to text and read it back with the full loader: what is saved will open.
+
+    Returns the text, ready to write. With `places`, a problem on an item from
+    the CSV names its CSV line and column.
+    """
+    try:
+        text = ledger_to_toml(ledger)
+        final = ledger_from_data(parse_toml(text, source=source), source=source)
+        growth_fractions(final)
+        parse_tolerances(final)
+        validate(final)
+    except SteelyardError as exc:
+        raise _placed(exc, source, places) from None
+    return text

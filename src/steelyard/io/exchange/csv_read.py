@@ -1,0 +1,140 @@
+"""CSV text -> header and columns of cells, each cell located by CSV line and column.
+
+Tolerant of what spreadsheets do (a byte-order mark, `;` or tab separators,
+blank or separator-only lines, trailing empty cells, spaces around number
+cells) and strict about the rest: text cells are kept verbatim, number cells
+must be ASCII decimals (csv_cells), and any problem names the physical line
+where the row starts and the column as its header cell says.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+
+import numpy as np
+
+from steelyard.core.errors import SteelyardError, said
+from steelyard.core.units import unit_factor
+from steelyard.io.exchange.csv_cells import COLUMNS, HEADER, REQUIRED, SI_UNIT, TEXT_COLUMNS, parse_cells, unprotect
+
+#: the csv module refuses cells over 128 KiB by default; a 4 MB name is data, not an attack
+_FIELD_LIMIT = 2**31 - 1
+
+
+def _sniff(first_line: str, decimal_comma: bool, source: str) -> str:
+    choices = (";", "\t") if decimal_comma else (",", ";", "\t")
+    counts = {c: first_line.count(c) for c in choices}
+    best = max(choices, key=lambda c: counts[c])
+    if counts[best] == 0:
+        extra = " (with --decimal-comma the separator must be ';' or a tab)" if decimal_comma else ""
+        raise SteelyardError(f"cannot find the separator in the header line{extra}", file=source,
+                             subject="line 1")
+    return best
+
+
+class CsvTable:
+    """One CSV text: header, columns of cell strings, then typed, located values."""
+
+    def __init__(self, text: str, source: str, decimal_comma: bool):
+        self.source, self.comma = source, decimal_comma
+        text = text[1:] if text.startswith("\ufeff") else text  # a byte-order mark from a spreadsheet
+        first = next((s for s in text.splitlines() if s.strip(" \t,;")), None)
+        if first is None:
+            raise SteelyardError("empty CSV file (needs a header line: id,name,mass [kg],...)", file=source)
+        sep = _sniff(first, decimal_comma, source)
+        if csv.field_size_limit() < _FIELD_LIMIT:
+            csv.field_size_limit(_FIELD_LIMIT)
+        reader = csv.reader(io.StringIO(text, newline=""), delimiter=sep)
+        self.header: list[str] | None = None
+        self.rows: list[list[str]] = []
+        self.lines: list[int] = []
+        before = 0
+        try:
+            for record in reader:
+                start = before + 1
+                before = reader.line_num
+                if not any(c.strip() for c in record):
+                    continue
+                if self.header is None:
+                    self.header, self.header_line = [c.strip() for c in record], start
+                    self._columns()
+                    continue
+                self.rows.append(record)
+                self.lines.append(start)
+        except csv.Error as exc:
+            raise SteelyardError(f"not readable as CSV ({exc})", file=source, subject=f"line {before + 1}") from None
+        if not self.rows:
+            raise SteelyardError("has a header but no item rows", file=source)
+        self.ids = [""] * len(self.rows)
+        width = len(self.header)
+        for k, cells in enumerate(self.rows):
+            if len(cells) > width and any(c.strip() for c in cells[width:]):
+                raise self.fail(k, None, f"has {len(cells)} cells, the header has {width}")
+            cells += [""] * (width - len(cells))
+        # text verbatim (less a formula guard); everything else without surrounding spaces
+        self.cols: dict[str, list[str]] = {}
+        for key, j in self.index.items():
+            if key in TEXT_COLUMNS:
+                self.cols[key] = [unprotect(r[j]) for r in self.rows]
+            else:
+                self.cols[key] = [r[j].strip() for r in self.rows]
+
+    def _columns(self) -> None:
+        self.index: dict[str, int] = {}
+        self.labels: dict[str, str] = {}
+        self.units: dict[str, str] = {}
+        self.factor: dict[str, float] = {}
+        where = {"file": self.source, "subject": f"line {self.header_line}"}
+        for j, cell in enumerate(self.header):
+            m = HEADER.match(cell)
+            name = " ".join((m.group("name") if m else cell).replace("_", " ").lower().split())
+            dim = COLUMNS[name] if name in COLUMNS else None
+            unit = (m.group("unit") or "").strip() if m else ""
+            problem = (f"unknown column (known: {', '.join(COLUMNS)})" if name not in COLUMNS else
+                       "column appears twice" if name in self.index else
+                       f"needs its unit in brackets, e.g. '{name} [{SI_UNIT[dim]}]'" if dim and not unit else
+                       "takes no unit" if unit and not dim else None)
+            if problem:
+                raise SteelyardError(problem, field=f"column {said(cell)}", **where)
+            if dim:
+                try:
+                    self.factor[name] = unit_factor(unit, dim)
+                except SteelyardError as exc:
+                    raise exc.located(field=f"column {said(cell)}", **where)
+                self.units[name] = unit
+            self.index[name], self.labels[name] = j, cell
+        missing = [k for k in REQUIRED if k not in self.index]
+        if missing:
+            raise SteelyardError(f"missing column {missing[0]!r} (required: {', '.join(REQUIRED)})", **where)
+
+    def fail(self, k: int, key: str | None, message: str) -> SteelyardError:
+        ident = self.ids[k] if k < len(self.ids) else ""
+        subject = f"line {self.lines[k]}" + (f" (item {said(ident)})" if ident else "")
+        field = f"column {said(self.labels[key])}" if key else None
+        return SteelyardError(message, file=self.source, subject=subject, field=field)
+
+    def has(self, key: str) -> bool:
+        return key in self.index
+
+    def floats(self, key: str) -> tuple[np.ndarray, np.ndarray]:
+        """(values in the column's unit, blank mask); NaN where blank."""
+        vals, blank, bad, why = parse_cells(self.cols[key], self.comma)
+        if bad is not None:
+            raise self.fail(bad, key, why)
+        return vals, blank
+
+    def reject(self, key: str, bad: np.ndarray, message: str) -> None:
+        """Raise for the first row where `bad` holds; `{cell}` in the message is its text."""
+        if bad.any():
+            k = int(np.argmax(bad))
+            raise self.fail(k, key, message.format(cell=self.cols[key][k]))
+
+    def si(self, key: str) -> tuple[np.ndarray, np.ndarray]:
+        vals, blank = self.floats(key)
+        with np.errstate(over="ignore", under="ignore", invalid="ignore"):
+            out = vals * self.factor[key]
+        self.reject(key, ~blank & ~np.isfinite(out), "{cell!r} is too large to represent in SI units")
+        self.reject(key, ~blank & (out == 0.0) & (vals != 0.0), "{cell!r} is too small to represent in SI units "
+                                                               "(it would read as 0)")
+        return out, blank

@@ -1,0 +1,90 @@
+"""Items to CSV for spreadsheets: units in the headers, numbers exact on re-import.
+
+Text cells are written as they are, protected against formula evaluation
+and quoted where RFC 4180 needs it (csv_cells); a text a CSV file cannot carry
+at all (NUL: import refuses the file) stops the export with the item and field.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from steelyard.core.control.growth import growth_fractions
+from steelyard.core.control.uncertainty import parse_tolerances
+from steelyard.core.display import DisplayUnits
+from steelyard.core.document.model import Ledger
+from steelyard.core.errors import SteelyardError, item_subject
+from steelyard.core.physics.inertia import COMPONENTS, six_from_tensor
+from steelyard.core.units import SYSTEMS, unit_factor
+from steelyard.io.exchange.csv_cells import COLUMNS, CONTROL_KEYS, TOL_COLUMNS, number_text, protect, row_text
+from steelyard.io.exchange.csv_model import density_unit, item_more
+from steelyard.io.ledger.toml_write import value as toml_value
+from steelyard.io.report.control import growth_value, tolerance_si
+
+
+def _units(ledger: Ledger, system: str | None) -> dict[str, str]:
+    du = DisplayUnits.choose(ledger.units, system)
+    given = next((it.given_units["density"] for it in ledger.items if "density" in it.given_units), None)
+    density = (SYSTEMS[system]["density"] if system in SYSTEMS else
+               density_unit(ledger.units) or given or f"{du.mass}/{du.length}**3")
+    return {"mass": du.mass, "length": du.length, "inertia": du.inertia, "density": density}
+
+
+def _text(value: object, ident: str, key: str) -> str:
+    text = "" if value is None else str(value)
+    if "\x00" in text:
+        raise SteelyardError("contains a NUL character, which a CSV file cannot carry (import refuses NUL "
+                             "bytes); rename it, or use export --json", subject=item_subject(ident), field=key)
+    return protect(text)
+
+
+def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: bool = False) -> str:
+    """Every item as one CSV row; numbers in the file's units (or `system`), exact on re-import.
+
+    Own inertia is per unit about the item's CG in body axes, products as
+    integrals (∫xy dm); an item with a shape gets the inertia its shape gives.
+    """
+    growth_fractions(ledger), parse_tolerances(ledger)  # bad keys stop here, named, not half-written
+    items = ledger.items
+    extras = [item_more(it) for it in items]
+    u = _units(ledger, system)
+    keys = ["id", "name", "group", "mass", "x", "y", "z", "quantity", "variable", *COMPONENTS]
+    if any(it.density is not None for it in items):
+        keys.append("density")
+    keys += [k for k in ("maturity", "growth") if any(k in e for e in extras)]
+    if any("tolerance" in e for e in extras):
+        keys += list(TOL_COLUMNS)
+    if any(set(e) - set(CONTROL_KEYS) for e in extras):
+        keys.append("other")
+    header = [f"{k} [{u[COLUMNS[k]]}]" if COLUMNS[k] else k for k in keys]
+    f = {k: unit_factor(u[COLUMNS[k]], COLUMNS[k]) for k in keys if COLUMNS[k]}
+    six = six_from_tensor(ledger.arrays.own) if items else np.zeros((0, 6))
+    sep = ";" if decimal_comma else ","
+
+    def num(k: str, si: float | None) -> str:
+        return "" if si is None else number_text(si, f[k], decimal_comma)
+
+    out = [row_text(header, sep)]
+    for i, it in enumerate(items):
+        e = extras[i]
+        cells = {"id": _text(it.id, it.id, "id"), "name": _text(it.name, it.id, "name"),
+                 "group": _text(it.group, it.id, "group"), "mass": num("mass", it.mass),
+                 "quantity": str(it.quantity), "variable": "true" if it.variable else "false"}
+        for k, c in zip("xyz", it.cg):
+            cells[k] = num(k, c)
+        has_own = it.inertia is not None or it.shape is not None
+        for k, v in zip(COMPONENTS, six[i]):
+            cells[k] = num(k, float(v)) if has_own else ""
+        if "density" in keys:
+            cells["density"] = num("density", it.density)
+        cells["maturity"] = _text(e.get("maturity", ""), it.id, "maturity")
+        cells["growth"] = number_text(growth_value(e["growth"]), 1.0, decimal_comma) if "growth" in e else ""
+        if "tolerance" in e:
+            kind, m, cg = tolerance_si(it, ledger.units)
+            cells["tol kind"], cells["tol mass"] = kind, num("tol mass", m)
+            for k, c in zip(("tol x", "tol y", "tol z"), cg or (None, None, None)):
+                cells[k] = num(k, c)
+        rest = {k: v for k, v in e.items() if k not in CONTROL_KEYS}
+        cells["other"] = toml_value(rest) if rest else ""
+        out.append(row_text([cells.get(k, "") for k in keys], sep))
+    return "".join(out)
