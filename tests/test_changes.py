@@ -287,7 +287,7 @@ GOOD = {"time": "2026-05-04T09:12:33Z", "author": "ana", "action": "edit", "item
 def test_bad_change_tables_are_located(patch, field):
     table = {**GOOD, **patch}
     table = {k: v for k, v in table.items() if v is not None}
-    ledger = LEDGER.evolve(extra={"change": [GOOD, table]})
+    ledger = LEDGER.evolve(changes=(GOOD, table))
     with pytest.raises(SteelyardError) as e:
         log_from_ledger(ledger)
     assert e.value.subject == "change #2" and e.value.field == field
@@ -295,9 +295,10 @@ def test_bad_change_tables_are_located(patch, field):
 
 
 def test_change_must_be_an_array_of_tables():
-    for raw in ({"time": "x"}, "text", [1]):
-        with pytest.raises(SteelyardError):
-            log_from_ledger(LEDGER.evolve(extra={"change": raw}))
+    # as a file: the reader refuses anything but [[change]] tables (tomllib reads each text below)
+    for text in ('change = { time = "x" }', 'change = "text"', "change = [1]"):
+        with pytest.raises(SteelyardError, match="change"):
+            ledger_from_data(tomllib.loads("steelyard = 1\n" + text), source="t")
 
 
 def test_toml_datetime_is_accepted_as_time():

@@ -31,12 +31,14 @@ import numpy as np
 import tomli_w
 from hypothesis import HealthCheck, assume, example, given, settings
 from hypothesis import strategies as st
+import pytest
 from scipy.spatial.transform import Rotation
 
 from steelyard.core.loading.loadout import resolve
 from steelyard.core.physics.rollup import rollup_state
 from steelyard.core.physics.shapes import SHAPE_PARAMS
 from steelyard.core.limits.status import envelope_results
+from steelyard.core.errors import SteelyardError
 from steelyard.io.ledger.file import open_ledger, save_ledger
 from steelyard.io.ledger.read import ledger_from_data
 from steelyard.io.ledger.write import ledger_to_toml
@@ -371,7 +373,7 @@ def test_save_and_reload_gives_identical_ledger(case):
     assert same_but_floats(again.items, ledger.items)
     assert same_but_floats(again.loadouts, ledger.loadouts) and same_but_floats(again.envelopes, ledger.envelopes)
     assert [list(lo.set) for lo in again.loadouts] == [list(lo.set) for lo in ledger.loadouts]
-    assert (again.units, again.frame, again.extra) == (ledger.units, ledger.frame, ledger.extra)
+    assert (again.units, again.frame, again.user) == (ledger.units, ledger.frame, ledger.user)
 
 
 def test_value_with_its_own_unit_moves_at_most_2_ulp():
@@ -416,10 +418,13 @@ def test_on_disk_save_and_reload(tmp_path_factory, case):
     assert same_but_floats(again.ledger.items, loaded.ledger.items)  # within 2 ulp, as above
 
 
-def test_top_level_value_stays_top_level():
-    """An unknown top-level key = value survives a save where it was (not moved into the last item)."""
+def test_unknown_top_level_key_is_refused_and_user_data_stays_top_level():
+    """An unknown top-level key is an error; the user's own [user] table survives a save where it was."""
     text = 'steelyard = 1\nrevision = 3\n[[item]]\nid = "a"\nmass = 1\ncg = [0, 0, 0]\n'
+    with pytest.raises(SteelyardError, match="revision"):
+        load_text(text)
+    text = 'steelyard = 1\n[user]\nrevision = 3\n[[item]]\nid = "a"\nmass = 1\ncg = [0, 0, 0]\n'
     ledger = load_text(text)
-    assert ledger.extra == {"revision": 3}  # tomllib reads it as a top-level key (TOML 1.0: before any header)
+    assert ledger.user == tomllib.loads(text)["user"]  # tomllib: the reference reading of the file
     again = load_text(ledger_to_toml(ledger), "saved.toml")
-    assert again.extra == {"revision": 3} and again.items[0].extra == {}
+    assert again.user == {"revision": 3} and again.items[0].user is None

@@ -12,16 +12,16 @@ from steelyard.core.control.growth import (
 from steelyard.core.document.model import FileUnits, Item, Ledger
 
 
-def _ledger(extra=None):
+def _ledger(tables=None):
     items = (
-        Item("fc", 10.0, (1.0, 0.0, 0.0), group="avionics", extra={"maturity": "estimated"}),
-        Item("radio", 20.0, (2.0, 0.0, 1.0), group="avionics/radio", extra={"maturity": "layout"}),
+        Item("fc", 10.0, (1.0, 0.0, 0.0), group="avionics", maturity="estimated"),
+        Item("radio", 20.0, (2.0, 0.0, 1.0), group="avionics/radio", maturity="layout"),
         Item("harness", 5.0, (4.0, 1.0, 0.0), group="power",
-             extra={"maturity": "released", "growth": 0.12}),
+             maturity="released", growth=0.12),
         Item("frame", 8.0, (0.0, 0.0, 0.0), group="structure"),
-        Item("cell", 2.0, (3.0, 0.0, 0.0), group="power", quantity=3, extra={"maturity": "measured"}),
+        Item("cell", 2.0, (3.0, 0.0, 0.0), group="power", quantity=3, maturity="measured"),
     )
-    return Ledger(items=items, units=FileUnits(), extra=extra or {"growth": {"layout": 0.20}})
+    return Ledger(items=items, units=FileUnits(), **(tables or {"growth": {"layout": 0.20}}))
 
 
 def _rows(ledger):
@@ -51,7 +51,7 @@ def test_fractions_override_and_explicit():
 
 
 def test_fraction_as_percent_string():
-    ledger = Ledger(items=(Item("a", 1.0, (0, 0, 0), extra={"growth": "12 %"}),))
+    ledger = Ledger(items=(Item("a", 1.0, (0, 0, 0), growth="12 %"),))
     # 12 % = 0.12 (definition of per cent)
     assert growth_fractions(ledger)[0] == pytest.approx(0.12, rel=1e-15)
 
@@ -94,12 +94,12 @@ def test_far_datum_keeps_digits():
 
 
 def test_allocation_margins_hand_calculation():
-    extra = {"growth": {"layout": 0.20}, "allocation": [
+    tables = {"growth": {"layout": 0.20}, "allocations": [
         {"group": "avionics", "mass": "40 kg"},   # includes avionics/radio
         {"group": "power", "mass": 11.0},          # bare number: file units (kg)
         {"group": "", "mass": "60 kg"},            # the whole vehicle
     ]}
-    ledger = _ledger(extra)
+    ledger = _ledger(tables)
     mass, _ = _rows(ledger)
     out = allocation_margins(ledger, mass, growth_fractions(ledger))
     g = DEFAULT_GROWTH["estimated"]
@@ -117,7 +117,7 @@ def test_allocation_margins_hand_calculation():
 
 def test_allocation_in_pounds():
     ledger = Ledger(items=(Item("a", 1.0, (0, 0, 0), group="x"),),
-                    extra={"allocation": [{"group": "x", "mass": "10 lb"}]})
+                    allocations=({"group": "x", "mass": "10 lb"},))
     out = allocation_margins(ledger, np.ones(1), np.zeros(1))
     assert out[0]["allocation_kg"] == pytest.approx(10 * 0.45359237, rel=1e-15)  # NIST SP 811
 
@@ -125,7 +125,7 @@ def test_allocation_in_pounds():
 def test_group_prefix_is_a_path_not_a_string_prefix():
     # common practice: "avionics" does not include "avionics-bay"; it does include "avionics/x"
     items = (Item("a", 1.0, (0, 0, 0), group="avionics-bay"), Item("b", 2.0, (0, 0, 0), group="avionics/x"))
-    ledger = Ledger(items=items, extra={"allocation": [{"group": "avionics", "mass": 5}]})
+    ledger = Ledger(items=items, allocations=({"group": "avionics", "mass": 5},))
     out = allocation_margins(ledger, np.array([1.0, 2.0]), np.zeros(2))
     assert out[0]["basic_kg"] == 2.0
 
@@ -140,7 +140,7 @@ def test_group_prefix_is_a_path_not_a_string_prefix():
     ({"maturity": "bogus", "growth": 0.1}, "maturity"),
 ])
 def test_bad_item_keys_name_item_and_field(extra, field):
-    ledger = Ledger(items=(Item("ok", 1.0, (0, 0, 0)), Item("pump-2", 1.0, (0, 0, 0), extra=extra)))
+    ledger = Ledger(items=(Item("ok", 1.0, (0, 0, 0)), Item("pump-2", 1.0, (0, 0, 0), **extra)))
     with pytest.raises(SteelyardError) as e:
         growth_fractions(ledger)
     assert e.value.subject == "item 'pump-2'" and e.value.field == field
@@ -148,12 +148,12 @@ def test_bad_item_keys_name_item_and_field(extra, field):
 
 
 def test_bad_growth_table_and_allocation():
-    bad = Ledger(items=(Item("a", 1.0, (0, 0, 0)),), extra={"growth": {"layout": 2.0}})
+    bad = Ledger(items=(Item("a", 1.0, (0, 0, 0)),), growth={"layout": 2.0})
     with pytest.raises(SteelyardError, match="layout"):
         growth_fractions(bad)
     for alloc, field in [({"group": "x"}, "mass"), ({"group": "x", "mass": "-1 kg"}, "mass"),
                          ({"group": "x", "mass": "3 m"}, "mass"), ({"mass": 3}, "group")]:
-        ledger = Ledger(items=(Item("a", 1.0, (0, 0, 0)),), extra={"allocation": [alloc]})
+        ledger = Ledger(items=(Item("a", 1.0, (0, 0, 0)),), allocations=(alloc,))
         with pytest.raises(SteelyardError) as e:
             allocation_margins(ledger, np.ones(1), np.zeros(1))
         assert e.value.field == field and "allocation" in str(e.value)

@@ -20,6 +20,7 @@ import sys
 import textwrap
 import time
 import zlib
+from dataclasses import replace
 from pathlib import Path
 
 import pytest
@@ -42,7 +43,7 @@ def ledger_file(tmp_path):
 
 def _strip_item(loadouts, item_id):
     """Loadouts without amounts for item_id (what deleting an item does to them)."""
-    return tuple(Loadout(lo.name, {k: v for k, v in lo.set.items() if k != item_id}, lo.base, lo.extra)
+    return tuple(replace(lo, set={k: v for k, v in lo.set.items() if k != item_id})
                  for lo in loadouts)
 
 
@@ -102,8 +103,8 @@ def _edits(led, rng: random.Random):
     if k == 3:  # rename in place; loadout amounts follow the new id, in place
         new_id = it.id + "-r"
         i = led.index[it.id]
-        los = tuple(Loadout(lo.name, {(new_id if a == it.id else a): v for a, v in lo.set.items()}, lo.base,
-                            lo.extra) for lo in led.loadouts)
+        los = tuple(replace(lo, set={(new_id if a == it.id else a): v for a, v in lo.set.items()})
+                    for lo in led.loadouts)
         return led.evolve(items=items[:i] + (it.evolve(id=new_id),) + items[i + 1:], loadouts=los)
     if k == 4:  # move an item to another row
         rest = [x for x in items if x is not it]
@@ -118,15 +119,15 @@ def _edits(led, rng: random.Random):
             del amounts[key]
         else:
             amounts[key] = Amount("fraction", rng.random())
-        return led.evolve(loadouts=tuple(Loadout(x.name, amounts, x.base, x.extra) if x is lo else x
+        return led.evolve(loadouts=tuple(replace(x, set=amounts) if x is lo else x
                                          for x in led.loadouts))
     if k == 6:
-        extra = dict(led.extra)
-        extra["review"] = {"when": dt.datetime(2024, 5, rng.randint(1, 28), 10, 0, tzinfo=dt.timezone.utc),
+        user = dict(led.user or {})
+        user["review"] = {"when": dt.datetime(2024, 5, rng.randint(1, 28), 10, 0, tzinfo=dt.timezone.utc),
                            "$t": "looks like a tag", "n": rng.randrange(9)}
-        los = led.loadouts + (Loadout(f"lo-{rng.randrange(10**6)}", {}, None, {}),) if rng.random() < 0.5 else \
+        los = led.loadouts + (Loadout(f"lo-{rng.randrange(10**6)}", {}, None),) if rng.random() < 0.5 else \
             led.loadouts[1:]
-        return led.evolve(extra=extra, loadouts=los)
+        return led.evolve(user=user, loadouts=los)
     if k == 7:
         env = Envelope("e", "x", ((3.0, 300.0), (3.0, 600.0), (3.3, 600.0), (3.3, rng.uniform(200, 400))))
         return led.evolve(envelopes=(env,), frame=Frame("fwd", "right", "down") if rng.random() < 0.3 else led.frame)
@@ -320,6 +321,7 @@ def _check_after_kill(path: Path, led, acked: int) -> int:
     return got
 
 
+@pytest.mark.slow  # 40 SIGKILLs of a journaling process
 def test_sigkill_mid_appends_keeps_every_complete_record(ledger_file):
     loaded = open_ledger(ledger_file)
     rng = random.Random(11)

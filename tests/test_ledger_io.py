@@ -41,7 +41,7 @@ mass = "120 lb"
 cg = [95, -10, 20]
 variable = true
 density = "6 lb/gal"
-note = "kept as is"
+user = { note = "kept as is", reviewed = 2026-03-01 }
 
 [[loadout]]
 name = "some"
@@ -56,7 +56,8 @@ def test_values_are_si_with_exact_factors():
     assert radio.mass == pytest.approx(float(F("2.3") * F("0.45359237")), rel=3e-16)
     assert radio.cg == pytest.approx((float(142 * F("0.0254")), 0.0, float(12 * F("0.0254"))), rel=3e-16)
     assert radio.inertia[3] == pytest.approx(float(F("0.1") * F("0.45359237") * F("0.0254") ** 2), rel=3e-16)
-    assert led.item("fuel").extra == {"note": "kept as is"}
+    # the user's own data: kept exactly as TOML read it (tomllib is the reference reader)
+    assert led.item("fuel").user == tomllib.loads(LEDGER)["item"][1]["user"]
 
 
 def test_save_round_trips_and_is_canonical(tmp_path):

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import tomllib
 from fractions import Fraction as F
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -20,10 +19,11 @@ import pytest
 from steelyard.core.errors import SteelyardError
 from steelyard.core.loading.loadout import fill_fractions, loadout_condition, resolve
 from steelyard.core.physics.rollup import rollup_state
-from steelyard.io.ledger.read import ledger_from_data
-
-ROOT = Path(__file__).resolve().parents[1]
-LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact
+from support.exact import carried
+from support.exact import exact_cg as exact
+from support.ledgers import ledger_from_text as ledger
+from support.paths import ROOT
+from support.units import IN, LB
 
 BASE = '''steelyard = 1
 [units]
@@ -61,16 +61,6 @@ cg = [133.0, 0.0, 40.0]
 density = "6 lb/gal"
 variable = true
 '''
-
-
-def ledger(text: str):
-    return ledger_from_data(tomllib.loads(text), source="test.toml")
-
-
-def exact(masses_arms: list[tuple[F, F]]) -> tuple[F, F]:
-    """(total, CG) by moments, FAA-H-8083-1."""
-    w = sum(m for m, _ in masses_arms)
-    return w, sum(m * a for m, a in masses_arms) / w
 
 
 # --------------------------------------------------------------------------- base, off, on
@@ -140,16 +130,15 @@ base = "solo-seat"
     ('condition = "cruise"', "condition", "ramp, takeoff, landing"),
 ])
 def test_bad_loadout_keys_name_loadout_and_field(extra, field, words):
-    led = ledger(BASE + f'\n[[loadout]]\nname = "bad"\n{extra}\n')
-    with pytest.raises(SteelyardError) as e:
-        resolve(led, "bad")
-        loadout_condition(led, "bad")
+    with pytest.raises(SteelyardError) as e:  # refused when the file is read (strict reader)
+        ledger(BASE + f'\n[[loadout]]\nname = "bad"\n{extra}\n')
     text = str(e.value)
     assert "loadout 'bad'" in text and field in text and words in text and "\n" not in text
 
 
 def test_base_loop_is_an_error_naming_the_loop():
-    led = ledger(BASE + '''
+    with pytest.raises(SteelyardError) as e:  # refused when the file is read (strict reader)
+        ledger(BASE + '''
 [[loadout]]
 name = "a"
 base = "b"
@@ -157,8 +146,6 @@ base = "b"
 name = "b"
 base = "a"
 ''')
-    with pytest.raises(SteelyardError) as e:
-        resolve(led, "a")
     assert "loadout 'a'" in str(e.value) and "base" in str(e.value) and "a -> b -> a" in str(e.value)
 
 
@@ -234,19 +221,17 @@ def test_part_filled_tank_inertia_is_scaled_with_mass_about_its_moved_cg():
     ("[[0.0, \"3 blorps\", 0.0, 30.0], [1.0, 145.0, 2.0, 38.0]]", "blorps"),
 ])
 def test_bad_cg_table_names_item_and_field(table, words):
-    led = ledger(TANK.replace(
-        "cg_table = [[0.1, 141.0, 0.0, 30.0], [0.5, 143.0, 1.0, 34.0], [1.0, 145.0, 2.0, 38.0]]",
-        f"cg_table = {table}"))
-    with pytest.raises(SteelyardError) as e:
-        resolve(led, "aux-at")
+    with pytest.raises(SteelyardError) as e:  # refused when the file is read (strict reader)
+        ledger(TANK.replace(
+            "cg_table = [[0.1, 141.0, 0.0, 30.0], [0.5, 143.0, 1.0, 34.0], [1.0, 145.0, 2.0, 38.0]]",
+            f"cg_table = {table}"))
     assert "item 'aux'" in str(e.value) and "cg_table" in str(e.value) and words in str(e.value)
 
 
 def test_cg_table_on_a_fixed_item_is_rejected():
-    led = ledger(BASE.replace('mass = 40.0\ncg = [170.0, 0.0, -10.0]',
-                              'mass = 40.0\ncg = [170.0, 0.0, -10.0]\ncg_table = [[0.0, 1, 2, 3], [1.0, 170, 0, -10]]'))
-    with pytest.raises(SteelyardError, match="only a variable item"):
-        resolve(led, None)
+    with pytest.raises(SteelyardError, match="only a variable item"):  # refused when the file is read
+        ledger(BASE.replace('mass = 40.0\ncg = [170.0, 0.0, -10.0]',
+                            'mass = 40.0\ncg = [170.0, 0.0, -10.0]\ncg_table = [[0.0, 1, 2, 3], [1.0, 170, 0, -10]]'))
 
 
 # --------------------------------------------------------------------------- the shipped files
@@ -262,18 +247,8 @@ def test_trainer_walk_through_still_holds():
     # the aft margin of "normal" (vertical aft limit FS 132.0 from the file) drops from 38.2 to 37.8 mm.
     # Weight added / new total = ΔCG / (station − old CG) (FAA-H-8083-1), exact roll-up of the file text.
     data = tomllib.loads((ROOT / "fixtures/trainer.toml").read_text())
-    sets = next(lo for lo in data["loadout"] if lo["name"] == "takeoff")["set"]
     units = {"lb": F(1), "kg": 1 / LB, "gal": F(6)}  # masses in lb; fuel 6 lb/gal from the file
-    w = mom = F(0)
-    for it in data["item"]:
-        m = it["mass"]
-        m = F(m.split()[0]) * units[m.split()[1]] if isinstance(m, str) else F(m)
-        m *= it.get("quantity", 1)
-        if it.get("variable"):
-            a = sets.get(it["id"], 0)
-            m = F(a.split()[0]) * units[a.split()[1]] if isinstance(a, str) else m * F(a)
-        w, mom = w + m, mom + m * F(it["cg"][0])
-    x = mom / w
+    w, x = exact([(m, it["cg"][0]) for it, m in carried(data, "takeoff", units)])
     dx = F("2.3") * (142 - x) / (w + F("2.3"))
     assert round(float(dx * IN * 1000), 1) == 0.4
     assert round(float((132 - x) * IN * 1000), 1) == 38.2

@@ -24,12 +24,12 @@ SR = np.array([[0.01, 0.02, 0.005], [0.03, 0.0, 0.01], [0.0, 0.015, 0.02], [0.02
 
 def test_parse_tolerances_kinds_units_quantity():
     items = (
-        Item("a", 10 * LB, (0, 0, 0), extra={"tolerance": {"mass": 0.5, "cg": [0.1, 0.2, "0.05 in"],
-                                                          "kind": "sigma"}}),
-        Item("b", 2.0, (0, 0, 0), quantity=4, extra={"tolerance": {"mass": "0.1 kg", "cg": "3 mm",
-                                                                  "kind": "bound"}}),
+        Item("a", 10 * LB, (0, 0, 0), tolerance={"mass": 0.5, "cg": [0.1, 0.2, "0.05 in"],
+                                                          "kind": "sigma"}),
+        Item("b", 2.0, (0, 0, 0), quantity=4, tolerance={"mass": "0.1 kg", "cg": "3 mm",
+                                                                  "kind": "bound"}),
         Item("c", 8 * LB, (0, 0, 0)),
-        Item("d", 20 * LB, (0, 0, 0), extra={"tolerance": {"mass": "5 %", "kind": "sigma"}}),
+        Item("d", 20 * LB, (0, 0, 0), tolerance={"mass": "5 %", "kind": "sigma"}),
     )
     ledger = Ledger(items=items, units=FileUnits(mass="lb", length="in"))
     ms, cs, mb, cb = parse_tolerances(ledger)
@@ -60,7 +60,7 @@ def test_parse_tolerances_kinds_units_quantity():
     (0.5, "tolerance"),
 ])
 def test_bad_tolerance_names_item_and_field(tol, field):
-    ledger = Ledger(items=(Item("strut-3", 1.0, (0, 0, 0), extra={"tolerance": tol}),))
+    ledger = Ledger(items=(Item("strut-3", 1.0, (0, 0, 0), tolerance=tol),))
     with pytest.raises(SteelyardError) as e:
         parse_tolerances(ledger)
     assert e.value.subject == "item 'strut-3'" and e.value.field == field

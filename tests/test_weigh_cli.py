@@ -127,8 +127,8 @@ def test_apply_to_other_file_replaces_item_and_logs_change(tmp_path):
     assert item.mass == pytest.approx(float(empty * LB), rel=1e-15)
     assert item.cg[0] == pytest.approx(float(empty_moment / empty * IN), rel=1e-15)
     assert item.cg[2] == pytest.approx(float(28 * IN), rel=1e-15)  # kept: level weighing
-    assert item.extra["maturity"] == "measured"
-    log = ledger.extra["change"]
+    assert item.maturity == "measured"
+    log = ledger.changes
     assert len(log) == 1
     entry = log[0]
     assert (entry["action"], entry["item"], entry["author"]) == ("weighing", "empty-vehicle", "J. Tester")
@@ -138,7 +138,7 @@ def test_apply_to_other_file_replaces_item_and_logs_change(tmp_path):
     # a second weighing in place (the written file has no comments) keeps the first entry
     again = run("weigh", dst, "--apply")
     assert again.returncode == 0, again.stderr
-    log = load_ledger(dst).extra["change"]
+    log = load_ledger(dst).changes
     assert [e["action"] for e in log] == ["weighing", "weighing"]
     assert log[0]["author"] == "J. Tester"
 

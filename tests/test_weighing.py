@@ -76,8 +76,7 @@ def _table():
 
 
 def _ledger():
-    items = (Item("empty-vehicle", 1300 * LB, (50 * IN, 0.0, 30 * IN), extra={"maturity": "estimated",
-                                                                           "growth": 0.1}),
+    items = (Item("empty-vehicle", 1300 * LB, (50 * IN, 0.0, 30 * IN), maturity="estimated", growth=0.1),
              Item("pilot", 170 * LB, (60 * IN, 0.0, 35 * IN), variable=True),
              Item("tank", 30 * GAL * 5.9 * LB / GAL, (95 * IN, 0.0, 20 * IN), variable=True,
                   density=5.9 * LB / GAL))
@@ -96,7 +95,7 @@ def test_handbook_example_from_table_si():
     new = replaced_item(ledger, inputs, res)
     assert new.id == "empty-vehicle" and new.mass == res.empty_mass
     assert new.cg[0] == res.empty_cg[0] and new.cg[2] == 30 * IN  # vertical kept: not weighed
-    assert new.extra["maturity"] == "measured" and "growth" not in new.extra
+    assert new.maturity == "measured" and new.growth is None
 
 
 def test_on_board_by_item_id_and_force_readings():

@@ -15,13 +15,13 @@ from fractions import Fraction
 from pathlib import Path
 
 from steelyard.core.display import fmt
-from steelyard.tui.app import SteelyardApp
 from steelyard.tui.screens.weighing_form import WeighingForm
-from tui_helpers import LB, ROOT, copy_fixture, screen_text, settle, type_into, wait_loaded
+from support.paths import FIXTURES
+from support.tui import copy_fixture, editor, screen_text, settle, type_into
+from support.units import IN as INCH
+from support.units import LB
 
-SIZE = (80, 24)
-INCH = Fraction("0.0254")  # m, exact (NIST SP 811)
-EXAMPLE = ROOT / "fixtures" / "weighing-example.toml"
+EXAMPLE = FIXTURES / "weighing-example.toml"
 
 NET = [Fraction(650) - 5, Fraction(640) - 5, Fraction(225) - Fraction("2.5")]
 ARM = [Fraction(70), Fraction(70), Fraction(-30)]
@@ -47,9 +47,7 @@ async def _apply(app, pilot) -> None:
 
 async def test_form_prefilled_from_the_file_reduces_live_and_replaces_the_empty_item(tmp_path):
     path = copy_fixture(tmp_path, EXAMPLE)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         old = app.session.ledger.item("empty-vehicle")
         await pilot.press("w")
         await pilot.pause(0.3)
@@ -92,9 +90,7 @@ async def test_form_prefilled_from_the_file_reduces_live_and_replaces_the_empty_
 
 async def test_typed_readings_and_a_bad_tare_change_nothing_until_fixed(tmp_path):
     path = copy_fixture(tmp_path, EXAMPLE)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         before = app.session.ledger
         await pilot.press("w")
         await pilot.pause(0.3)
@@ -122,9 +118,7 @@ async def test_a_ledger_without_a_weighing_table_starts_empty_and_takes_typed_po
     path = tmp_path / "ledger.toml"
     text = EXAMPLE.read_text()
     path.write_text(text[: text.index("[weighing]")])
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await pilot.press("w")
         await pilot.pause(0.3)
         form = app.screen
@@ -141,4 +135,4 @@ async def test_a_ledger_without_a_weighing_table_starts_empty_and_takes_typed_po
         await _apply(app, pilot)
         new = app.session.ledger.item("empty-vehicle")
         assert abs(Fraction(new.cg[0]) - moment / sum(NET) * INCH) < Fraction(1, 10 ** 12)
-        assert app.session.ledger.extra["weighing"]["point"][2]["reading"] == 225.0
+        assert app.session.ledger.weighing["point"][2]["reading"] == 225.0

@@ -5,12 +5,12 @@ Predicted mass = basic mass x (1 + growth allowance), the allowance set by the
 item's design maturity (ANSI/AIAA S-120A with SAWE RP A-3 publish the concept;
 the percentages below are recalled, not re-read, so the table is configurable).
 
-Item keys (kept by the loader in `Item.extra`):
+Item keys (`Item.maturity`, `Item.growth`):
 
     maturity = "layout"      # one of CATEGORIES, or a category the ledger's [growth] adds
     growth = 0.12            # optional: explicit fraction of basic mass, wins over maturity
 
-Ledger keys (kept in `Ledger.extra`):
+Ledger tables (`Ledger.growth`, `Ledger.allocations`):
 
     [growth]                 # category = fraction; replaces or adds defaults
     layout = 0.20
@@ -69,7 +69,7 @@ def _fraction(value: object, *, subject: str, field: str) -> float:
 def growth_table(ledger: Ledger) -> dict[str, float]:
     """Default table overlaid with the ledger's `[growth]` table (validated)."""
     table = dict(DEFAULT_GROWTH)
-    raw = ledger.extra.get("growth")
+    raw = ledger.growth
     if raw is None:
         return table
     if not isinstance(raw, Mapping):
@@ -85,23 +85,27 @@ def growth_fractions(ledger: Ledger) -> np.ndarray:
 
     An item with neither key carries no allowance: it has not been classified.
     """
+    cached = ledger.__dict__.get("_growth_fractions")
+    if cached is not None:
+        return cached
     table = growth_table(ledger)
     out = np.zeros(len(ledger.items))
     for i, item in enumerate(ledger.items):
-        extra = item.extra
-        if not extra:
+        if item.maturity is None and item.growth is None:
             continue
-        maturity = extra.get("maturity")
+        maturity = item.maturity
         if maturity is not None:  # checked even when `growth` overrides it
             if not isinstance(maturity, str) or maturity not in table:
                 known = ", ".join(table)
                 raise SteelyardError(f"unknown maturity {maturity!r} (use one of: {known})",
                                      subject=item_subject(item.id), field="maturity")
-        explicit = extra.get("growth")
+        explicit = item.growth
         if explicit is not None:
             out[i] = _fraction(explicit, subject=item_subject(item.id), field="growth")
         elif maturity is not None:
             out[i] = table[maturity]
+    out.setflags(write=False)
+    ledger.__dict__["_growth_fractions"] = out  # a ledger is immutable; an edit makes a new one
     return out
 
 
@@ -127,14 +131,9 @@ def basic_and_predicted(mass: np.ndarray, cg: np.ndarray, fractions: np.ndarray
     return basic_total, _cg(mass, cg, basic_total), predicted_total, _cg(predicted, cg, predicted_total)
 
 
-def _allocations(ledger: Ledger) -> list[tuple[str, float]]:
-    raw = ledger.extra.get("allocation")
-    if raw is None:
-        return []
-    if isinstance(raw, Mapping):
-        raw = [raw]
-    if not isinstance(raw, Sequence) or isinstance(raw, str):
-        raise SteelyardError("write allocations as [[allocation]] tables", subject="allocation")
+def allocations(ledger: Ledger) -> list[tuple[str, float]]:
+    """Each `[[allocation]]` as (group path, not-to-exceed kg), validated."""
+    raw = ledger.allocations
     out: list[tuple[str, float]] = []
     seen: set[str] = set()
     for k, entry in enumerate(raw):
@@ -176,8 +175,8 @@ def allocation_margins(ledger: Ledger, row_mass: np.ndarray, fractions: np.ndarr
     `row_mass` is each row's mass as carried (unit mass x quantity, or the
     loadout amount for a variable item).
     """
-    allocations = _allocations(ledger)
-    if not allocations:
+    budgets = allocations(ledger)
+    if not budgets:
         return []
     row_mass = np.asarray(row_mass, dtype=float).reshape(-1)
     predicted = row_mass * (1.0 + np.asarray(fractions, dtype=float).reshape(-1))
@@ -189,7 +188,7 @@ def allocation_margins(ledger: Ledger, row_mass: np.ndarray, fractions: np.ndarr
     predicted_by = np.bincount(inverse, weights=predicted, minlength=len(codes))
     distinct = list(codes)
     out = []
-    for group, allocation in allocations:
+    for group, allocation in budgets:
         hit = _in_group(distinct, group)
         basic_kg = float(basic_by[hit].sum())
         predicted_kg = float(predicted_by[hit].sum())

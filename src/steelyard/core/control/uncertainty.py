@@ -1,6 +1,6 @@
 """Uncertainty of mass and CG: linear propagation, worst case, Monte Carlo.
 
-An item may say how well its mass and CG are known (kept in `Item.extra`):
+An item may say how well its mass and CG are known (`Item.tolerance`):
 
     tolerance = { mass = 0.5, cg = [0.01, 0.01, 0.005], kind = "sigma" }
 
@@ -55,7 +55,7 @@ def tolerance_kinds(ledger: Ledger) -> np.ndarray:
     """Kind of each item's tolerance (n,): "sigma", "bound", or "" (none given)."""
     out = np.full(len(ledger.items), "", dtype="<U5")
     for i, item in enumerate(ledger.items):
-        tol = item.extra.get("tolerance") if item.extra else None
+        tol = item.tolerance
         if tol is not None:
             out[i] = _kind(tol, item_subject(item.id))
     return out
@@ -86,7 +86,7 @@ def parse_tolerances(ledger: Ledger) -> tuple[np.ndarray, np.ndarray, np.ndarray
     cg_sigma, cg_bound = np.zeros((n, 3)), np.zeros((n, 3))
     units = ledger.units
     for i, item in enumerate(ledger.items):
-        tol = item.extra.get("tolerance") if item.extra else None
+        tol = item.tolerance
         if tol is None:
             continue
         subject = item_subject(item.id)

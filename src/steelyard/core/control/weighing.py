@@ -213,9 +213,9 @@ def _adjustment(entry: object, what: str, k: int, units: FileUnits, ledger: Ledg
     if "mass" in entry:
         mass = _si(entry["mass"], "mass", units.mass, subject, "mass")
     elif "volume" in entry:
-        volume = _si(entry["volume"], "volume", units.extra.get("volume"), subject, "volume")
+        volume = _si(entry["volume"], "volume", units.volume, subject, "volume")
         if "density" in entry:
-            density = _si(entry["density"], "density", units.extra.get("density"), subject, "density")
+            density = _si(entry["density"], "density", units.density, subject, "density")
         elif item is not None and item.density is not None:
             density = item.density
         else:
@@ -309,9 +309,7 @@ def replaced_item(ledger: Ledger, inputs: WeighingInputs, result: WeighingResult
     old = ledger.item(inputs.replaces)
     cg = tuple(float(old.cg[a]) if math.isnan(result.empty_cg[a]) else float(result.empty_cg[a])
                for a in range(3))
-    extra = {k: v for k, v in old.extra.items() if k != "growth"}
-    extra["maturity"] = "measured"
     if old.variable:
         raise SteelyardError("the empty vehicle is not a load item", subject=item_subject(old.id),
                              field="variable")
-    return old.evolve(mass=result.empty_mass, cg=cg, quantity=1, extra=extra)
+    return old.evolve(mass=result.empty_mass, cg=cg, quantity=1, maturity="measured", growth=None)

@@ -1,9 +1,21 @@
-"""The ledger's domain model: immutable items, loadouts, envelopes.
+"""The ledger document: immutable items, loadouts, envelopes and every other table.
 
-Values are SI (kg, m, kg·m², kg/m³). Per-item numbers are also kept as numpy
-columns (`ItemArrays`) built once per ledger, so roll-ups, checks and diffs
-never loop over items in Python. Edits make a new `Ledger`; the old one stays
-valid, which is what undo and diff need.
+Every table and key the file format defines has a named field here; there is
+no catch-all. The v1 contract's numbers (mass, CG, inertia, envelope points)
+are SI (kg, m, kg·m², kg/m³). The tables added since (limits, MAC, fuel,
+growth, allocations, weighing, sequences, change log, snapshot record, and
+item keys such as `tolerance` or `cg_table`) are held as written — validated
+by the reader, their meaning derived once by the module that owns the concept
+(core.limits.rules, core.control.growth, ...) and cached on the immutable
+ledger. Holding them as written is what makes every write a round trip: the
+writer emits exactly what was read, so a save cannot drift from the file.
+
+`user` (at the top level and in every item, loadout and envelope) is the
+user's own data: never interpreted, always written back verbatim.
+
+Per-item numbers are also kept as numpy columns (`ItemArrays`) built once per
+ledger, so roll-ups, checks and diffs never loop over items in Python. Edits
+make a new `Ledger`; the old one stays valid, which is what undo and diff need.
 """
 
 from __future__ import annotations
@@ -50,10 +62,23 @@ class Item:
     rotate: tuple[tuple[str, float], ...] = ()
     variable: bool = False
     density: float | None = None
-    #: keys this version does not interpret, kept as read so a save loses nothing
-    extra: Mapping[str, object] = field(default_factory=dict)
     #: field -> unit the user wrote that field in ("41.5 lb"), kept on save
     given_units: Mapping[str, str] = field(default_factory=dict)
+    # -- keys beyond the v1 contract, held as written (validated by the reader) --
+    #: design maturity category (core.control.growth)
+    maturity: str | None = None
+    #: explicit growth allowance: a fraction or a "12 %" string (core.control.growth)
+    growth: float | str | None = None
+    #: { mass, cg, kind } (core.control.uncertainty)
+    tolerance: Mapping[str, object] | None = None
+    #: optional equipment a loadout may leave off (core.loading.loadout)
+    removable: bool = False
+    #: rows [fraction, x, y, z] of a tank's CG against fill (core.loading.tank)
+    cg_table: tuple | None = None
+    #: { capacity_kg, fill }: what a snapshot's fixed item carried (io.ledger.snapshot)
+    loaded: Mapping[str, object] | None = None
+    #: the user's own data, never interpreted, kept verbatim
+    user: Mapping[str, object] | None = None
 
     @property
     def label(self) -> str:
@@ -89,7 +114,12 @@ class Loadout:
     name: str
     set: Mapping[str, Amount] = field(default_factory=dict)
     base: str | None = None
-    extra: Mapping[str, object] = field(default_factory=dict)
+    #: removable items left off / fitted again (ids, as written: a list or one string)
+    off: object = None
+    on: object = None
+    #: ramp | takeoff | landing (core.loading.loadout)
+    condition: str | None = None
+    user: Mapping[str, object] | None = None
 
 
 @dataclass(frozen=True)
@@ -99,7 +129,13 @@ class Envelope:
     name: str
     axis: str
     points: tuple[tuple[float, float], ...]
-    extra: Mapping[str, object] = field(default_factory=dict)
+    #: "%mac" when the CG numbers are %MAC (core.limits.rules); None: lengths
+    units: str | None = None
+    #: scope, as written: which conditions / loadouts / sequences it limits (None: all)
+    conditions: object = None
+    loadouts: object = None
+    sequences: object = None
+    user: Mapping[str, object] | None = None
 
     @property
     def array(self) -> np.ndarray:
@@ -111,7 +147,14 @@ class FileUnits:
     mass: str = "kg"
     length: str = "m"
     inertia: str = "kg*m**2"
-    extra: Mapping[str, str] = field(default_factory=dict)
+    #: optional units of bare volume and density numbers
+    volume: str | None = None
+    density: str | None = None
+
+    @property
+    def density_unit(self) -> str:
+        """Unit of a bare density number: the file's own, else mass per length cubed."""
+        return self.density or f"({self.mass})/({self.length})**3"
 
 
 @dataclass(frozen=True)
@@ -166,8 +209,18 @@ class Ledger:
     frame: Frame = field(default_factory=Frame)
     loadouts: tuple[Loadout, ...] = ()
     envelopes: tuple[Envelope, ...] = ()
-    #: top-level tables this version does not interpret, kept as read
-    extra: Mapping[str, object] = field(default_factory=dict)
+    # -- tables beyond the v1 contract, held as written (validated by the reader) --
+    limits: tuple[Mapping[str, object], ...] = ()  # [[limit]] (core.limits.rules)
+    mac: Mapping[str, object] | None = None  # [mac] (core.limits.rules)
+    fuel: Mapping[str, object] | None = None  # [fuel] (core.limits.rules)
+    growth: Mapping[str, object] | None = None  # [growth] (core.control.growth)
+    allocations: tuple[Mapping[str, object], ...] = ()  # [[allocation]] (core.control.growth)
+    weighing: Mapping[str, object] | None = None  # [weighing] (core.control.weighing)
+    sequences: tuple[Mapping[str, object], ...] = ()  # [[sequence]] (core.loading.sequence)
+    changes: tuple[Mapping[str, object], ...] = ()  # [[change]] (core.history.changes)
+    snapshot: Mapping[str, object] | None = None  # [snapshot] (io.ledger.snapshot)
+    #: [user]: the user's own data, never interpreted, kept verbatim
+    user: Mapping[str, object] | None = None
 
     @cached_property
     def arrays(self) -> ItemArrays:
@@ -207,6 +260,23 @@ class Ledger:
     def without_item(self, item_id: str) -> "Ledger":
         i = self.index[item_id]
         return self.evolve(items=self.items[:i] + self.items[i + 1:])
+
+
+#: keys beyond v1 of each table, as written: what diffs compare and displays list by name
+ITEM_MORE = ("cg_table", "growth", "loaded", "maturity", "removable", "tolerance", "user")
+LOADOUT_MORE = ("condition", "off", "on", "user")
+ENVELOPE_MORE = ("conditions", "loadouts", "sequences", "units", "user")
+
+
+def more_keys(entry: Item | Loadout | Envelope) -> dict[str, object]:
+    """The keys beyond v1 that `entry` gives (not None, not a false `removable`), by file name."""
+    names = ITEM_MORE if isinstance(entry, Item) else LOADOUT_MORE if isinstance(entry, Loadout) else ENVELOPE_MORE
+    out = {}
+    for k in names:
+        v = getattr(entry, k)
+        if v is not None and v is not False:
+            out[k] = v
+    return out
 
 
 #: hooks(old, new, row) that carry a derived per-row cache from a ledger to its

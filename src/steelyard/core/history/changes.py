@@ -329,21 +329,17 @@ def _table_to_change(t: object, n: int) -> Change:
 
 
 def log_from_ledger(ledger: Ledger) -> tuple[Change, ...]:
-    """The persisted change log (`[[change]]` tables kept in `ledger.extra`), oldest first."""
-    raw = ledger.extra.get("change")
-    if raw is None:
-        return ()
-    if not isinstance(raw, list):
-        raise SteelyardError("must be an array of tables [[change]]", subject="change")
-    return tuple(_table_to_change(t, i) for i, t in enumerate(raw, start=1))
+    """The persisted change log (`[[change]]` tables, `Ledger.changes`), oldest first."""
+    cached = ledger.__dict__.get("_change_log")
+    if cached is None:
+        cached = tuple(_table_to_change(t, i) for i, t in enumerate(ledger.changes, start=1))
+        ledger.__dict__["_change_log"] = cached  # a ledger is immutable; an edit makes a new one
+    return cached
 
 
 def ledger_with_log(ledger: Ledger, log: Sequence[Change]) -> Ledger:
     """The ledger with `log` as its `[[change]]` tables (cached columns kept)."""
-    extra = {k: v for k, v in ledger.extra.items() if k != "change"}
-    if log:
-        extra["change"] = [change_to_table(c) for c in log]
-    new = ledger.evolve(extra=extra)
+    new = ledger.evolve(changes=tuple(change_to_table(c) for c in log))
     if "arrays" in ledger.__dict__:
         with_arrays(new, ledger.arrays)
     if "index" in ledger.__dict__:

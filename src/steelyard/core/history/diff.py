@@ -29,7 +29,7 @@ from steelyard.core.display import DisplayUnits, fmt, pretty_unit
 from steelyard.core.errors import SteelyardError, item_subject
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.loading.loadout import fill_fractions, state_from_fill
-from steelyard.core.document.model import Amount, Envelope, Ledger, Loadout
+from steelyard.core.document.model import Amount, Envelope, Ledger, Loadout, more_keys
 from steelyard.core.physics.rollup import MassProperties, rollup_state
 from steelyard.core.limits.status import EnvelopeResult, envelope_results
 from steelyard.core.units import unit_factor
@@ -101,7 +101,7 @@ class Carried:
 
 
 def is_snapshot(ledger: Ledger) -> bool:
-    return isinstance(ledger.extra.get(SNAPSHOT_TABLE), Mapping)
+    return ledger.snapshot is not None
 
 
 def _loaded_marker(item_id: str, raw: object) -> tuple[float, float]:
@@ -130,7 +130,7 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     state = state_from_fill(ledger, fill, loadout)
     variable = a.variable.copy()
     capacity = np.where(variable, a.unit_mass * a.quantity, np.nan)
-    extras: list[Mapping[str, object]] = list(map(operator.attrgetter("extra"), items))
+    extras: list[Mapping[str, object]] = list(map(more_keys, items))
     if is_snapshot(ledger):
         for i in [i for i, ex in enumerate(extras) if LOADED_KEY in ex]:
             capacity[i], _ = _loaded_marker(items[i].id, extras[i][LOADED_KEY])
@@ -159,7 +159,7 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
 
 @dataclass(frozen=True)
 class ItemChange:
-    """A matched item whose fields differ: field -> (old, new), SI, in FIELDS order then extra.*"""
+    """A matched item whose fields differ: field -> (old, new), SI, in FIELDS order then the keys beyond v1"""
 
     id: str
     fields: Mapping[str, tuple[object, object]]
@@ -331,7 +331,7 @@ def _extra_changes(ea: Mapping, eb: Mapping) -> dict[str, tuple[object, object]]
     for k in sorted(set(ea) | set(eb)):
         x, y = ea.get(k), eb.get(k)
         if not _same(x, y):
-            out[f"extra.{k}"] = (x, y)
+            out[k] = (x, y)
     return out
 
 
@@ -381,7 +381,7 @@ def _envelope_definitions(a: Ledger, b: Ledger) -> DefinitionChanges:
             fields["axis"] = (x.axis, y.axis)
         if not _same(_envelope_points(x), _envelope_points(y)):
             fields["points_m_kg"] = (_envelope_points(x), _envelope_points(y))
-        fields.update(_extra_changes(x.extra, y.extra))
+        fields.update(_extra_changes(more_keys(x), more_keys(y)))
         if fields:
             changed.append((name, fields))
     return DefinitionChanges(tuple(n for n in eb if n not in ea), tuple(n for n in ea if n not in eb),
@@ -411,7 +411,7 @@ def _loadout_definitions(a: Ledger, b: Ledger) -> DefinitionChanges:
             u, v = _amount(x.set.get(item_id)), _amount(y.set.get(item_id))
             if not _same(u, v):
                 fields[f"set.{item_id}"] = (u, v)
-        fields.update(_extra_changes(x.extra, y.extra))
+        fields.update(_extra_changes(more_keys(x), more_keys(y)))
         if fields:
             changed.append((name, fields))
     return DefinitionChanges(tuple(n for n in lb if n not in la), tuple(n for n in la if n not in lb),

@@ -83,7 +83,7 @@ class MacRef:
 
 
 def _read_mac(ledger: Ledger) -> MacRef | bool:
-    raw = ledger.extra.get("mac")
+    raw = ledger.mac
     if raw is None:
         return False
     t = _strict_table(raw, "mac", {"lemac", "length"})
@@ -111,7 +111,7 @@ def mac_reference(ledger: Ledger) -> MacRef | None:
 
 
 def _read_fuel(ledger: Ledger) -> np.ndarray:
-    raw = ledger.extra.get("fuel")
+    raw = ledger.fuel
     if raw is None:
         return np.zeros(0, dtype=np.intp)
     t = _strict_table(raw, "fuel", {"groups", "items"})
@@ -162,25 +162,29 @@ def zero_fuel_fill(ledger: Ledger, fill: np.ndarray) -> np.ndarray | None:
 
 
 def sequence_names(ledger: Ledger) -> list[str]:
-    raw = ledger.extra.get("sequence")
-    if type(raw) is not list:
-        return []
-    return [s["name"] for s in raw if type(s) is dict and isinstance(s.get("name"), str)]
+    return [s["name"] for s in ledger.sequences if isinstance(s.get("name"), str)]
 
 
 SCOPE_KEYS = ("conditions", "loadouts", "sequences")
 
 
-def read_scope(raw: dict, ledger: Ledger, subject: str) -> frozenset | None:
+def read_scope(raw, ledger: Ledger, subject: str) -> frozenset | None:
     """``conditions`` / ``loadouts`` / ``sequences``: which states a limit applies to.
 
     None (no key given) means every state. Otherwise a set of (kind, name)
     tags; a state is checked when it carries any of them (see `state tags`).
     """
+    if isinstance(raw, Envelope):
+        raw = {k: getattr(raw, k) for k in SCOPE_KEYS if getattr(raw, k) is not None}
     if not any(k in raw for k in SCOPE_KEYS):
         return None
     known = {"conditions": set(CONDITION_WORDS), "loadouts": {lo.name for lo in ledger.loadouts},
              "sequences": set(sequence_names(ledger))}
+    frozen = (ledger.snapshot or {}).get("names")
+    if isinstance(frozen, dict):  # a snapshot: the names its source had (io.ledger.snapshot)
+        for key in ("loadouts", "sequences"):
+            names = frozen.get(key, [])
+            known[key] |= {x for x in names if isinstance(x, str)} if isinstance(names, list) else set()
     out = set()
     for key in SCOPE_KEYS:
         if key not in raw:
@@ -224,7 +228,7 @@ class EnvelopeSpec:
 
 def envelope_points(ledger: Ledger, env: Envelope) -> tuple[tuple[float, float], ...]:
     """The envelope's vertices as (station m, mass kg); a %MAC envelope is converted here."""
-    units = env.extra.get("units", "length") if env.extra else "length"
+    units = env.units or "length"
     subject = f"envelope {said(env.name)}"
     if units in ("length", None):
         return env.points
@@ -247,10 +251,9 @@ def _read_envelopes(ledger: Ledger) -> tuple[EnvelopeSpec, ...]:
     out = []
     for env in ledger.envelopes:
         subject = f"envelope {said(env.name)}"
-        extra = env.extra or {}
         pts = envelope_points(ledger, env)
-        out.append(EnvelopeSpec(env.name, env.axis, pts, extra.get("units", "length") in ("%mac", "%MAC"),
-                                read_scope(extra, ledger, subject)))
+        out.append(EnvelopeSpec(env.name, env.axis, pts, env.units in ("%mac", "%MAC"),
+                                read_scope(env, ledger, subject)))
     return tuple(out)
 
 
@@ -355,11 +358,7 @@ def _read_limit(raw, k: int, ledger: Ledger) -> LimitSpec:
 
 
 def _read_limits(ledger: Ledger) -> tuple[LimitSpec, ...]:
-    raw = ledger.extra.get("limit")
-    if raw is None:
-        return ()
-    if type(raw) is not list:
-        raise SteelyardError("must be an array of tables [[limit]]", subject="limit")
+    raw = ledger.limits
     out = [_read_limit(r, k, ledger) for k, r in enumerate(raw, start=1)]
     names = [x.name for x in out]
     for name in names:

@@ -88,7 +88,7 @@ def chain(ledger: Ledger, name: str) -> list[Loadout]:
 
 def is_removable(item: Item, where: str | None = None) -> bool:
     """True when a fixed item is marked ``removable = true`` (optional equipment)."""
-    flag = item.extra.get("removable", False) if item.extra else False
+    flag = item.removable
     if type(flag) is not bool:
         raise SteelyardError(f"must be true or false, got {said(flag)}", subject=where or f"item {said(item.id)}",
                              field="removable")
@@ -96,7 +96,9 @@ def is_removable(item: Item, where: str | None = None) -> bool:
 
 
 def _id_list(lo: Loadout, key: str) -> list[str]:
-    raw = lo.extra.get(key, [])
+    raw = getattr(lo, key)
+    if raw is None:
+        return []
     if isinstance(raw, str):
         raw = [raw]
     if type(raw) is not list or not all(isinstance(x, str) for x in raw):
@@ -139,7 +141,7 @@ def fill_fractions(ledger: Ledger, name: str | None) -> np.ndarray:
             if not a.variable[i]:
                 raise SteelyardError(f"item {said(item_id)} is not variable", subject=where, field=f"set.{item_id}")
             fill[i] = amount_fraction(ledger, item_id, amount, where)
-        if lo.extra:
+        if lo.off is not None or lo.on is not None:
             off, on = _id_list(lo, "off"), _id_list(lo, "on")
             both = sorted(set(off) & set(on))
             if both:
@@ -156,8 +158,8 @@ def loadout_condition(ledger: Ledger, name: str | None) -> str:
     if name is None:
         return DEFAULT_CONDITION
     for lo in reversed(chain(ledger, name)):
-        if lo.extra and "condition" in lo.extra:
-            c = lo.extra["condition"]
+        if lo.condition is not None:
+            c = lo.condition
             if c not in CONDITIONS:
                 raise SteelyardError(f"must be one of {', '.join(CONDITIONS)}, got {said(c)}",
                                      subject=f"loadout {said(lo.name)}", field="condition")

@@ -140,11 +140,7 @@ def _read_sequence(raw, k: int, ledger: Ledger) -> SequenceSpec:
 
 
 def _read_all(ledger: Ledger) -> tuple[SequenceSpec, ...]:
-    raw = ledger.extra.get("sequence")
-    if raw is None:
-        return ()
-    if type(raw) is not list:
-        raise SteelyardError("must be an array of tables [[sequence]]", subject="sequence")
+    raw = ledger.sequences
     out = tuple(_read_sequence(s, k, ledger) for k, s in enumerate(raw, 1))
     names = [s.name for s in out]
     for s in out:

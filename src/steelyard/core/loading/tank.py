@@ -60,7 +60,7 @@ def read_table(ledger: Ledger, row: int) -> TankTable:
     """Validate one item's ``cg_table`` and convert it to SI."""
     item = ledger.items[row]
     where = item_subject(item.id)
-    raw = item.extra[KEY]
+    raw = list(item.cg_table)
     if not item.variable:
         raise SteelyardError("only a variable item's CG can move with fill (set variable = true)",
                              subject=where, field=KEY)
@@ -96,7 +96,7 @@ def tank_tables(ledger: Ledger) -> dict[int, TankTable]:
     """Every item's CG table, by item index; read once per ledger and kept with it."""
     cached = ledger.__dict__.get("_tank_tables")
     if cached is None:
-        cached = {i: read_table(ledger, i) for i, it in enumerate(ledger.items) if it.extra and KEY in it.extra}
+        cached = {i: read_table(ledger, i) for i, it in enumerate(ledger.items) if it.cg_table is not None}
         ledger.__dict__["_tank_tables"] = cached  # a ledger is immutable; an edit makes a new one
     return cached
 
@@ -109,7 +109,7 @@ def _carry_tables(old: Ledger, new: Ledger, row: int) -> None:
     tables = dict(cached)
     tables.pop(row, None)
     item = new.items[row]
-    if item.extra and KEY in item.extra:
+    if item.cg_table is not None:
         tables[row] = read_table(new, row)
     new.__dict__["_tank_tables"] = tables
 

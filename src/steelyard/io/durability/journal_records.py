@@ -7,10 +7,12 @@ Split from journal.py, which keeps the file format and the writer.
 from __future__ import annotations
 
 import datetime as _dt
+from dataclasses import replace
 
 from steelyard.core.errors import SteelyardError
 from steelyard.core.physics.inertia import COMPONENTS
-from steelyard.core.document.model import Amount, Envelope, FileUnits, Frame, Item, Ledger, Loadout, Shape
+from steelyard.core.document.model import (ENVELOPE_MORE, ITEM_MORE, LOADOUT_MORE, Amount, Envelope, FileUnits, Frame,
+                                           Item, Ledger, Loadout, Shape, more_keys)
 
 _MAX_ITEM_OPS = 64
 
@@ -63,8 +65,9 @@ def item_to_json(it: Item) -> dict:
         d["rotate"] = [[a, float(deg)] for a, deg in it.rotate]
     if it.density is not None:
         d["density"] = float(it.density)
-    if it.extra:
-        d["extra"] = _tag(dict(it.extra))
+    more = more_keys(it)
+    if more:
+        d["extra"] = _tag(more)
     if it.given_units:
         d["given_units"] = dict(it.given_units)
     return d
@@ -94,7 +97,7 @@ def item_from_json(d: dict) -> Item:
         inertia=None if inertia is None else tuple(_finite(inertia[k], f"inertia.{k}") for k in COMPONENTS),
         shape=shape, rotate=tuple((a, deg) for a, deg in d.get("rotate", ())),
         variable=bool(d.get("variable", False)), density=d.get("density"),
-        extra=_untag(d.get("extra", {})), given_units=dict(d.get("given_units", {})))
+        given_units=dict(d.get("given_units", {})), **_more(d, ITEM_MORE))
 
 
 def amount_to_json(a: Amount | None) -> dict | None:
@@ -107,20 +110,49 @@ def amount_from_json(d: dict | None) -> Amount | None:
 
 def loadout_to_json(lo: Loadout) -> dict:
     return {"name": lo.name, "base": lo.base, "set": {k: amount_to_json(a) for k, a in lo.set.items()},
-            "extra": _tag(dict(lo.extra))}
+            "extra": _tag(more_keys(lo))}
 
 
 def loadout_from_json(d: dict) -> Loadout:
     return Loadout(d["name"], {k: amount_from_json(a) for k, a in d.get("set", {}).items()}, d.get("base"),
-                   _untag(d.get("extra", {})))
+                   **_more(d, LOADOUT_MORE))
 
 
 def _envelope_to_json(e: Envelope) -> dict:
-    return {"name": e.name, "axis": e.axis, "points": [list(p) for p in e.points], "extra": _tag(dict(e.extra))}
+    return {"name": e.name, "axis": e.axis, "points": [list(p) for p in e.points], "extra": _tag(more_keys(e))}
 
 
 def _envelope_from_json(d: dict) -> Envelope:
-    return Envelope(d["name"], d["axis"], tuple((c, m) for c, m in d["points"]), _untag(d.get("extra", {})))
+    return Envelope(d["name"], d["axis"], tuple((c, m) for c, m in d["points"]), **_more(d, ENVELOPE_MORE))
+
+
+#: the ledger's tables beyond v1: file name -> Ledger field
+_TABLE_FIELDS = {"limit": "limits", "mac": "mac", "fuel": "fuel", "growth": "growth", "allocation": "allocations",
+                 "weighing": "weighing", "sequence": "sequences", "change": "changes", "snapshot": "snapshot",
+                 "user": "user"}
+
+
+def _tables_from_json(raw: dict, *, whole: bool) -> dict:
+    """Ledger fields from a record's tables by file name. A "tables" record holds the tables that
+    changed (`whole` False); an "extra" record of earlier versions held them all, so one left out is empty."""
+    if not isinstance(raw, dict) or set(raw) - set(_TABLE_FIELDS):
+        raise ValueError("unknown tables in record")
+    out = {}
+    for name, attr in _TABLE_FIELDS.items():
+        if name in raw:
+            v = raw[name]
+            out[attr] = tuple(v) if isinstance(v, list) else (v or None)  # {}: the table was removed
+        elif whole:
+            out[attr] = () if attr in ("limits", "allocations", "sequences", "changes") else None
+    return out
+
+
+def _more(d: dict, names: tuple[str, ...]) -> dict:
+    """The keys beyond v1 a record carries (under "extra", its name in earlier versions)."""
+    raw = _untag(d.get("extra", {}))
+    if not isinstance(raw, dict) or set(raw) - set(names):
+        raise ValueError(f"unknown keys in record: {sorted(set(raw) - set(names)) if isinstance(raw, dict) else raw}")
+    return {k: tuple(v) if k == "cg_table" else v for k, v in raw.items()}
 
 
 # Builders for the records the editor writes (see docs/durability.md).
@@ -170,7 +202,7 @@ def _rename_in(loadouts: list[Loadout], old: str, new: str | None) -> list[Loado
                     amounts[k] = v
                 elif new is not None:
                     amounts[new] = v
-            lo = Loadout(lo.name, amounts, lo.base, lo.extra)
+            lo = replace(lo, set=amounts)
         out.append(lo)
     return out
 
@@ -262,7 +294,7 @@ def _set_amount(w: _Work, rec: dict) -> None:
                 amounts.pop(item_id, None)
             else:
                 amounts[item_id] = amount
-            w.loadouts[k] = Loadout(lo.name, amounts, lo.base, lo.extra)
+            w.loadouts[k] = replace(lo, set=amounts)
             return
     raise KeyError(f"sets an amount in loadout {name!r}, which is not in the ledger")
 
@@ -297,11 +329,13 @@ def _apply(w: _Work, rec: dict) -> None:
         w.changes["envelopes"] = tuple(_envelope_from_json(d) for d in rec["envelopes"])
     elif op == "units":
         u = rec["units"]
-        w.changes["units"] = FileUnits(u["mass"], u["length"], u["inertia"], dict(u.get("extra", {})))
+        more = dict(u.get("extra", {}))  # volume / density: under "extra" in earlier versions
+        w.changes["units"] = FileUnits(u["mass"], u["length"], u["inertia"], u.get("volume", more.get("volume")),
+                                       u.get("density", more.get("density")))
     elif op == "frame":
         w.changes["frame"] = Frame(rec["frame"]["x"], rec["frame"]["y"], rec["frame"]["z"])
-    elif op == "extra":
-        w.changes["extra"] = _untag(rec["extra"])
+    elif op in ("tables", "extra"):  # "extra": by file name, as earlier versions wrote it
+        w.changes.update(_tables_from_json(_untag(rec[op]), whole=op == "extra"))
     elif op != "saved":
         raise ValueError(f"unknown operation {op!r}")
 
@@ -363,7 +397,7 @@ def _item_ops(old: tuple[Item, ...], new: tuple[Item, ...]) -> list[dict]:
 
 
 def _lo_key(lo: Loadout) -> tuple:
-    return lo.name, lo.base, list(lo.set.items()), dict(lo.extra)
+    return lo.name, lo.base, list(lo.set.items()), more_keys(lo)
 
 
 def _loadout_ops(old: list[Loadout], new: tuple[Loadout, ...]) -> list[dict]:
@@ -373,7 +407,7 @@ def _loadout_ops(old: list[Loadout], new: tuple[Loadout, ...]) -> list[dict]:
     for k, (a, b) in enumerate(zip(old, new)):
         if a is b or _lo_key(a) == _lo_key(b):
             continue
-        if (a.base, dict(a.extra)) == (b.base, dict(b.extra)):
+        if (a.base, more_keys(a)) == (b.base, more_keys(b)):
             few = [amount_record(b.name, key, None) for key in a.set if key not in b.set]
             few += [amount_record(b.name, key, v) for key, v in b.set.items() if a.set.get(key) != v]
             amounts = dict(a.set)
@@ -409,11 +443,16 @@ def edit_record(old: Ledger, new: Ledger, *, change: dict | None = None) -> dict
     if new.units != old.units:
         u = new.units
         ops.append({"op": "units", "units": {"mass": u.mass, "length": u.length, "inertia": u.inertia,
-                                             "extra": dict(u.extra)}})
+                                             "volume": u.volume, "density": u.density}})
     if new.frame != old.frame:
         ops.append({"op": "frame", "frame": {"x": new.frame.x, "y": new.frame.y, "z": new.frame.z}})
-    if new.extra != old.extra:
-        ops.append({"op": "extra", "extra": _tag(dict(new.extra))})
+    tables = {name: getattr(new, attr) for name, attr in _TABLE_FIELDS.items()
+              if getattr(new, attr) != getattr(old, attr)}
+    # a table removed is written empty: an empty array, or an empty table for a single one
+    tables = {k: (v if v is not None else {}) for k, v in tables.items()}
+    if tables:
+        ops.append({"op": "tables", "tables": _tag({k: list(v) if isinstance(v, tuple) else v
+                                                    for k, v in tables.items()})})
     if not ops:
         return None
     rec = dict(ops[0]) if len(ops) == 1 else {"ops": ops}

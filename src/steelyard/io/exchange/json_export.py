@@ -15,10 +15,9 @@ import numpy as np
 
 from steelyard.core.control.growth import growth_fractions
 from steelyard.core.loading.loadout import resolve
-from steelyard.core.document.model import Ledger
+from steelyard.core.document.model import more_keys, Ledger
 from steelyard.io.report.control import tolerance_si
 from steelyard.io.report.control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth
-from steelyard.io.exchange.csv_model import item_more
 from steelyard.io.exchange.rollup_json import rollup_record
 
 FORMAT = "steelyard-export"
@@ -45,7 +44,7 @@ def items_record(ledger: Ledger) -> list[dict]:
                "quantity": it.quantity, "cg_m": cg[i], "variable": it.variable,
                "inertia_kg_m2": own[i] if (it.inertia is not None or it.shape is not None) else None,
                "density_kg_m3": it.density}
-        extra = item_more(it)
+        extra = more_keys(it)
         if "maturity" in extra:
             row["maturity"] = extra["maturity"]
         if "maturity" in extra or "growth" in extra:

@@ -1,9 +1,16 @@
-"""File text -> `Ledger`, checking every field of the v1 contract.
+"""File text -> `Ledger`: the strict reader.
+
+Every table and key is checked against the format's schema first
+(core.document.schema: an unknown one is an error with a "did you mean"
+hint; `user` tables are the user's own and never looked into), then the v1
+contract's fields are read here and every later table is validated once by
+the module that owns its meaning (core.validation), so a bad file is refused
+when it is opened, not when some command happens to need the table.
 
 Each problem raises one `SteelyardError` naming the file, the item (or
-loadout, envelope) and the field. Bare numbers are converted to SI in bulk
-with one factor per column; only values written as strings with a unit go
-through the (cached) pint parser.
+loadout, envelope, table) and the field. Bare numbers are converted to SI in
+bulk with one factor per column; only values written as strings with a unit
+go through the (cached) pint parser.
 """
 
 from __future__ import annotations
@@ -14,7 +21,9 @@ from collections.abc import Callable
 
 import numpy as np
 
-from steelyard.core.errors import FormatError, SteelyardError, UnitError, item_subject
+from steelyard.core.document.schema import check_document, unknown_key
+from steelyard.core.errors import FormatError, SteelyardError, UnitError, item_subject, said
+from steelyard.core.validation import validate_document
 from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, realisability_problems, tensor_from_six
 from steelyard.core.document.model import (DIRECTIONS, Amount, Envelope, FileUnits, Frame, Item, ItemArrays, Ledger,
                           Loadout, Shape, with_arrays)
@@ -22,9 +31,12 @@ from steelyard.core.physics.rotation import rotation_matrix
 from steelyard.core.units import parse_quantity, to_si, unit_factor
 
 FORMAT_VERSION = 1
+#: the v1 contract's item keys; an item with only these skips the per-key reading of the rest
 ITEM_KEYS = {"id", "name", "group", "mass", "cg", "quantity", "inertia", "shape", "rotate",
              "variable", "density"}
-TOP_KEYS = {"steelyard", "units", "frame", "item", "loadout", "envelope"}
+#: item keys beyond v1 -> the TOML types each may hold (deeper checks: core.validation)
+_ITEM_MORE = {"maturity": (str,), "growth": (int, float, str), "tolerance": (dict,), "removable": (bool,),
+              "cg_table": (list,), "loaded": (dict,), "user": (dict,)}
 _AXIS_VECTOR = {"fwd": (1, 0, 0), "aft": (-1, 0, 0), "right": (0, 1, 0), "left": (0, -1, 0),
                 "down": (0, 0, 1), "up": (0, 0, -1)}
 
@@ -43,20 +55,17 @@ def read_units(raw: object, source: str) -> FileUnits:
     kinds = {"mass": "mass", "length": "length", "inertia": "inertia", "volume": "volume",
              "density": "density"}
     values: dict[str, str] = {}
-    extra: dict[str, str] = {}
     for key, value in raw.items():
+        if key not in kinds:
+            raise unknown_key(key, kinds, subject="units")
         if not isinstance(value, str):
             raise SteelyardError(f"must be a unit string, got {value!r}", file=source, subject="units", field=key)
-        if key in kinds:
-            try:
-                unit_factor(value, kinds[key])
-            except UnitError as exc:
-                raise exc.located(file=source, subject="units", field=key)
-        if key in ("mass", "length", "inertia"):
-            values[key] = value
-        else:
-            extra[key] = value
-    return FileUnits(**values, extra=extra)
+        try:
+            unit_factor(value, kinds[key])
+        except UnitError as exc:
+            raise exc.located(file=source, subject="units", field=key)
+        values[key] = value
+    return FileUnits(**values)
 
 
 def read_frame(raw: object, source: str) -> Frame:
@@ -263,11 +272,9 @@ class _Items:
                 raise self.fail(i, "group", f"must be a string, got {group!r}")
             inertia = shape = density = None
             rotate: tuple = ()
-            extra = None
+            more = None
             if not ITEM_KEYS.issuperset(it):
-                extra = {k: val for k, val in it.items() if k not in ITEM_KEYS}
-                if _too_deep(extra):
-                    raise self.fail(i, None, f"a value is nested more than {_MAX_DEPTH} levels deep")
+                more = self._more(i, it)
             if "inertia" in it:
                 if "shape" in it:
                     raise self.fail(i, "inertia", "give inertia or shape, not both")
@@ -285,12 +292,11 @@ class _Items:
             if "density" in it:
                 if g is None:
                     g = given[i] = {}
-                density = _quantity(it["density"], "density", u.extra.get("density", f"({u.mass})/({u.length})**3"),
-                                    src, item_subject(ident), "density", g)
+                density = _quantity(it["density"], "density", u.density_unit, src, item_subject(ident), "density", g)
                 if not density > 0:
                     raise self.fail(i, "density", f"must be > 0, got {it['density']!r}")
             item = Item(ident, mass_l[i], tuple(cg_l[i]), name, group, int(q_l[i]), inertia, shape, rotate,
-                        bool(variable[i]), density, extra or {}, g or {})
+                        bool(variable[i]), density, g or {}, **(more or {}))
             items.append(item)
             if shape is not None:
                 try:
@@ -314,6 +320,20 @@ class _Items:
                 r = rotation_matrix(item.rotate)
                 own[i] = r @ own[i] @ r.T
         return items, ItemArrays(mass, quantity, np.asfortranarray(cg), own, variable)
+
+    def _more(self, i: int, it: dict) -> dict:
+        """The item keys beyond v1, type-checked here; their meaning is checked in core.validation."""
+        out: dict = {}
+        for key, types in _ITEM_MORE.items():
+            if key not in it:
+                continue
+            v = it[key]
+            if type(v) not in types:
+                raise self.fail(i, key, f"must be {_KIND_WORDS[types]}, got {said(v)}")
+            if _too_deep(v):
+                raise self.fail(i, key, f"nested more than {_MAX_DEPTH} levels deep")
+            out[key] = tuple(v) if key == "cg_table" else v
+        return out
 
     def _bulk_inertia(self) -> dict[int, tuple]:
         """Inertia tables of bare numbers with xx, yy, zz present, converted in one array pass."""
@@ -462,11 +482,9 @@ def read_loadouts(raw: object, ledger_index: dict[str, int], variable: np.ndarra
                 raise SteelyardError(f"item {item_id!r} is not variable (set variable = true)", file=source,
                                      subject=subject, field=field)
             amounts[item_id] = read_amount(value, source, subject, field)
-        extra = {key: val for key, val in lo.items() if key not in ("name", "base", "set")}
-        if _too_deep(extra):
-            raise SteelyardError(f"a value is nested more than {_MAX_DEPTH} levels deep", file=source,
-                                 subject=subject)
-        out.append(Loadout(name, amounts, base, extra))
+        more = _table_keys(lo, {"off": (list, str), "on": (list, str), "condition": (str,), "user": (dict,)},
+                           source, subject)
+        out.append(Loadout(name, amounts, base, **more))
     return tuple(out)
 
 
@@ -512,12 +530,54 @@ def read_envelopes(raw: object, units: FileUnits, source: str) -> tuple:
         problem = _envelope_problem(points)
         if problem:
             raise SteelyardError(problem, file=source, subject=subject, field="points")
-        extra = {key: val for key, val in env.items() if key not in ("name", "axis", "points")}
-        if _too_deep(extra):
-            raise SteelyardError(f"a value is nested more than {_MAX_DEPTH} levels deep", file=source,
-                                 subject=subject)
-        out.append(Envelope(name, axis, tuple(points), extra))
+        more = _table_keys(env, {"units": (str,), "conditions": (list, str), "loadouts": (list, str),
+                                 "sequences": (list, str), "user": (dict,)}, source, subject)
+        out.append(Envelope(name, axis, tuple(points), **more))
     return tuple(out)
+
+
+_KIND_WORDS = {(str,): "text", (int, float, str): "a number or text", (dict,): "a table", (bool,): "true or false",
+               (list,): "a list", (list, str): "a list of names (or one name)"}
+
+
+def _table_keys(raw: dict, kinds: dict, source: str, subject: str) -> dict:
+    """Keys beyond v1 of a loadout or envelope, type-checked; meaning checked in core.validation."""
+    out = {}
+    for key, types in kinds.items():
+        if key in raw:
+            v = raw[key]
+            if type(v) not in types:
+                raise SteelyardError(f"must be {_KIND_WORDS[types]}, got {said(v)}", file=source, subject=subject,
+                                     field=key)
+            if _too_deep(v):
+                raise SteelyardError(f"nested more than {_MAX_DEPTH} levels deep", file=source, subject=subject,
+                                     field=key)
+            out[key] = v
+    return out
+
+
+#: top-level tables beyond v1: file name -> (Ledger field, array of tables?)
+_TABLES = {"limit": ("limits", True), "mac": ("mac", False), "fuel": ("fuel", False), "growth": ("growth", False),
+           "allocation": ("allocations", True), "weighing": ("weighing", False), "sequence": ("sequences", True),
+           "change": ("changes", True), "snapshot": ("snapshot", False), "user": ("user", False)}
+
+
+def _other_tables(data: dict, source: str) -> dict:
+    out = {}
+    for name, (attr, array) in _TABLES.items():
+        if name not in data:
+            continue
+        v = data[name]
+        if array:
+            if type(v) is not list or not all(type(x) is dict for x in v):
+                raise SteelyardError(f"must be an array of tables [[{name}]]", file=source, subject=name)
+            v = tuple(v)
+        elif type(v) is not dict:
+            raise SteelyardError(f"must be a table [{name}]", file=source, subject=name)
+        if _too_deep(v):
+            raise SteelyardError(f"nested more than {_MAX_DEPTH} levels deep", file=source, subject=name)
+        out[attr] = v
+    return out
 
 
 def _envelope_problem(points: list) -> str | None:
@@ -553,6 +613,10 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
                           "upgrade steelyard", file=source, field="steelyard")
     if version < 1:
         raise FormatError(f"unknown format version {version}", file=source, field="steelyard")
+    try:
+        check_document(data)
+    except SteelyardError as exc:
+        raise exc.located(file=source)
     units = read_units(data.get("units"), source)
     frame = read_frame(data.get("frame"), source)
     raw_items = data.get("item", [])
@@ -562,10 +626,11 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
     index = {it.id: i for i, it in enumerate(items)}
     loadouts = read_loadouts(data.get("loadout"), index, arrays.variable, source)
     envelopes = read_envelopes(data.get("envelope"), units, source)
-    extra = {k: v for k, v in data.items() if k not in TOP_KEYS}
-    for k, v in extra.items():
-        if _too_deep(v):
-            raise SteelyardError(f"nested more than {_MAX_DEPTH} levels deep", file=source, subject=repr(k))
-    ledger = Ledger(tuple(items), units, frame, loadouts, envelopes, extra)
+    ledger = Ledger(tuple(items), units, frame, loadouts, envelopes, **_other_tables(data, source))
     ledger.__dict__["index"] = index
-    return with_arrays(ledger, arrays)
+    ledger = with_arrays(ledger, arrays)
+    try:
+        validate_document(ledger)
+    except SteelyardError as exc:
+        raise exc.located(file=source)
+    return ledger

@@ -21,7 +21,7 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -29,8 +29,11 @@ from steelyard import __version__
 from steelyard.core.caution import CAUTION
 from steelyard.core.history.diff import LOADED_KEY, SNAPSHOT_TABLE, is_snapshot
 from steelyard.core.errors import SteelyardError
-from steelyard.core.loading.loadout import fill_fractions, resolve
-from steelyard.core.document.model import FileUnits, ItemArrays, Ledger, with_arrays
+from steelyard.core.document.pinning import pin_units
+from steelyard.core.limits.rules import SCOPE_KEYS, envelope_specs
+from steelyard.core.loading.loadout import fill_fractions, loadout_condition, resolve
+from steelyard.core.loading.tank import cg_for_fill
+from steelyard.core.document.model import Envelope, FileUnits, ItemArrays, Ledger, with_arrays
 from steelyard.core.physics.rollup import MassProperties, rollup_state
 from steelyard.core.limits.status import envelope_results
 from steelyard.io.ledger.write import ledger_to_toml
@@ -57,8 +60,7 @@ class SnapshotInfo:
 
 def content_text(ledger: Ledger) -> str:
     """Canonical text of the ledger without its [snapshot] table: what the hash covers."""
-    rest = {k: v for k, v in ledger.extra.items() if k != SNAPSHOT_TABLE}
-    return ledger_to_toml(ledger.evolve(extra=rest))
+    return ledger_to_toml(ledger, snapshot=False)
 
 
 def content_hash(ledger: Ledger) -> str:
@@ -66,24 +68,56 @@ def content_hash(ledger: Ledger) -> str:
 
 
 def as_carried(ledger: Ledger, loadout: str | None) -> Ledger:
-    """The configuration as a ledger of fixed items in SI (see the module docstring)."""
+    """The configuration as a ledger of fixed items in SI (see the module docstring).
+
+    What only made sense with something left to load goes: loadouts, sequences,
+    the [fuel] table, tank CG tables (each tank's CG is the one it has at this
+    fill). %MAC envelopes become stations. Envelopes and limits keep their
+    scope: the [snapshot] record names the loadout frozen, its condition and
+    the source's loadout and sequence names, so a scope means what it meant.
+    Tables kept as written get their units pinned, so their numbers mean in
+    the SI file what they meant in the source.
+    """
     fill = fill_fractions(ledger, loadout)
+    cg_rows = cg_for_fill(ledger, fill)
+    units = ledger.units
     items = []
     for i, it in enumerate(ledger.items):
         changes: dict = {}
         if it.given_units:
             changes["given_units"] = {}
-        if it.variable:
-            f = float(fill[i])
+        if it.tolerance is not None:
+            changes["tolerance"] = pin_units(it.tolerance, "tolerance", units)
+        f = float(fill[i])
+        if it.variable or f != 1.0:
             changes.update(
                 mass=it.mass * f, variable=False,
-                inertia=None if it.inertia is None else tuple(v * f for v in it.inertia),
-                extra={**it.extra, LOADED_KEY: {"capacity_kg": it.mass * it.quantity, "fill": f}})
+                inertia=None if it.inertia is None else tuple(v * f for v in it.inertia))
+            if it.variable:
+                changes["loaded"] = {"capacity_kg": it.mass * it.quantity, "fill": f}
+            if it.cg_table is not None:
+                changes.update(cg_table=None, cg=tuple(float(c) for c in cg_rows[i]))
         items.append(it.evolve(**changes) if changes else it)
-    extra = {k: v for k, v in ledger.extra.items() if k != SNAPSHOT_TABLE}
-    out = Ledger(tuple(items), FileUnits(), ledger.frame, (), ledger.envelopes, extra)
+    envelopes = tuple(Envelope(spec.name, spec.axis, spec.points, **{k: getattr(env, k) for k in SCOPE_KEYS},
+                               user=env.user) for env, spec in zip(ledger.envelopes, envelope_specs(ledger)))
+    before = ledger.snapshot or {}  # a snapshot of a snapshot keeps what the first one froze
+    names = {k: list(v) for k, v in (before.get("names") or {}).items()}
+    names.setdefault("loadouts", []).extend(lo.name for lo in ledger.loadouts)
+    names.setdefault("sequences", []).extend(s["name"] for s in ledger.sequences)
+    record = {"format": SNAPSHOT_FORMAT, "condition": before.get("condition", loadout_condition(ledger, loadout)),
+              "names": names}
+    loadout = loadout if loadout is not None else before.get("loadout")
+    if loadout is not None:
+        record["loadout"] = loadout
+    out = replace(
+        ledger, items=tuple(items), units=FileUnits(), loadouts=(), envelopes=envelopes,
+        limits=tuple(pin_units(raw, "limit", units) for raw in ledger.limits),
+        mac=None if ledger.mac is None else pin_units(ledger.mac, "mac", units), fuel=None, sequences=(),
+        allocations=tuple(pin_units(a, "allocation", units) for a in ledger.allocations),
+        weighing=None if ledger.weighing is None else pin_units(ledger.weighing, "weighing", units),
+        snapshot=record)
     a = ledger.arrays
-    arrays = ItemArrays(a.unit_mass * fill, a.quantity, a.cg, a.own * fill[:, None, None],
+    arrays = ItemArrays(a.unit_mass * fill, a.quantity, np.asfortranarray(cg_rows), a.own * fill[:, None, None],
                         np.zeros(len(items), bool))
     out.__dict__["index"] = ledger.index
     return with_arrays(out, arrays)
@@ -119,7 +153,7 @@ def snapshot_text(ledger: Ledger, loadout: str | None, *, source: str, author: s
                   taken: _dt.datetime | None = None, source_sha256: str | None = None) -> str:
     """The whole snapshot file: canonical content, a blank line, the [snapshot] table."""
     snap = as_carried(ledger, loadout)
-    content = ledger_to_toml(snap)
+    content = ledger_to_toml(snap, snapshot=False)
     mp = rollup_state(resolve(snap, None))
     taken = taken or _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0)
     table: dict = {"format": SNAPSHOT_FORMAT, "taken": taken, "author": author, "source": source}
@@ -127,6 +161,8 @@ def snapshot_text(ledger: Ledger, loadout: str | None, *, source: str, author: s
         table["source_sha256"] = source_sha256
     if loadout is not None:
         table["loadout"] = loadout
+    table["condition"] = snap.snapshot["condition"]
+    table["names"] = snap.snapshot["names"]
     table["steelyard_version"] = __version__
     table["content_sha256"] = hashlib.sha256(content.encode("utf-8")).hexdigest()
     table["caution"] = CAUTION
@@ -172,10 +208,8 @@ def _near(stored: np.ndarray, now: np.ndarray) -> bool:
 def snapshot_info(ledger: Ledger, *, file: str | None = None) -> SnapshotInfo | None:
     """What the [snapshot] table says (None: not a snapshot). Checks its shape, not its content."""
     if not is_snapshot(ledger):
-        if SNAPSHOT_TABLE in ledger.extra:
-            raise _fail("must be a table", file, SNAPSHOT_TABLE)
         return None
-    t = ledger.extra[SNAPSHOT_TABLE]
+    t = ledger.snapshot
     fmt_version = _get(t, "format", (int,), file)
     if fmt_version > SNAPSHOT_FORMAT:
         raise _fail(f"snapshot format {fmt_version} is newer than this program reads ({SNAPSHOT_FORMAT})",
@@ -199,7 +233,7 @@ def verify_snapshot(ledger: Ledger, *, file: str | None = None) -> SnapshotInfo:
                     file, "content_sha256", SnapshotMismatch)
     if ledger.loadouts or any(it.variable for it in ledger.items):
         raise _fail("a snapshot holds fixed items only", file, "content_sha256", SnapshotMismatch)
-    t = ledger.extra[SNAPSHOT_TABLE]
+    t = ledger.snapshot
     totals = _get(t, "totals", (dict,), file)
     mp = rollup_state(resolve(ledger, None))
     why = (f"this version ({__version__}) computes differently from the one that took it "

@@ -1,8 +1,10 @@
-"""Small, deterministic TOML value writer.
+"""Small, deterministic TOML writer: values, and tables placed where TOML reads them back.
 
-tomli-w writes whole documents; the ledger writer needs control over table
-order and number text, so values are formatted here and whole unknown tables
-are delegated to tomli-w.
+The ledger writer needs control over table order and number text, so values
+are formatted here. `table_blocks` writes a table with every plain key before
+any sub-table and every array of tables as `[[path]]` headers: a table written
+after another table's header is read as part of it, which is how a generic
+dump once turned a `[[limit]]` into a key of the last envelope.
 """
 
 from __future__ import annotations
@@ -93,6 +95,36 @@ def value(v: object) -> str:
     raise TypeError(f"cannot write {type(v).__name__} to TOML")
 
 
+def is_table_array(v: object) -> bool:
+    """A non-empty list of tables: written as [[path]] headers."""
+    return isinstance(v, (list, tuple)) and bool(v) and all(isinstance(x, dict) for x in v)
+
+
+def table_blocks(path: str, table: dict, *, array: bool = False) -> list[list[str]]:
+    """`table` under header `path` (already key-quoted): plain keys first, then sub-tables in order."""
+    lines = [f"[[{path}]]" if array else f"[{path}]"]
+    subs: list[list[str]] = []
+    for k, v in table.items():
+        sub = f"{path}.{key(k)}"
+        if isinstance(v, dict):
+            subs.extend(table_blocks(sub, v))
+        elif is_table_array(v):
+            for entry in v:
+                subs.extend(table_blocks(sub, entry, array=True))
+        else:
+            lines.append(f"{key(k)} = {value(v)}")
+    return [lines] + subs
+
+
 def tables(data: dict) -> str:
-    """Whole top-level tables (kept unknown keys) through tomli-w."""
-    return tomli_w.dumps(data) if data else ""
+    """Whole top-level tables, each as its header (arrays of tables as [[name]])."""
+    blocks: list[list[str]] = []
+    for k, v in data.items():
+        if isinstance(v, dict):
+            blocks.extend(table_blocks(key(k), v))
+        elif is_table_array(v):
+            for entry in v:
+                blocks.extend(table_blocks(key(k), entry, array=True))
+        else:
+            raise TypeError(f"top-level {k!r} is not a table")
+    return "\n\n".join("\n".join(b) for b in blocks) + "\n" if blocks else ""

@@ -1,9 +1,14 @@
-"""`Ledger` -> canonical TOML text.
+"""`Ledger` -> canonical TOML text: the one writer every save, snapshot and import uses.
 
 Canonical means: the same ledger always gives the same bytes; keys come in a
 fixed order, one `[[item]]` table per item, numbers in the file's own units
 printed with the fewest digits that read back to the identical value. So a
 version-control diff shows only what really changed.
+
+Every field of the document is written (tests/test_round_trip.py generates
+ledgers with every table in any order and checks read -> write -> read), and
+every table goes where TOML reads it back as written: plain keys before any
+header, each table of an array under its own `[[name]]` header.
 """
 
 from __future__ import annotations
@@ -77,10 +82,10 @@ def _item(it: Item, u: FileUnits) -> list[str]:
     if it.variable:
         out.append("variable = true")
     if it.density is not None:
-        dunit = u.extra.get("density", f"({u.mass})/({u.length})**3")
-        out.append(f"density = {_qty(it.density, 'density', dunit, g.get('density'))}")
-    for k in sorted(it.extra):
-        out.append(f"{key(k)} = {value(it.extra[k])}")
+        out.append(f"density = {_qty(it.density, 'density', u.density_unit, g.get('density'))}")
+    more = {"cg_table": it.cg_table, "growth": it.growth, "loaded": it.loaded, "maturity": it.maturity,
+            "removable": it.removable or None, "tolerance": it.tolerance, "user": it.user}
+    out.extend(f"{k} = {value(v)}" for k, v in more.items() if v is not None)
     return out
 
 
@@ -88,8 +93,8 @@ def _loadout(lo: Loadout) -> list[str]:
     out = ["[[loadout]]", f"name = {string(lo.name)}"]
     if lo.base is not None:
         out.append(f"base = {string(lo.base)}")
-    for k in sorted(lo.extra):
-        out.append(f"{key(k)} = {value(lo.extra[k])}")
+    more = {"condition": lo.condition, "off": lo.off, "on": lo.on, "user": lo.user}
+    out.extend(f"{k} = {value(v)}" for k, v in more.items() if v is not None)
     if lo.set:
         out.append("[loadout.set]")
         for item_id, amount in lo.set.items():
@@ -105,21 +110,36 @@ def _envelope(env: Envelope, u: FileUnits) -> list[str]:
     lf, mf = _factor(u.length, "length"), _factor(u.mass, "mass")
     pts = ", ".join(f"[{number(c, lf)}, {number(m, mf)}]" for c, m in env.points)
     out = ["[[envelope]]", f"name = {string(env.name)}", f"axis = {string(env.axis)}", f"points = [{pts}]"]
-    for k in sorted(env.extra):
-        out.append(f"{key(k)} = {value(env.extra[k])}")
+    more = {"conditions": env.conditions, "loadouts": env.loadouts, "sequences": env.sequences,
+            "units": env.units, "user": env.user}
+    out.extend(f"{k} = {value(v)}" for k, v in more.items() if v is not None)
     return out
 
 
-def _is_table(v: object) -> bool:
-    """A table or an array of tables: these must come after every plain key."""
-    return isinstance(v, dict) or (isinstance(v, list) and bool(v) and all(isinstance(x, dict) for x in v))
+def other_tables(ledger: Ledger, *, snapshot: bool = True) -> dict:
+    """The tables beyond items, loadouts and envelopes, by file name, in the order they are written.
+
+    Alphabetical (the order earlier versions wrote them in), except that
+    `[snapshot]` is always last: its hash covers the text before it.
+    """
+    out: dict = {}
+    for name, v in (("allocation", list(ledger.allocations)), ("change", list(ledger.changes)),
+                    ("fuel", ledger.fuel), ("growth", ledger.growth), ("limit", list(ledger.limits)),
+                    ("mac", ledger.mac), ("sequence", list(ledger.sequences)), ("user", ledger.user),
+                    ("weighing", ledger.weighing)):
+        if v:
+            out[name] = v
+    if snapshot and ledger.snapshot is not None:
+        out["snapshot"] = ledger.snapshot
+    return out
 
 
-def ledger_to_toml(ledger: Ledger) -> str:
+def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True) -> str:
+    """The whole file; `snapshot=False` leaves out the [snapshot] record (what its hash covers)."""
     u = ledger.units
-    plain = {k: v for k, v in sorted(ledger.extra.items()) if not _is_table(v)}
-    blocks: list[list[str]] = [["steelyard = 1"] + [f"{key(k)} = {value(v)}" for k, v in plain.items()]]
-    units = {"mass": u.mass, "length": u.length, "inertia": u.inertia, **dict(sorted(u.extra.items()))}
+    blocks: list[list[str]] = [["steelyard = 1"]]
+    units = {"mass": u.mass, "length": u.length, "inertia": u.inertia}
+    units.update((k, v) for k, v in (("density", u.density), ("volume", u.volume)) if v is not None)
     blocks.append(["[units]"] + [f"{key(k)} = {string(v)}" for k, v in units.items()])
     f = ledger.frame
     blocks.append(["[frame]", f"x = {string(f.x)}", f"y = {string(f.y)}", f"z = {string(f.z)}"])
@@ -127,7 +147,7 @@ def ledger_to_toml(ledger: Ledger) -> str:
     blocks.extend(_loadout(lo) for lo in ledger.loadouts)
     blocks.extend(_envelope(env, u) for env in ledger.envelopes)
     text = "\n\n".join("\n".join(b) for b in blocks) + "\n"
-    rest = tables({k: v for k, v in sorted(ledger.extra.items()) if _is_table(v)})
+    rest = tables(other_tables(ledger, snapshot=snapshot))
     if rest:
         text += "\n" + rest
     return text

@@ -112,7 +112,7 @@ def _items(r: Report, u: _Units) -> list[Block]:
                u.m(row_mass) + (" (full)" if it.variable else ""), *(u.l(c) for c in it.cg)]
         if grown:
             f = float(r.fractions[i])
-            row += [str((it.extra or {}).get("maturity", "")), _pct(f), u.m(row_mass * (1 + f))]
+            row += [str(it.maturity or ""), _pct(f), u.m(row_mass * (1 + f))]
         rows.append(row)
     out = [Block("h2", "Items"), Block("table", headers=tuple(head), rows=tuple(map(tuple, rows)),
                                        right=frozenset(range(3, len(head))) - ({len(head) - 3} if grown else set()))]

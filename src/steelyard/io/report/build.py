@@ -22,7 +22,7 @@ from steelyard.core.physics.groups import GroupTotal, subtotals
 from steelyard.core.control.growth import growth_fractions
 from steelyard.core.loading.loadout import resolve
 from steelyard.core.document.model import Ledger
-from steelyard.core.physics.rollup import MassProperties, rollup_state
+from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
 from steelyard.core.limits.envelope import evaluate
 from steelyard.core.limits.status import AXIS_INDEX, EnvelopeResult, envelope_results
 from steelyard.io.report.chart import MARKS, text_chart
@@ -101,11 +101,8 @@ def _utc(value) -> dt.datetime:
 
 def changes_since(ledger: Ledger, since: dt.datetime | None) -> list[dict]:
     """Change-log entries (file order) at or after `since`; an unreadable time is kept, marked."""
-    raw = ledger.extra.get("change") or []
-    if isinstance(raw, dict):
-        raw = [raw]
     out = []
-    for entry in raw if isinstance(raw, list) else []:
+    for entry in ledger.changes:
         if not isinstance(entry, dict):
             continue
         row = {k: entry.get(k) for k in ("time", "author", "action", "item", "summary")}
@@ -130,28 +127,24 @@ def _state_label(path, i: int) -> str:
 
 
 def _sequence_api():
-    """(sequence_specs, sequence_path): imported here, where a report needs them."""
+    """(sequence_specs, sequence_path, check_finite_path): imported here, where a report needs them."""
+    from steelyard.core.limits.checks import check_finite_path
     from steelyard.core.loading.sequence import sequence_specs
     from steelyard.core.loading.sequence_path import sequence_path
 
-    return sequence_specs, sequence_path
+    return sequence_specs, sequence_path, check_finite_path
 
 
 def _sequences(ledger: Ledger) -> dict:
     """Each sequence against each envelope: states outside, least margin and where it falls."""
-    raw = ledger.extra.get("sequence")
-    if not raw:
+    if not ledger.sequences:
         return {"names": [], "note": None, "rows": [], "paths": []}
     api = _sequence_api()
-    if api is None:
-        names = [str(s.get("name", f"#{k + 1}")) for k, s in enumerate(raw if isinstance(raw, list) else [raw])
-                 if isinstance(s, dict)]
-        return {"names": names, "note": "not evaluated: this version of steelyard has no sequence module",
-                "rows": [], "paths": []}
-    specs, sequence_path = api
+    specs, sequence_path, check_finite_path = api
     rows, paths = [], []
     for spec in specs(ledger):
         path = sequence_path(ledger, spec.name)
+        check_finite_path(ledger, path)
         paths.append(path)
         for env in ledger.envelopes:
             st = evaluate(env.array, path.cg[:, AXIS_INDEX[env.axis]], path.mass)
@@ -211,6 +204,10 @@ def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], sys
     du = DisplayUnits.choose(ledger.units, system)
     empty_state = resolve(ledger, None)
     empty = rollup_state(empty_state)
+    try:
+        check_finite_rollup(empty, ledger.items)  # before the subtotals: figures beyond a float are one error line
+    except SteelyardError as exc:
+        raise exc.located(file=source)
     groups = subtotals([it.group for it in ledger.items], empty_state.mass, empty_state.cg, empty_state.own)
     try:
         results = [_result(ledger, name, MARKS[k % len(MARKS)], samples, seed) for k, name in enumerate(loadouts)]
@@ -220,7 +217,7 @@ def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], sys
                   if results or sequences["paths"] else [])
     except SteelyardError as exc:
         raise exc.located(file=source)
-    weighing = weighing_record(weigh_ledger(ledger, source=source)) if "weighing" in ledger.extra else None
+    weighing = weighing_record(weigh_ledger(ledger, source=source)) if ledger.weighing is not None else None
     when = (now or dt.datetime.now(dt.timezone.utc)).strftime("%Y-%m-%d %H:%M UTC")
     return Report(source=source, generated=when, units=du, ledger=ledger, empty=empty, groups=groups,
                   control=control, loadouts=results, charts=charts, sequences=sequences,

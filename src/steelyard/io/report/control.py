@@ -40,7 +40,7 @@ def _vec(v) -> list:
 
 def tolerance_si(item: Item, units: FileUnits) -> tuple[str, float | None, list | None]:
     """(kind, mass per unit, [x, y, z]) of an item's tolerance as written, SI; "5 %" made absolute."""
-    tol = item.extra["tolerance"]
+    tol = item.tolerance
     subject = f"item {item.id!r}"
     if not isinstance(tol, dict) or tol.get("kind") not in ("sigma", "bound"):
         raise SteelyardError("tolerance needs kind = \"sigma\" or \"bound\"", subject=subject,
@@ -66,13 +66,13 @@ def growth_value(raw: object) -> float:
 
 def has_growth(ledger: Ledger) -> bool:
     """True when the ledger says anything about growth (a [growth] table or an item key)."""
-    if "growth" in ledger.extra:
+    if ledger.growth is not None:
         return True
-    return any(it.extra and ("maturity" in it.extra or "growth" in it.extra) for it in ledger.items)
+    return any(it.maturity is not None or it.growth is not None for it in ledger.items)
 
 
 def has_tolerances(ledger: Ledger) -> bool:
-    return any(it.extra and "tolerance" in it.extra for it in ledger.items)
+    return any(it.tolerance is not None for it in ledger.items)
 
 
 def _block(basic, basic_cg, predicted, predicted_cg) -> dict:
@@ -143,11 +143,11 @@ def control_record(ledger: Ledger, state: State, *, samples: int = DEFAULT_SAMPL
     """
     out: dict = {}
     fractions = None
-    if has_growth(ledger) or "allocation" in ledger.extra:
+    if has_growth(ledger) or ledger.allocations:
         fractions = growth_fractions(ledger)
     if has_growth(ledger):
         out["growth"] = growth_record(ledger, state, fractions)
-    if "allocation" in ledger.extra:
+    if ledger.allocations:
         out["allocations"] = allocation_margins(ledger, state.mass, fractions)
     if has_tolerances(ledger):
         out["uncertainty"] = uncertainty_record(ledger, state, samples=samples, seed=seed)
@@ -168,8 +168,14 @@ def uncertainty_region(covariance, cg: float, mass: float, axis: str, k: float =
     cov = np.asarray(covariance, dtype=float)
     j = 1 + AXIS_INDEX[axis]
     sub = cov[np.ix_([j, 0], [j, 0])]
+    if not (np.isfinite(sub).all() and np.isfinite([cg, mass]).all()):
+        return np.full((points, 2), np.nan)  # no region to draw (charts skip non-finite rows)
+    peak = float(np.abs(sub).max())
+    shift = 2 * (math.frexp(peak)[1] // 2) if peak > 0 else 0  # even: its square root is exact
+    sub = np.ldexp(sub, -shift)  # power-of-two scaling is exact; entries near the float limit do not overflow
     values, vectors = np.linalg.eigh(0.5 * (sub + sub.T))
-    scale = vectors * np.sqrt(np.clip(values, 0.0, None))
     t = np.linspace(0.0, 2.0 * np.pi, points)
     circle = np.stack([np.cos(t), np.sin(t)])
-    return np.array([cg, mass]) + k * (scale @ circle).T
+    with np.errstate(over="ignore", invalid="ignore"):
+        scale = vectors * np.ldexp(np.sqrt(np.clip(values, 0.0, None)), shift // 2)
+        return np.array([cg, mass]) + k * (scale @ circle).T

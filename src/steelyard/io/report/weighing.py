@@ -57,7 +57,7 @@ def weigh_table(ledger: Ledger, table: Mapping, *, source: str | None = None) ->
 
 
 def weigh_ledger(ledger: Ledger, *, source: str | None = None) -> Weighing:
-    table = ledger.extra.get("weighing")
+    table = ledger.weighing
     if table is None:
         raise SteelyardError("no [weighing] table (see docs/control.md, Weighing)", file=source,
                              subject="weighing")

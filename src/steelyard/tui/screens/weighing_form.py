@@ -47,7 +47,7 @@ class WeighingForm(ModalScreen[WeighingDone | None]):
         super().__init__()
         self.ledger = ledger
         self.du = DisplayUnits.choose(ledger.units, None)  # the form speaks the file's units
-        self.fields: WeighingFields = fields_from_table(ledger.extra.get("weighing"), ledger)
+        self.fields: WeighingFields = fields_from_table(ledger.weighing, ledger)
         self.reduced: tuple[dict, Weighing] | None = None
         self.problem: str | None = None
 

@@ -8,6 +8,8 @@ ledger costs a few array copies.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from steelyard.core.errors import SteelyardError
@@ -47,7 +49,7 @@ def _rename_in_loadouts(loadouts: tuple[Loadout, ...], old: str, new: str | None
                 amounts[k] = v
             elif new is not None:
                 amounts[new] = v
-        out.append(Loadout(lo.name, amounts, lo.base, lo.extra))
+        out.append(replace(lo, set=amounts))
     return tuple(out)
 
 
@@ -108,7 +110,7 @@ def set_amount(ledger: Ledger, loadout: str, item_id: str, amount: Amount | None
                 amounts.pop(item_id, None)
             else:
                 amounts[item_id] = amount
-            lo = Loadout(lo.name, amounts, lo.base, lo.extra)
+            lo = replace(lo, set=amounts)
         out.append(lo)
     new = ledger.evolve(loadouts=tuple(out))
     a = _arrays_of(ledger)

@@ -29,7 +29,7 @@ _SINGLE = re.compile(r"^\s*[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?\s*([A-Z
 
 
 def density_unit(u: FileUnits) -> str:
-    return u.extra.get("density", f"({u.mass})/({u.length})**3")
+    return u.density_unit
 
 
 def kinds() -> list[str]:

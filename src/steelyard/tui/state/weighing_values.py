@@ -133,7 +133,7 @@ def _is_volume(text: str, units: FileUnits, subject: str) -> bool:
     except UnitError:
         pass
     try:
-        to_si(value, "volume", units.extra.get("volume") or "m**3")
+        to_si(value, "volume", units.volume or "m**3")
         return True
     except SteelyardError:
         raise SteelyardError(f"cannot read {text.strip()!r} as a mass or a volume", subject=subject,
@@ -204,7 +204,7 @@ def reduce_fields(ledger: Ledger, f: WeighingFields) -> tuple[dict, Weighing]:
 def weighed(ledger: Ledger, table: dict, w: Weighing) -> Ledger:
     """The ledger with the empty-vehicle item replaced and the weighing kept as its `[weighing]` table."""
     new = weighed_ledger(ledger, w)
-    out = new.evolve(extra={**new.extra, "weighing": table})
+    out = new.evolve(weighing=table)
     for key in ("arrays", "index"):
         if key in new.__dict__:
             out.__dict__[key] = new.__dict__[key]

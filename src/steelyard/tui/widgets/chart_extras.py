@@ -59,7 +59,7 @@ class ChartExtras:
 
 
 def _sequences(ledger: Ledger, loadout: str | None) -> tuple[tuple[SequenceCheck, ...], str | None]:
-    if loadout is None or "sequence" not in ledger.extra:
+    if loadout is None or not ledger.sequences:
         return (), None
     try:
         report = check_ledger(ledger, loadout)

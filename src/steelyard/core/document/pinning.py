@@ -1,0 +1,60 @@
+"""Moving a table held as written to a file with other units: every bare number gets its unit.
+
+Tables beyond v1 are kept as the user wrote them, so a bare number means "in
+this file's units". A snapshot (written in SI) or any other file that takes
+a table from this one must keep its meaning: `pin_units` rewrites each bare
+number of a known dimension as a string with the source file's unit
+("114.0 in"), which every reader accepts and converts exactly as before.
+Numbers that are fractions, counts or already strings are left alone.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+from steelyard.core.document.model import FileUnits
+
+#: key -> dimension of the numbers under it, per table (nested tables and lists inherit)
+DIMENSIONS: dict[str, dict[str, str]] = {
+    "mac": {"lemac": "length", "length": "length"},
+    "limit": {"max_mass": "mass", "min_mass": "mass", "max_inertia": "inertia", "min_inertia": "inertia",
+              "max_cg_offset": "length", "through": "length"},
+    "allocation": {"mass": "mass"},
+    "weighing": {"at": "length", "reading": "mass", "tare": "mass", "vertical_cg": "length", "mass": "mass",
+                 "volume": "volume", "density": "density"},
+    "tolerance": {"mass": "mass", "cg": "length"},
+}
+
+
+def unit_for(dimension: str, units: FileUnits) -> str:
+    return {"mass": units.mass, "length": units.length, "inertia": units.inertia,
+            "volume": units.volume or "m**3", "density": units.density_unit}[dimension]
+
+
+def _pin(value: object, unit: str) -> object:
+    if type(value) in (int, float):
+        return f"{float(value)!r} {unit}"
+    if isinstance(value, list):
+        return [_pin(v, unit) for v in value]
+    if isinstance(value, Mapping):
+        return {k: _pin(v, unit) for k, v in value.items()}
+    return value
+
+
+def pin_units(table: Mapping, kind: str, units: FileUnits) -> dict:
+    """A copy of `table` (of the kind named in DIMENSIONS) with bare numbers carrying `units`."""
+    dims = DIMENSIONS[kind]
+    out = {}
+    for k, v in table.items():
+        if k in dims:
+            out[k] = _pin(v, unit_for(dims[k], units))
+        elif k in ("point", "on_board", "missing") and isinstance(v, list):
+            out[k] = [pin_units(e, kind, units) if isinstance(e, Mapping) else e for e in v]
+        else:
+            out[k] = v
+    return out
+
+
+def pin_cg_table(rows, units: FileUnits) -> list:
+    """`cg_table` rows [fraction, x, y, z]: the fraction stays a number, the lengths get the unit."""
+    return [[r[0], *(_pin(v, units.length) for v in r[1:])] for r in rows]

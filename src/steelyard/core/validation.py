@@ -1,0 +1,43 @@
+"""Every table's meaning, derived once when a ledger is read.
+
+The reader checks the shape of the file (core.document.schema) and the v1
+fields; the tables added since are owned by the modules that give them
+meaning. This asks each of them once, so a bad `[[limit]]`, tolerance or
+sequence is refused when the file is opened — by `rollup` as much as by
+`check` — and each derived result stays cached on the (immutable) ledger for
+the commands that use it.
+"""
+
+from __future__ import annotations
+
+from steelyard.core.control.growth import allocations, growth_fractions
+from steelyard.core.control.uncertainty import parse_tolerances
+from steelyard.core.control.weighing import parse_weighing
+from steelyard.core.document.model import Ledger
+from steelyard.core.history.changes import log_from_ledger
+from steelyard.core.limits.rules import envelope_specs, fuel_rows, limit_specs, mac_reference
+from steelyard.core.loading.loadout import fill_fractions, is_removable, loadout_condition
+from steelyard.core.loading.sequence import sequence_specs
+from steelyard.core.loading.tank import tank_tables
+
+
+def validate_document(ledger: Ledger) -> None:
+    """Raise the first SteelyardError any table of `ledger` gives (located by table and key)."""
+    mac_reference(ledger)
+    fuel_rows(ledger)
+    for it in ledger.items:
+        if it.removable:
+            is_removable(it)
+    for lo in ledger.loadouts:
+        fill_fractions(ledger, lo.name)
+        loadout_condition(ledger, lo.name)
+    envelope_specs(ledger)
+    limit_specs(ledger)
+    sequence_specs(ledger)
+    tank_tables(ledger)
+    growth_fractions(ledger)
+    allocations(ledger)
+    parse_tolerances(ledger)
+    if ledger.weighing is not None:
+        parse_weighing(ledger.weighing, ledger.units, ledger)
+    log_from_ledger(ledger)
