@@ -25,7 +25,7 @@ from steelyard.io.ledger.file import open_ledger, save_ledger
 from steelyard.io.ledger.toml_write import string
 
 HUGE_NAME = ("Kabelbaum " + "配線束" * 3 + "e\u0301" + "\U0001F6E9\ufe0f" + "\u200d") * 150_000  # ~4 MB of UTF-8
-DEEP_GROUP = "/".join(f"level-{k}" for k in range(500))
+DEEP_GROUP = "/".join(f"level-{k}" for k in range(64))  # the deepest path a ledger accepts
 TRICKY = ["e\u0301", "\u00e9",  # the same letter, decomposed and precomposed: two different ids
           "表示幅テスト", "Z\u0351\u0364\u0310a\u036b\u0350l\u0314g\u0367o\u0361",  # wide CJK, stacked marks
           "\u202eright-to-left", "\ufeffbom", "zero\u200bwidth", "tab\tand\rreturn", "nul\u0000inside"]
@@ -78,21 +78,32 @@ def test_multi_megabyte_name(tmp_path):
     assert mp.cg[0] == pytest.approx(float((F("12.5") * 3 + F("2.5") * 1) / 15), rel=1e-15)  # Σ m·x / Σ m
 
 
-def test_five_hundred_level_group(tmp_path):
+def test_deepest_accepted_group(tmp_path):
     led, again = _round_trip(tmp_path, _ledger_text([
         {"id": "deep", "group": DEEP_GROUP, "mass": 3.0, "cg": Raw("[1.0, 2.0, 3.0]")},
-        {"id": "half", "group": "/".join(DEEP_GROUP.split("/")[:250]), "mass": 1.0, "cg": Raw("[5.0, 2.0, 3.0]")},
+        {"id": "half", "group": "/".join(DEEP_GROUP.split("/")[:32]), "mass": 1.0, "cg": Raw("[5.0, 2.0, 3.0]")},
         {"id": "other", "group": "other", "mass": 4.0, "cg": Raw("[0.0, 0.0, 0.0]")}]))
     assert again.items[0].group == DEEP_GROUP
     state = resolve(again)
     totals = {g.path: g for g in subtotals([it.group for it in again.items], state.mass, state.cg, state.own)}
-    assert len(totals) == 500 + 1
+    assert len(totals) == 64 + 1
     parts = DEEP_GROUP.split("/")
-    for depth in (1, 250, 251, 500):
+    for depth in (1, 32, 33, 64):
         g = totals["/".join(parts[:depth])]
-        # prefixes down to level 250 hold both items (3 + 1 kg, CG x = (3·1 + 1·5)/4 = 2); deeper ones only "deep"
-        assert (g.depth, g.count, g.mass) == ((depth - 1, 2, 4.0) if depth <= 250 else (depth - 1, 1, 3.0))
-        assert g.cg[0] == pytest.approx(2.0 if depth <= 250 else 1.0, rel=1e-15)
+        # prefixes down to level 32 hold both items (3 + 1 kg, CG x = (3·1 + 1·5)/4 = 2); deeper ones only "deep"
+        assert (g.depth, g.count, g.mass) == ((depth - 1, 2, 4.0) if depth <= 32 else (depth - 1, 1, 3.0))
+        assert g.cg[0] == pytest.approx(2.0 if depth <= 32 else 1.0, rel=1e-15)
+
+
+def test_too_deep_group_is_refused_naming_item_and_field(tmp_path):
+    # a 20,000-level path once made rollup run for minutes and report grow with the square of the depth
+    text = _ledger_text([{"id": "deep", "group": "/".join(f"g{k}" for k in range(20_000)), "mass": 1.0,
+                          "cg": Raw("[0.0, 0.0, 0.0]")}])
+    path = tmp_path / "deep.toml"
+    path.write_text(text)
+    with pytest.raises(SteelyardError) as e:
+        open_ledger(path)
+    assert "item 'deep'" in str(e.value) and "group" in str(e.value) and "64" in str(e.value)
 
 
 def test_tricky_unicode_names_are_kept_exactly(tmp_path):

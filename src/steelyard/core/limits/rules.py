@@ -24,6 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from steelyard.core.document import schema
 from steelyard.core.errors import SteelyardError, said
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.limits.mac import percent_mac, station_from_percent_mac
@@ -35,8 +36,7 @@ CONDITION_WORDS = ("ramp", "takeoff", "landing", "zero-fuel")
 #: a value within this fraction of its bound counts as on it (rounding of lb/in sums)
 REL_TOL = 1e-9
 
-_LIMIT_KEYS = {"name", "conditions", "loadouts", "sequences", "max_mass", "min_mass", "max_inertia", "min_inertia",
-               "max_cg_offset", "axis", "through"}
+_LIMIT_KEYS = set(schema.LIMIT)  # the format's one list (core.document.schema)
 _AXES = ("x", "y", "z")
 
 
@@ -59,8 +59,7 @@ def _strict_table(raw, subject: str, keys: set[str]) -> dict:
         raise SteelyardError("must be a table", subject=subject)
     unknown = sorted(set(raw) - keys)
     if unknown:
-        raise SteelyardError(f"unknown key {said(unknown[0])} (known: {', '.join(sorted(keys))})", subject=subject,
-                             field=unknown[0])
+        raise schema.unknown_key(unknown[0], keys, subject=subject)
     return raw
 
 
@@ -86,7 +85,7 @@ def _read_mac(ledger: Ledger) -> MacRef | bool:
     raw = ledger.mac
     if raw is None:
         return False
-    t = _strict_table(raw, "mac", {"lemac", "length"})
+    t = _strict_table(raw, "mac", set(schema.MAC))
     for key in ("lemac", "length"):
         if key not in t:
             raise SteelyardError("required", subject="mac", field=key)
@@ -114,7 +113,7 @@ def _read_fuel(ledger: Ledger) -> np.ndarray:
     raw = ledger.fuel
     if raw is None:
         return np.zeros(0, dtype=np.intp)
-    t = _strict_table(raw, "fuel", {"groups", "items"})
+    t = _strict_table(raw, "fuel", set(schema.FUEL))
     if not t:
         raise SteelyardError("name the fuel with groups = [...] or items = [...]", subject="fuel")
     variable = ledger.arrays.variable

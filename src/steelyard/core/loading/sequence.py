@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from steelyard.core.display import fmt
+from steelyard.core.document import schema
 from steelyard.core.errors import SteelyardError
 from steelyard.core.errors import said
 from steelyard.core.loading.loadout import CONDITIONS, is_removable
@@ -32,8 +33,8 @@ from steelyard.core.units import UnitError, from_si, parse_quantity
 
 DEFAULT_SAMPLES = 100
 MAX_SAMPLES = 1_000_000
-_SEQ_KEYS = {"name", "loadout", "end_condition", "samples", "step"}
-_STEP_KEYS = {"name", "samples", "burn", "remove", "add", "amount"}
+_SEQ_KEYS = set(schema.SEQUENCE)  # the format's one list (core.document.schema)
+_STEP_KEYS = set(schema.STEP)
 _TOL = 1e-9  # fraction of an item's capacity treated as rounding when checking what a tank holds
 
 

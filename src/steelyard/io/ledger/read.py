@@ -22,6 +22,7 @@ from collections.abc import Callable
 import numpy as np
 
 from steelyard.core.document.schema import check_document, unknown_key
+from steelyard.core.physics.groups import group_depth_problem
 from steelyard.core.errors import FormatError, SteelyardError, UnitError, item_subject, said
 from steelyard.core.validation import validate_document
 from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, realisability_problems, tensor_from_six
@@ -270,6 +271,10 @@ class _Items:
             group = it.get("group", "")
             if type(group) is not str:
                 raise self.fail(i, "group", f"must be a string, got {group!r}")
+            if "/" in group:
+                deep = group_depth_problem(group)
+                if deep:
+                    raise self.fail(i, "group", deep)
             inertia = shape = density = None
             rotate: tuple = ()
             more = None
