@@ -1,10 +1,15 @@
+"""Suite-wide set-up: the hypothesis profile, which tests are slow, how many workers.
+
+Shared builders and helpers live in tests/support (imported as `support`);
+fixtures used by many files live here.
+"""
+
 import os
 from pathlib import Path
 
 import pytest
 
-ROOT = Path(__file__).resolve().parents[1]
-FIXTURES = ROOT / "fixtures"
+from support.paths import FIXTURES
 
 # hypothesis: a fixed, CI-affordable profile; STEELYARD_FUZZ=release for long runs
 try:
@@ -17,6 +22,57 @@ try:
     settings.load_profile(os.environ.get("STEELYARD_FUZZ", "ci"))
 except ImportError:  # pragma: no cover
     pass
+
+# Modules whose hypothesis tests are fuzzing at scale (hundreds to thousands of
+# generated files each): slow. Their fixed cases (known crashers) stay in the
+# default run. Other slow tests carry @pytest.mark.slow in their own files.
+FUZZ_MODULES = ("test_fuzz_valid.py", "test_fuzz_broken.py")
+
+
+@pytest.hookimpl(tryfirst=True)
+def pytest_collection_modifyitems(config, items):
+    for item in items:
+        if item.path.name in FUZZ_MODULES and getattr(getattr(item, "obj", None), "is_hypothesis_test", False):
+            item.add_marker(pytest.mark.slow)
+
+
+def _only_files_named(config) -> bool:
+    """True when every path on the command line is a test file or test id, not a folder."""
+    paths = [a.split("::")[0] for a in config.args]
+    return bool(paths) and not any(Path(p).is_dir() for p in paths)
+
+
+def _marker_given(config) -> bool:
+    return any(a == "-m" or (a.startswith("-m") and not a.startswith("--")) for a in config.invocation_params.args)
+
+
+def pytest_configure(config):
+    """Named files run in full: addopts' `-m 'not slow'` is for runs of folders (the whole suite).
+
+    `python3 -m pytest tests/test_atomic_kill.py` runs that slow test instead of
+    deselecting it and exiting with 5; an explicit `-m` still decides.
+    """
+    if _only_files_named(config) and not _marker_given(config):
+        config.option.markexpr = ""
+
+
+def pytest_xdist_auto_num_workers(config):
+    """`-n auto` (in addopts): all cores for a run of folders, one process for named test files.
+
+    Starting workers costs more than it saves when a developer runs one file or
+    one test, and the machine may be shared. PYTEST_XDIST_AUTO_NUM_WORKERS or an
+    explicit `-n N` still decide.
+    """
+    if os.environ.get("PYTEST_XDIST_AUTO_NUM_WORKERS"):
+        return None
+    return 0 if _only_files_named(config) else None
+
+
+def pytest_terminal_summary(terminalreporter, config):
+    """Say so when slow tests were left out, so a green default run is not taken for the whole suite."""
+    if config.getoption("markexpr") == "not slow" and not hasattr(config, "workerinput"):
+        terminalreporter.write_line("slow tests (marked `slow`) were not run: `python3 -m pytest -m slow` runs them, "
+                                    "`python3 -m pytest -m \"\"` runs everything")
 
 
 @pytest.fixture

@@ -25,6 +25,7 @@ import signal
 import time
 from pathlib import Path
 
+import pytest
 
 from steelyard.io.durability.atomic import write_atomic
 from steelyard.io.ledger.file import open_ledger, save_ledger
@@ -69,6 +70,7 @@ def _save_time(path: Path, versions, mode: str) -> float:
     return (time.perf_counter() - t) / 4
 
 
+@pytest.mark.slow  # 240 SIGKILLs of a process saving a 0.45 MB ledger
 def test_sigkill_during_saves_leaves_old_or_new_file(tmp_path):
     a, b = _ledger(1), _ledger(2)
     versions = [(a, ledger_to_toml(a).encode("utf-8")), (b, ledger_to_toml(b).encode("utf-8"))]

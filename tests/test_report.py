@@ -8,18 +8,15 @@ for each loadout's inside/outside status, and CG = Σ moment / Σ mass
 
 import html
 import re
-import subprocess
-import sys
 import xml.etree.ElementTree as ET
-from pathlib import Path
-
 import pytest
 from shapely.geometry import Point, Polygon
 
 from steelyard.core.caution import CAUTION
 from steelyard.io.report.md import md_escape
-
-ROOT = Path(__file__).resolve().parents[1]
+from support.cli import run_cli, run_headless
+from support.ledgers import write_ledger
+from support.paths import ROOT
 NASTY_ITEM = '<b>Fuel & "oil"</b> <script>x()</script>'
 NASTY_ENV = "normal & <wide>"
 
@@ -99,21 +96,15 @@ remove = ["cargo"]
 """
 
 
-def run(*args):
-    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True)
-
-
 @pytest.fixture
 def ledger_path(tmp_path):
-    p = tmp_path / "r.toml"
-    p.write_text(LEDGER)
-    return p
+    return write_ledger(tmp_path, LEDGER, "r.toml")
 
 
 def test_html_report_caution_names_and_escaping(ledger_path, tmp_path):
     out_path = tmp_path / "report.html"
-    out = run("report", ledger_path, "-o", out_path, "--all", "--samples", "2000")
-    assert out.returncode == 0, out.stderr
+    rc, _, err = run_cli("report", ledger_path, "-o", out_path, "--all", "--samples", "2000")
+    assert rc == 0, err
     text = out_path.read_text()
     assert html.escape(CAUTION) in text
     for env in (NASTY_ENV, "lateral"):
@@ -131,8 +122,8 @@ def test_html_report_caution_names_and_escaping(ledger_path, tmp_path):
 def test_markdown_report_writes_svgs_beside_it(ledger_path, tmp_path):
     out_path = tmp_path / "out" / "review.md"
     out_path.parent.mkdir()
-    out = run("report", ledger_path, "-o", out_path, "--samples", "0")
-    assert out.returncode == 0, out.stderr
+    rc, _, err = run_cli("report", ledger_path, "-o", out_path, "--samples", "0")
+    assert rc == 0, err
     text = out_path.read_text()
     assert md_escape(CAUTION) in text
     for env in (NASTY_ENV, "lateral"):
@@ -148,7 +139,7 @@ def test_markdown_report_writes_svgs_beside_it(ledger_path, tmp_path):
 
 def test_statuses_agree_with_shapely(ledger_path, tmp_path):
     out_path = tmp_path / "r.md"
-    assert run("report", ledger_path, "-o", out_path, "--samples", "0").returncode == 0
+    assert run_cli("report", ledger_path, "-o", out_path, "--samples", "0")[0] == 0
     text = out_path.read_text()
     # loadings by hand: CG = Σ m·x / Σ m (FAA-H-8083-1)
     fixed = [(40.0, 1.0, 0.0), (2.0, 0.5, 0.1)]
@@ -170,7 +161,7 @@ def test_statuses_agree_with_shapely(ledger_path, tmp_path):
 
 def test_weight_statement_by_hand(ledger_path, tmp_path):
     out_path = tmp_path / "r.md"
-    assert run("report", ledger_path, "-o", out_path, "--samples", "0").returncode == 0
+    assert run_cli("report", ledger_path, "-o", out_path, "--samples", "0")[0] == 0
     text = out_path.read_text()
     # variable items empty: 40 + 2 = 42 kg, x = (40·1.0 + 2·0.5) / 42 = 0.976190 m
     total = next(s for s in text.splitlines() if s.startswith("| total | 3 |"))
@@ -180,18 +171,18 @@ def test_weight_statement_by_hand(ledger_path, tmp_path):
 
 def test_since_filters_the_change_log(ledger_path, tmp_path):
     out_path = tmp_path / "r.html"
-    assert run("report", ledger_path, "-o", out_path, "--since", "2026-02-01", "--samples", "0").returncode == 0
+    assert run_cli("report", ledger_path, "-o", out_path, "--since", "2026-02-01", "--samples", "0")[0] == 0
     text = out_path.read_text()
     assert html.escape("added the tank & its oil") in text
     assert "old change before the baseline" not in text
-    assert run("report", ledger_path, "-o", out_path, "--samples", "0").returncode == 0
+    assert run_cli("report", ledger_path, "-o", out_path, "--samples", "0")[0] == 0
     assert "old change before the baseline" in out_path.read_text()
 
 
 def test_sequence_against_envelopes(ledger_path, tmp_path):
     out_path = tmp_path / "r.md"
-    out = run("report", ledger_path, "-o", out_path, "--samples", "0")
-    assert out.returncode == 0, out.stderr
+    rc, _, err = run_cli("report", ledger_path, "-o", out_path, "--samples", "0")
+    assert rc == 0, err
     text = out_path.read_text()
     assert "## Sequences" in text and "cargo drop" in text
     try:
@@ -213,7 +204,7 @@ def test_sequence_against_envelopes(ledger_path, tmp_path):
 
 def test_loadout_choice(ledger_path, tmp_path):
     out_path = tmp_path / "r.md"
-    assert run("report", ledger_path, "-o", out_path, "--loadout", "light", "--samples", "0").returncode == 0
+    assert run_cli("report", ledger_path, "-o", out_path, "--loadout", "light", "--samples", "0")[0] == 0
     text = out_path.read_text()
     assert "| 1 | light |" in text and "heavy" not in text.split("## Loadouts against")[1].split("##")[0]
 
@@ -225,21 +216,21 @@ def test_loadout_choice(ledger_path, tmp_path):
 ])
 def test_bad_options_exit_2(ledger_path, tmp_path, args, words):
     out_path = tmp_path / "r.html"
-    out = run("report", ledger_path, "-o", out_path, *args)
-    assert out.returncode == 2 and words in out.stderr
-    assert len(out.stderr.strip().splitlines()) == 1
+    rc, _, err = run_cli("report", ledger_path, "-o", out_path, *args)
+    assert rc == 2 and words in err
+    assert len(err.strip().splitlines()) == 1
     assert not out_path.exists()
 
 
 def test_output_format_follows_the_name(ledger_path, tmp_path):
-    out = run("report", ledger_path, "-o", tmp_path / "r.pdf")
-    assert out.returncode == 2 and ".html or .md" in out.stderr
+    rc, _, err = run_cli("report", ledger_path, "-o", tmp_path / "r.pdf")
+    assert rc == 2 and ".html or .md" in err
 
 
 def test_report_of_the_weighing_fixture(tmp_path):
     out_path = tmp_path / "w.html"
-    out = run("report", ROOT / "fixtures" / "weighing-example.toml", "-o", out_path, "--samples", "0")
-    assert out.returncode == 0, out.stderr
+    rc, _, err = run_cli("report", ROOT / "fixtures" / "weighing-example.toml", "-o", out_path, "--samples", "0")
+    assert rc == 0, err
     text = out_path.read_text()
     # AMT General Handbook ch. 4: empty weight 1,331.5 lb, CG 66,698 / 1,331.5 = 50.092 in
     assert "1,331.50" in text and "50.092" in text
@@ -261,22 +252,19 @@ def test_md_escape_shows_text_literally():
 ])
 def test_headless_commands_do_not_import_textual(ledger_path, tmp_path, argv):
     # DESIGN.md: headless commands never import Textual
-    code = ("import sys; from steelyard.cli.main import main; rc = main(sys.argv[1:]); "
-            "print('TEXTUAL' if 'textual' in sys.modules else 'CLEAN', file=sys.stderr); sys.exit(rc)")
     args = [a.format(ledger=ledger_path, tmp=tmp_path) for a in argv]
-    out = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True)
-    assert out.returncode == 0, out.stderr
-    assert out.stderr.strip().endswith("CLEAN")
+    rc, _, err = run_headless(*args)
+    assert rc == 0, err
+    assert err.strip().endswith("CLEAN")
 
 
 def test_control_characters_never_reach_the_files(tmp_path):
     # XML 1.0 forbids C0 controls but tab/newline; a report must stay well-formed and inert
     text = LEDGER.replace('name = "light"', 'name = "li\\u001b[31mght\\u0007"')
-    path = tmp_path / "esc.toml"
-    path.write_text(text)
+    path = write_ledger(tmp_path, text, "esc.toml")
     for name in ("e.html", "e.md"):
-        out = run("report", path, "-o", tmp_path / name, "--samples", "0")
-        assert out.returncode == 0, out.stderr
+        rc, _, err = run_cli("report", path, "-o", tmp_path / name, "--samples", "0")
+        assert rc == 0, err
         body = (tmp_path / name).read_text()
         assert "\x1b" not in body and "\x07" not in body
         assert ("li?[31mght?" if name.endswith("html") else md_escape("li?[31mght?")) in body

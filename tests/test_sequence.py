@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import tomllib
 from fractions import Fraction as F
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -20,14 +19,10 @@ from shapely.geometry import LineString, Point, Polygon
 from steelyard.core.limits.checks import check_ledger
 from steelyard.core.errors import SteelyardError
 from steelyard.core.loading.sequence_path import build_path, sequence_path
-from steelyard.io.ledger.read import ledger_from_data
-
-ROOT = Path(__file__).resolve().parents[1]
-LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact
-
-
-def ledger(text: str):
-    return ledger_from_data(tomllib.loads(text), source="test.toml")
+from support.exact import carried, exact_moments
+from support.ledgers import ledger_from_text as ledger
+from support.paths import ROOT
+from support.units import IN, LB
 
 
 def finding(s, name):
@@ -182,20 +177,9 @@ def test_trainer_burn_path_matches_an_exact_roll_up_at_every_state():
     data = tomllib.loads(text)
     led = ledger(text)
     path = sequence_path(led, "trip-to-landing")
-    sets = next(lo for lo in data["loadout"] if lo["name"] == "trip")["set"]
     units = {"lb": F(1), "kg": 1 / LB, "gal": F(6)}
-    fixed_w, fixed_m = F(0), [F(0)] * 3
-    for it in data["item"]:
-        if it["id"] in ("fuel-l", "fuel-r"):
-            continue
-        m = it["mass"]
-        m = F(m.split()[0]) * units[m.split()[1]] if isinstance(m, str) else F(m)
-        m *= it.get("quantity", 1)
-        if it.get("variable"):
-            a = sets.get(it["id"], 0)
-            m = F(a.split()[0]) * units[a.split()[1]] if isinstance(a, str) else m * F(a)
-        fixed_w += m
-        fixed_m = [fixed_m[k] + m * F(it["cg"][k]) for k in range(3)]
+    fixed_w, fixed_m = exact_moments([(m, it["cg"]) for it, m in carried(data, "trip", units)
+                                      if it["id"] not in ("fuel-l", "fuel-r")])
     tanks = {it["id"]: it for it in data["item"] if it["id"] in ("fuel-l", "fuel-r")}
     # proportional split of step 1 (1 gal over two tanks holding 16 gal each): half a gallon each
     assert path.fill[path.steps[0].last] == pytest.approx([F(31, 2) / 20] * 2, rel=1e-14)

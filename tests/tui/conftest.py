@@ -1,7 +1,18 @@
-"""The editor tests share `tui_helpers` (pytest runs with --import-mode=importlib,
-which does not put test folders on sys.path, so this folder is added here)."""
+"""Fixtures for the editor's tests; the helpers themselves are in tests/support (support.tui, support.tmux)."""
 
-import sys
-from pathlib import Path
+import shutil
 
-sys.path.insert(0, str(Path(__file__).resolve().parent))
+import pytest
+
+from support.tmux import Tmux
+
+
+@pytest.fixture
+def tmux():
+    """A private tmux server for one test; its sessions are killed afterwards."""
+    assert shutil.which("tmux"), "tmux is needed for this test (apt-get install tmux)"
+    server = Tmux()
+    try:
+        yield server
+    finally:
+        server.close()

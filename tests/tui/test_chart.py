@@ -6,6 +6,8 @@ comes from shapely (`Polygon.covers`, boundary included), not from the chart.
 
 from __future__ import annotations
 
+from contextlib import asynccontextmanager
+
 import numpy as np
 import pytest
 from shapely.geometry import Point, Polygon
@@ -26,6 +28,13 @@ class Host(App):
 
     def compose(self) -> ComposeResult:
         yield EnvelopeChart()
+
+
+@asynccontextmanager
+async def hosted_chart(size: tuple[int, int]):
+    """An EnvelopeChart filling a headless terminal of `size`: (chart, pilot)."""
+    async with Host().run_test(size=size) as pilot:
+        yield pilot.app.query_one(EnvelopeChart), pilot
 
 
 def screen_lines(chart: EnvelopeChart) -> list[str]:
@@ -51,8 +60,7 @@ def full_data(chart: EnvelopeChart, path_points: int = 500) -> np.ndarray:
 
 
 async def test_legend_words_and_distinct_marks_on_screen():
-    async with Host().run_test(size=(100, 30)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((100, 30)) as (chart, pilot):
         full_data(chart)
         await pilot.pause()
         lines = screen_lines(chart)
@@ -69,8 +77,7 @@ async def test_legend_words_and_distinct_marks_on_screen():
 
 
 async def test_axis_ticks_and_labels_with_units():
-    async with Host().run_test(size=(100, 30)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((100, 30)) as (chart, pilot):
         full_data(chart)
         await pilot.pause()
         text = "\n".join(screen_lines(chart))
@@ -92,8 +99,7 @@ def _marker_boxed(lines: list[str], r: int, c: int) -> bool:
 @pytest.mark.parametrize("polygon, inside", [(RECT, (150.0, 450.0)), (TRIANGLE, (115.0, 400.0))])
 async def test_point_inside_is_drawn_inside_the_polygon(size, polygon, inside):
     assert Polygon(polygon).covers(Point(inside))  # shapely: the reference for "inside"
-    async with Host().run_test(size=size) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart(size) as (chart, pilot):
         chart.set_data(polygon, inside, [], None, None, "CG (mm)", "mass (kg)")
         await pilot.pause()
         lines = screen_lines(chart)
@@ -105,8 +111,7 @@ async def test_point_inside_is_drawn_inside_the_polygon(size, polygon, inside):
 @pytest.mark.parametrize("polygon, outside", [(RECT, (260.0, 450.0)), (TRIANGLE, (180.0, 520.0))])
 async def test_point_outside_is_drawn_outside_the_polygon(polygon, outside):
     assert not Polygon(polygon).covers(Point(outside))  # shapely
-    async with Host().run_test(size=(80, 24)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((80, 24)) as (chart, pilot):
         chart.set_data(polygon, outside, [], None, None, "CG (mm)", "mass (kg)")
         await pilot.pause()
         lines = screen_lines(chart)
@@ -118,8 +123,7 @@ async def test_point_outside_is_drawn_outside_the_polygon(polygon, outside):
 
 
 async def test_worst_step_marks_the_given_path_state():
-    async with Host().run_test(size=(80, 24)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((80, 24)) as (chart, pilot):
         path = np.array([[120.0, 350.0], [150.0, 450.0], [180.0, 550.0]])
         chart.set_data(RECT, None, [], path, 0, "CG (mm)", "mass (kg)")
         await pilot.pause()
@@ -133,8 +137,7 @@ async def test_worst_step_marks_the_given_path_state():
 
 @pytest.mark.parametrize("size", [(36, 12), (24, 8), (12, 4), (6, 2), (1, 1), (2, 30), (200, 3)])
 async def test_small_sizes_do_not_crash(size):
-    async with Host().run_test(size=size) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart(size) as (chart, pilot):
         full_data(chart, 10_000)
         await pilot.pause()
         lines = screen_lines(chart)
@@ -142,8 +145,7 @@ async def test_small_sizes_do_not_crash(size):
 
 
 async def test_36_by_12_still_shows_chart_and_legend():
-    async with Host().run_test(size=(36, 12)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((36, 12)) as (chart, pilot):
         full_data(chart)
         await pilot.pause()
         lines = screen_lines(chart)
@@ -162,24 +164,21 @@ async def test_36_by_12_still_shows_chart_and_legend():
     np.zeros((0, 2)),
 ])
 async def test_degenerate_polygons_do_not_crash(polygon):
-    async with Host().run_test(size=(60, 20)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((60, 20)) as (chart, pilot):
         chart.set_data(polygon, (2900.0, 450.0), [], None, None, "CG (mm)", "mass (kg)")
         await pilot.pause()
         assert POINT in "\n".join(screen_lines(chart))
 
 
 async def test_values_beyond_float_range_show_a_message():
-    async with Host().run_test(size=(60, 20)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((60, 20)) as (chart, pilot):
         chart.set_data(np.array([[-1e308, 1.0], [1e308, 2.0], [0.0, 3.0]]), (0.0, 2.0), [], None, None, "x", "m")
         await pilot.pause()
         assert TOO_WIDE in "\n".join(screen_lines(chart))
 
 
 async def test_no_data_shows_a_plain_message():
-    async with Host().run_test(size=(60, 20)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((60, 20)) as (chart, pilot):
         await pilot.pause()
         assert NO_DATA in "\n".join(screen_lines(chart))
         full_data(chart)
@@ -191,8 +190,7 @@ async def test_no_data_shows_a_plain_message():
 
 
 async def test_redraws_on_resize():
-    async with Host().run_test(size=(80, 24)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((80, 24)) as (chart, pilot):
         full_data(chart)
         await pilot.pause()
         before = screen_lines(chart)
@@ -206,8 +204,7 @@ async def test_redraws_on_resize():
 
 
 async def test_labels_and_names_are_literal():
-    async with Host().run_test(size=(100, 24)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((100, 24)) as (chart, pilot):
         chart.set_data(RECT, (150.0, 450.0), [("[b]x[/b]", 120.0, 400.0)], None, None,
                        "[i]CG[/i] (mm)\x1b[2J", "mass (kg)")
         await pilot.pause()
@@ -221,8 +218,7 @@ async def test_region_shades_the_cells_it_covers_and_is_named():
     # circle's bounding box, and the cells around the centre must be shaded (shapely decides "inside")
     t = np.linspace(0.0, 2.0 * np.pi, 72)
     circle = np.column_stack([150.0 + 20.0 * np.cos(t), 450.0 + 60.0 * np.sin(t)])
-    async with Host().run_test(size=(80, 24)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((80, 24)) as (chart, pilot):
         chart.set_data(RECT, (150.0, 450.0), [], None, None, "CG (mm)", "mass (kg)", region=circle,
                        region_label="2σ CG region")
         await pilot.pause()
@@ -240,8 +236,7 @@ async def test_region_shades_the_cells_it_covers_and_is_named():
 
 async def test_region_smaller_than_a_cell_still_shows():
     tiny = np.array([[150.0, 450.0], [150.01, 450.0], [150.01, 450.01], [150.0, 450.01]])
-    async with Host().run_test(size=(80, 24)) as pilot:
-        chart = pilot.app.query_one(EnvelopeChart)
+    async with hosted_chart((80, 24)) as (chart, pilot):
         chart.set_data(RECT, None, [], None, None, "CG (mm)", "mass (kg)", region=tiny)
         await pilot.pause()
         lines = screen_lines(chart)

@@ -17,80 +17,23 @@ FAA-H-8083-1; NIST SP 811 pound and inch).
 from __future__ import annotations
 
 import os
-import shutil
 import signal
-import subprocess
-import sys
 import time
 import tomllib
-import uuid
 
 import pytest
 
 import steelyard.io.durability.journal as J
 from steelyard.io.ledger.file import open_ledger
-from steelyard.tui.app import SteelyardApp
 from steelyard.tui.screens.confirm import ConfirmScreen
 from steelyard.tui.screens.restore_screen import RestoreScreen
-from tui_helpers import LB, close, copy_fixture, exact_totals, screen_text, settle, wait_loaded
-
-SIZE = (80, 24)
-LEDGER = """steelyard = 1
-
-[units]
-mass = "lb"
-length = "in"
-
-[[item]]
-id = "shelf"
-name = "Avionics shelf"
-group = "avionics"
-mass = 4.4
-cg = [142.0, 0.0, 24.0]
-
-[[item]]
-id = "radio"
-name = "Panel radio"
-group = "avionics"
-mass = 3.1
-cg = [106.0, 4.0, 26.0]
-"""
+from support.exact import close, exact_totals
+from support.tmux import AVIONICS as LEDGER
+from support.tui import copy_fixture, editor, screen_text, settle, wait_loaded
+from support.units import LB
 
 
 # ----------------------------------------------------------------- the real program, killed
-
-
-def _tmux(sock: str, *args: str) -> subprocess.CompletedProcess:
-    return subprocess.run(["tmux", "-L", sock, *args], capture_output=True, text=True, timeout=30)
-
-
-def _screen(sock: str, name: str) -> str:
-    return _tmux(sock, "capture-pane", "-p", "-t", name).stdout
-
-
-def _wait_for(sock: str, name: str, text: str, timeout: float = 60.0) -> str:
-    end = time.monotonic() + timeout
-    screen = ""
-    while time.monotonic() < end:
-        screen = _screen(sock, name)
-        if text in screen:
-            return screen
-        time.sleep(0.25)
-    raise AssertionError(f"{text!r} never appeared; the screen was:\n{screen}")
-
-
-def _keys(sock: str, name: str, *keys: str) -> None:
-    for key in keys:
-        _tmux(sock, "send-keys", "-t", name, key)
-        time.sleep(0.15)
-
-
-def _start(sock: str, name: str, folder, file_name: str) -> int:
-    """The program in a fresh tmux session (exec'd, so the pane's pid is the program's)."""
-    command = f"cd {folder} && exec env TERM=xterm-256color TEXTUAL_ANIMATIONS=none {sys.executable} -m steelyard {file_name}"
-    subprocess.run(["tmux", "-L", sock, "new-session", "-d", "-s", name, "-x", "80", "-y", "24", command],
-                   check=True, timeout=30)
-    return int(_tmux(sock, "display-message", "-p", "-t", name, "#{pane_pid}").stdout.strip())
 
 
 def _gone(pid: int, timeout: float = 30.0) -> None:
@@ -104,49 +47,45 @@ def _gone(pid: int, timeout: float = 30.0) -> None:
     raise AssertionError(f"process {pid} is still running")
 
 
+@pytest.mark.slow  # the real program in tmux, killed and started again
 @pytest.mark.parametrize("sig", [signal.SIGKILL, signal.SIGHUP])
-def test_killed_mid_edit_then_reopened_offers_and_restores_the_edit(tmp_path, sig):
-    assert shutil.which("tmux"), "tmux is needed for this test (apt-get install tmux)"
+def test_killed_mid_edit_then_reopened_offers_and_restores_the_edit(tmp_path, sig, tmux):
     path = tmp_path / "ledger.toml"
     path.write_text(LEDGER)
     on_disk = path.read_bytes()
-    sock = f"steelyard-journal-{uuid.uuid4().hex[:8]}"
-    try:
-        pid = _start(sock, "first", tmp_path, path.name)
-        _wait_for(sock, "first", "Mass ")
-        # rows: the group "avionics", then shelf, radio; the cursor starts on the group
-        _keys(sock, "first", "Down", "e")
-        _wait_for(sock, "first", "Edit item shelf")
-        _keys(sock, "first", "End", *["BSpace"] * 6, "5", ".", "2", "5")
-        _wait_for(sock, "first", "Δmass +0.8500 lb")  # 5.25 - 4.4 lb, before applying
-        _keys(sock, "first", "Enter")
-        _wait_for(sock, "first", "* ledger.toml")  # applied, not saved
-        _wait_for(sock, "first", "5.250")
-        os.kill(pid, sig)  # a crash, or the terminal's hang-up when an SSH session drops
-        _gone(pid)
-        assert path.read_bytes() == on_disk  # nothing was saved
-        assert J.journal_path(path).exists()  # the edit is in the journal
+    tmux.key_gap, tmux.poll, tmux.wait = 0.15, 0.25, 60.0
+    pid = tmux.start("first", tmp_path, path.name)
+    tmux.wait_for("first", "Mass ")
+    # rows: the group "avionics", then shelf, radio; the cursor starts on the group
+    tmux.keys("first", "Down", "e")
+    tmux.wait_for("first", "Edit item shelf")
+    tmux.keys("first", "End", *["BSpace"] * 6, "5", ".", "2", "5")
+    tmux.wait_for("first", "Δmass +0.8500 lb")  # 5.25 - 4.4 lb, before applying
+    tmux.keys("first", "Enter")
+    tmux.wait_for("first", "* ledger.toml")  # applied, not saved
+    tmux.wait_for("first", "5.250")
+    os.kill(pid, sig)  # a crash, or the terminal's hang-up when an SSH session drops
+    _gone(pid)
+    assert path.read_bytes() == on_disk  # nothing was saved
+    assert J.journal_path(path).exists()  # the edit is in the journal
 
-        pid = _start(sock, "second", tmp_path, path.name)
-        if sig == signal.SIGKILL:  # a killed process leaves its lock: stale, offered for takeover
-            _wait_for(sock, "second", "stale lock")
-            _keys(sock, "second", "Enter")  # Take over
-        screen = _wait_for(sock, "second", "Unsaved edits found")
-        flat = " ".join(screen.split())
-        assert "1 unsaved edit by" in flat and "Items: shelf" in flat
-        assert "edited shelf: mass 4.4 → 5.25" in flat  # what would be restored
-        assert "as it is on disk" in flat  # the journal matches the file
-        _keys(sock, "second", "Enter")  # Restore
-        _wait_for(sock, "second", "Restored 1 unsaved edit")
-        screen = _wait_for(sock, "second", "5.250")
-        assert "* ledger.toml" in screen  # restored edits are unsaved work
-        _keys(sock, "second", "C-s")
-        _wait_for(sock, "second", "saved ")
-        _keys(sock, "second", "C-q")
-        _gone(pid)
-    finally:
-        for name in ("first", "second"):
-            _tmux(sock, "kill-session", "-t", name)
+    pid = tmux.start("second", tmp_path, path.name)
+    if sig == signal.SIGKILL:  # a killed process leaves its lock: stale, offered for takeover
+        tmux.wait_for("second", "stale lock")
+        tmux.keys("second", "Enter")  # Take over
+    screen = tmux.wait_for("second", "Unsaved edits found")
+    flat = " ".join(screen.split())
+    assert "1 unsaved edit by" in flat and "Items: shelf" in flat
+    assert "edited shelf: mass 4.4 → 5.25" in flat  # what would be restored
+    assert "as it is on disk" in flat  # the journal matches the file
+    tmux.keys("second", "Enter")  # Restore
+    tmux.wait_for("second", "Restored 1 unsaved edit")
+    screen = tmux.wait_for("second", "5.250")
+    assert "* ledger.toml" in screen  # restored edits are unsaved work
+    tmux.keys("second", "C-s")
+    tmux.wait_for("second", "saved ")
+    tmux.keys("second", "C-q")
+    _gone(pid)
     data = tomllib.loads(path.read_text())
     assert next(it for it in data["item"] if it["id"] == "shelf")["mass"] == 5.25
     assert data["change"][-1]["item"] == "shelf" and data["change"][-1]["action"] == "edit"
@@ -183,8 +122,7 @@ async def _offer(app, pilot) -> RestoreScreen:
 async def test_restore_rebuilds_edits_change_log_and_undo(tmp_path):
     path = copy_fixture(tmp_path)
     _left_journal(path, [("wing-l", 150.0), ("wing-r", 151.0)])
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
+    async with editor(path, wait=False) as (app, pilot):
         await _offer(app, pilot)
         text = " ".join(screen_text(app).split())
         assert "2 unsaved edits by someone@" in text and "Items: wing-l, wing-r" in text
@@ -211,8 +149,7 @@ async def test_restore_rebuilds_edits_change_log_and_undo(tmp_path):
 async def test_discard_asks_once_more_then_drops_the_journal(tmp_path):
     path = copy_fixture(tmp_path)
     _left_journal(path, [("wing-l", 150.0)])
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
+    async with editor(path, wait=False) as (app, pilot):
         await _offer(app, pilot)
         await pilot.press("tab", "enter")  # Discard them
         await pilot.pause(0.2)
@@ -230,8 +167,7 @@ async def test_later_keeps_the_journal_and_opens_read_only(tmp_path):
     path = copy_fixture(tmp_path)
     _left_journal(path, [("wing-l", 150.0)])
     before = J.journal_path(path).read_bytes()
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
+    async with editor(path, wait=False) as (app, pilot):
         await _offer(app, pilot)
         await pilot.press("escape")  # Later
         await settle(pilot, app)
@@ -249,8 +185,7 @@ async def test_a_file_changed_since_is_said_and_restoring_is_still_possible(tmp_
     path = copy_fixture(tmp_path)
     _left_journal(path, [("wing-l", 150.0)])
     path.write_text(path.read_text() + "\n# edited by hand since\n")
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
+    async with editor(path, wait=False) as (app, pilot):
         await _offer(app, pilot)
         text = " ".join(screen_text(app).split())
         assert "WARNING: the file has changed since these edits were made" in text
@@ -267,9 +202,7 @@ async def test_a_file_changed_since_is_said_and_restoring_is_still_possible(tmp_
 
 async def test_edits_are_journaled_and_a_save_starts_it_over(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         s = app.session
         assert s.journal is not None and s.journal.unsaved == 0
         item = s.ledger.item("wing-l")

@@ -15,14 +15,13 @@ from fractions import Fraction
 
 from steelyard.core.caution import CAUTION
 from steelyard.core.display import fmt
-from steelyard.tui.app import SteelyardApp
 from steelyard.tui.screens.choice_screen import ChoiceScreen
 from steelyard.tui.screens.compare_screen import CompareScreen
 from steelyard.tui.screens.prompt import TextPrompt
-from tui_helpers import LB, screen_text, settle, type_into, wait_loaded
-
-SIZE = (80, 24)
-INCH = Fraction("0.0254")  # m, exact (NIST SP 811)
+from support.ledgers import write_ledger
+from support.tui import editor, screen_text, settle, type_into, wait_for_screen
+from support.units import IN as INCH
+from support.units import LB
 
 # an invented ledger: everything in lb and in, loadout amounts as fractions only
 LEDGER = """steelyard = 1
@@ -107,20 +106,13 @@ async def open_compare(app, pilot, choice_label: str) -> None:
     labels = [str(box.get_option_at_index(i).prompt) for i in range(box.option_count)]
     target = next(i for i, label in enumerate(labels) if choice_label in label)
     await pilot.press("home", *["down"] * target, "enter")
-    for _ in range(100):
-        await pilot.pause(0.05)
-        if isinstance(app.screen, CompareScreen):
-            break
-    assert isinstance(app.screen, CompareScreen)
+    await wait_for_screen(app, pilot, CompareScreen)
     await pilot.pause(0.1)
 
 
 async def test_compare_two_loadouts_totals_ranking_and_envelopes(tmp_path):
-    path = tmp_path / "ledger.toml"
-    path.write_text(LEDGER)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    path = write_ledger(tmp_path, LEDGER)
+    async with editor(path) as (app, pilot):
         app.session.set_loadout("half")
         app.refresh_views()
         await settle(pilot, app)
@@ -169,11 +161,8 @@ async def test_compare_two_loadouts_totals_ranking_and_envelopes(tmp_path):
 
 
 async def test_compare_with_the_saved_ledger_and_jump_to_the_added_item(tmp_path):
-    path = tmp_path / "ledger.toml"
-    path.write_text(LEDGER)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    path = write_ledger(tmp_path, LEDGER)
+    async with editor(path) as (app, pilot):
         await pilot.press("a")
         await pilot.pause()
         for field, value in (("f-id", "radio-2"), ("f-name", "Radio [link=x]y[/link]"), ("f-mass", "2.3 lb"),
@@ -203,8 +192,7 @@ async def test_compare_with_the_saved_ledger_and_jump_to_the_added_item(tmp_path
 
 
 async def test_compare_with_a_snapshot_file_and_a_tampered_one(tmp_path):
-    path = tmp_path / "ledger.toml"
-    path.write_text(LEDGER)
+    path = write_ledger(tmp_path, LEDGER)
     snap = tmp_path / "baseline.toml"
     subprocess.run([sys.executable, "-m", "steelyard", "snapshot", str(path), "--loadout", "full", "-o", str(snap)],
                    check=True, capture_output=True, timeout=60)
@@ -212,9 +200,7 @@ async def test_compare_with_a_snapshot_file_and_a_tampered_one(tmp_path):
     text = snap.read_text()
     assert "mass = 1000.0" not in text  # SI in a snapshot: the airframe is 453.59237 kg
     tampered.write_text(text.replace("453.59237", "460.0", 1))
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         for target, verdict in ((snap, "its hash and totals check out"), (tampered, "CHECK FAILED")):
             await pilot.press("c")
             await pilot.pause()
@@ -223,11 +209,7 @@ async def test_compare_with_a_snapshot_file_and_a_tampered_one(tmp_path):
             assert isinstance(app.screen, TextPrompt)
             await type_into(app, pilot, "prompt-input", str(target))
             await pilot.press("enter")
-            for _ in range(200):
-                await pilot.pause(0.05)
-                if isinstance(app.screen, CompareScreen):
-                    break
-            assert isinstance(app.screen, CompareScreen)
+            await wait_for_screen(app, pilot, CompareScreen, tries=200)
             shown = " ".join(screen_text(app).split())
             assert "(snapshot)" in shown and verdict in shown
             if target is snap:

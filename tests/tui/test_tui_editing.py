@@ -14,16 +14,14 @@ from steelyard.core.display import fmt
 from steelyard.io.ledger.demo import demo_path
 from steelyard.tui.app import SteelyardApp
 from steelyard.tui.screens.item_form import ItemForm
-from tui_helpers import (DEMO, LB, close, copy_fixture, cursor_to, exact_totals, screen_text, settle, type_into,
-                         wait_loaded)
-
-SIZE = (80, 24)
+from support.exact import close, exact_totals
+from support.paths import DEMO
+from support.tui import SIZE, copy_fixture, cursor_to, editor, screen_text, settle, type_into
+from support.units import LB
 
 
 async def test_open_the_demo_shows_table_totals_and_caution():
-    app = SteelyardApp(None)
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(None) as (app, pilot):
         text = screen_text(app)
         s = app.session
         assert s.demo and s.path is None and not s.dirty
@@ -39,9 +37,7 @@ async def test_open_the_demo_shows_table_totals_and_caution():
 
 async def test_add_item_through_the_form_changes_totals_exactly(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await pilot.press("a")
         await pilot.pause()
         assert isinstance(app.screen, ItemForm)
@@ -70,9 +66,7 @@ async def test_add_item_through_the_form_changes_totals_exactly(tmp_path):
 
 async def test_undo_restores_bit_identical_totals_and_redo_reapplies(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         before = app.session.totals().mp
         shown_before = screen_text(app).splitlines()[-4:-1]
         await cursor_to(app, pilot, "wing-l")
@@ -100,9 +94,7 @@ async def test_undo_restores_bit_identical_totals_and_redo_reapplies(tmp_path):
 async def test_invalid_entry_shows_its_message_and_changes_nothing(tmp_path):
     path = copy_fixture(tmp_path)
     on_disk = path.read_bytes()
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         ledger = app.session.ledger
         await cursor_to(app, pilot, "wing-l")
         await pilot.press("e")
@@ -125,9 +117,7 @@ async def test_invalid_entry_shows_its_message_and_changes_nothing(tmp_path):
 
 async def test_save_reopen_equal_and_change_log_kept(tmp_path):
     path = copy_fixture(tmp_path)  # has comments: saving asks before dropping them
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await cursor_to(app, pilot, "wing-l")
         await pilot.press("d")  # duplicate
         await settle(pilot, app)
@@ -148,9 +138,7 @@ async def test_save_reopen_equal_and_change_log_kept(tmp_path):
     assert reopened.loadouts == saved.loadouts and reopened.envelopes == saved.envelopes
     log = log_from_ledger(reopened)
     assert len(log) == 1 and log[0].action == "duplicate" and log[0].author == author
-    app2 = SteelyardApp(str(path))
-    async with app2.run_test(size=SIZE) as pilot:
-        await wait_loaded(app2, pilot)
+    async with editor(path) as (app2, pilot):
         await pilot.press("4")
         await pilot.pause()
         assert "duplicate" in screen_text(app2)  # the log is there after reopening
@@ -158,9 +146,7 @@ async def test_save_reopen_equal_and_change_log_kept(tmp_path):
 
 async def test_demo_save_asks_where_and_never_writes_the_package(tmp_path):
     original = demo_path().read_bytes()
-    app = SteelyardApp(None)
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(None) as (app, pilot):
         await cursor_to(app, pilot, "wing-l")
         await pilot.press("x")
         await pilot.pause()
@@ -181,9 +167,7 @@ async def test_demo_save_asks_where_and_never_writes_the_package(tmp_path):
 
 async def test_quit_with_unsaved_work_asks(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await cursor_to(app, pilot, "wing-l")
         await pilot.press("d")
         await settle(pilot, app)

@@ -17,12 +17,13 @@ import numpy as np
 from shapely.geometry import LineString, Polygon
 
 from steelyard.core.display import fmt
-from steelyard.tui.app import SteelyardApp
 from steelyard.tui.widgets.chart import REGION, WORST, EnvelopeChart
-from tui_helpers import ROOT, copy_fixture, exact_totals, screen_text, settle, wait_loaded
+from support.exact import exact_totals
+from support.ledgers import write_ledger
+from support.paths import FIXTURES
+from support.tui import copy_fixture, editor, screen_text, settle
 
-SIZE = (80, 24)
-OVERWEIGHT = ROOT / "fixtures" / "trainer-overweight.toml"
+OVERWEIGHT = FIXTURES / "trainer-overweight.toml"
 INCH = 0.0254  # m (NIST SP 811)
 LB = 0.45359237  # kg (NIST SP 811)
 
@@ -61,9 +62,7 @@ async def _envelopes(app, pilot) -> None:
 
 async def test_sequence_path_and_its_least_margin_state_are_charted(tmp_path):
     path = copy_fixture(tmp_path, OVERWEIGHT)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         app.session.set_loadout("aft-loaded")
         app.refresh_views()
         await _envelopes(app, pilot)
@@ -93,11 +92,8 @@ async def test_sequence_path_and_its_least_margin_state_are_charted(tmp_path):
 
 
 async def test_uncertainty_region_is_the_two_sigma_ellipse(tmp_path):
-    path = tmp_path / "tol.toml"
-    path.write_text(TOLERANCES)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    path = write_ledger(tmp_path, TOLERANCES, "tol.toml")
+    async with editor(path) as (app, pilot):
         await _envelopes(app, pilot)
         # first order (JCGM 100): σ²(cg_x) = Σ ((x_i − cg)/M)² σ_m,i² + Σ (m_i/M)² σ_x,i²
         m = [900.0, 300.0]
@@ -123,9 +119,7 @@ async def test_uncertainty_region_is_the_two_sigma_ellipse(tmp_path):
 
 async def test_totals_show_percent_mac_from_the_mac_table(tmp_path):
     path = copy_fixture(tmp_path, OVERWEIGHT)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await pilot.press("2")
         await pilot.pause(0.2)
         _mass, cg = exact_totals(path)  # no loadout: the fixed items

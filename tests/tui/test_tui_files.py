@@ -10,9 +10,8 @@ from pathlib import Path
 from steelyard.io.durability.lock import acquire, lock_path, this_host
 from steelyard.tui.app import SteelyardApp
 from steelyard.tui.screens.item_form import ItemForm
-from tui_helpers import copy_fixture, cursor_to, screen_text, settle, wait_loaded
-
-SIZE = (80, 24)
+from support.ledgers import write_ledger
+from support.tui import SIZE, copy_fixture, cursor_to, editor, screen_text, settle, type_into, wait_loaded
 
 
 async def test_lock_refuses_a_second_writer(tmp_path):
@@ -20,9 +19,7 @@ async def test_lock_refuses_a_second_writer(tmp_path):
     on_disk = path.read_bytes()
     first = acquire(path)  # the first session (same user, this live process: not stale)
     try:
-        app = SteelyardApp(str(path))
-        async with app.run_test(size=SIZE) as pilot:
-            await wait_loaded(app, pilot)
+        async with editor(path) as (app, pilot):
             s = app.session
             assert s.read_only and s.lock is None
             assert f"{first.info.user}@{first.info.host}" in app.title and "read-only" in app.title
@@ -40,9 +37,7 @@ async def test_lock_refuses_a_second_writer(tmp_path):
 
 async def test_lock_is_taken_on_open_and_released_on_quit(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         assert app.session.lock is not None and lock_path(path).exists()
         await pilot.press("ctrl+q")
         await pilot.pause(0.2)
@@ -56,9 +51,7 @@ async def test_stale_lock_is_offered_for_takeover(tmp_path):
     pid = int(dead.stdout)  # that process has exited: its lock is stale
     lock_path(path).write_text(json.dumps({"program": "steelyard", "user": "someone", "host": this_host(),
                                            "pid": pid, "since": "2020-01-01T00:00:00Z", "token": "x"}))
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await pilot.pause(0.2)
         text = screen_text(app)
         assert "stale" in text and "someone" in text
@@ -70,9 +63,7 @@ async def test_stale_lock_is_offered_for_takeover(tmp_path):
 
 async def test_file_changed_on_disk_makes_save_ask(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await cursor_to(app, pilot, "wing-l")
         await pilot.press("d")
         await settle(pilot, app)
@@ -102,11 +93,8 @@ cg = [2.0, 0.0, 0.0]
 
 
 async def test_markup_and_escape_sequences_in_names_show_literally(tmp_path):
-    path = tmp_path / "nasty.toml"
-    path.write_text(NASTY)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=(120, 30)) as pilot:
-        await wait_loaded(app, pilot)
+    path = write_ledger(tmp_path, NASTY, "nasty.toml")
+    async with editor(path, size=(120, 30)) as (app, pilot):
         await pilot.press("g")  # flat list: the group column shows too
         await pilot.pause()
         text = screen_text(app)
@@ -123,14 +111,10 @@ async def test_read_only_session_can_save_as_elsewhere_and_edit_there(tmp_path):
     path = copy_fixture(tmp_path)
     first = acquire(path)
     try:
-        app = SteelyardApp(str(path))
-        async with app.run_test(size=SIZE) as pilot:
-            await wait_loaded(app, pilot)
+        async with editor(path) as (app, pilot):
             assert app.session.read_only
             await pilot.press("W")
             await pilot.pause()
-            from tui_helpers import type_into
-
             mine = tmp_path / "mine.toml"
             await type_into(app, pilot, "prompt-input", str(mine))
             await pilot.press("enter")

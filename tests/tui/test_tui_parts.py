@@ -20,7 +20,7 @@ from steelyard.tui.state.edits import add_item, delete_item, duplicate_item, mov
 from steelyard.tui.state.form_values import GIVEN_INERTIA, initial_fields, item_from_fields, quantity
 from steelyard.tui.state.rows import LedgerIndex, RowSpec, build_rows, leaf_path
 from steelyard.tui.text import clean
-from tui_helpers import TRAINER
+from support.paths import TRAINER
 
 US = Ledger(units=FileUnits("lb", "in", "lb*in**2"))
 

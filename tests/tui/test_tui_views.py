@@ -4,21 +4,19 @@ from __future__ import annotations
 
 from fractions import Fraction
 
-from steelyard.tui.app import PALETTE, SteelyardApp
+from steelyard.tui.app import PALETTE
 from steelyard.tui.screens.help_screen import HelpScreen
 from steelyard.tui.keys import MAIN_KEYS, pretty_keys
 from steelyard.tui.screens.loadout_screen import LoadoutScreen
 from steelyard.tui.state.rows import SORT_KEYS
-from tui_helpers import LB, close, copy_fixture, exact_totals, screen_text, settle, type_into, wait_loaded
-
-SIZE = (80, 24)
+from support.exact import close, exact_totals
+from support.tui import copy_fixture, editor, screen_text, settle, type_into, wait_for_screen
+from support.units import LB
 
 
 async def test_switch_loadout_and_edit_an_amount(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await pilot.press("L")
         await pilot.pause()
         assert isinstance(app.screen, LoadoutScreen)
@@ -51,9 +49,7 @@ async def test_switch_loadout_and_edit_an_amount(tmp_path):
 
 async def test_units_switch_sort_filter_and_fold(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         mass, _ = exact_totals(path)
         await pilot.press("t")  # SI
         await pilot.pause()
@@ -97,9 +93,7 @@ async def test_units_switch_sort_filter_and_fold(tmp_path):
 
 async def test_views_show_totals_envelopes_with_caution_and_log(tmp_path):
     path = copy_fixture(tmp_path)
-    app = SteelyardApp(str(path))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(path) as (app, pilot):
         await pilot.press("2")
         await pilot.pause()
         text = screen_text(app)
@@ -118,9 +112,7 @@ async def test_views_show_totals_envelopes_with_caution_and_log(tmp_path):
 
 
 async def test_help_lists_every_key_and_palette_has_the_main_actions(tmp_path):
-    app = SteelyardApp(str(copy_fixture(tmp_path)))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(copy_fixture(tmp_path)) as (app, pilot):
         await pilot.press("f1")
         await pilot.pause()
         assert isinstance(app.screen, HelpScreen)
@@ -156,19 +148,13 @@ async def test_palette_opens_the_compare_and_weighing_screens(tmp_path):
     from steelyard.tui.screens.choice_screen import ChoiceScreen
     from steelyard.tui.screens.weighing_form import WeighingForm
 
-    app = SteelyardApp(str(copy_fixture(tmp_path)))
-    async with app.run_test(size=SIZE) as pilot:
-        await wait_loaded(app, pilot)
+    async with editor(copy_fixture(tmp_path)) as (app, pilot):
         for typed, screen in (("Weighing form", WeighingForm), ("Compare", ChoiceScreen)):
             await pilot.press("ctrl+p")
             await pilot.pause(0.3)
             await pilot.press(*["space" if ch == " " else ch for ch in typed])
             await pilot.pause(0.5)
             await pilot.press("enter")
-            for _ in range(40):
-                await pilot.pause(0.05)
-                if isinstance(app.screen, screen):
-                    break
-            assert isinstance(app.screen, screen), typed
+            await wait_for_screen(app, pilot, screen, tries=40, what=typed)
             await pilot.press("escape")
             await pilot.pause(0.2)
