@@ -19,7 +19,9 @@ HELP = "compare two ledgers, snapshots or loadouts (FILE:LOADOUT) item by item; 
 DESCRIPTION = (
     "Compare A with B item by item (matched by id) as carried: items added, removed and changed "
     "field by field, the effect on mass, CG, inertia and each CG envelope, and the changed items "
-    "ranked by how far each alone moves the CG. A and B are ledger files, snapshots, or "
+    "ranked by how far each alone moves the CG; then envelopes, loadouts, limits, allocations, "
+    "sequences and the [mac], [fuel], [growth], [weighing] and [user] tables by name, by meaning. "
+    "A and B are ledger files, snapshots, or "
     "FILE:LOADOUT. Values equal after unit conversion are no difference. Exit 0: no differences; "
     "1: different; 2: bad input.")
 

@@ -14,6 +14,7 @@ from rich.text import Text
 
 from steelyard.core.caution import CAUTION
 from steelyard.core.history.diff import LedgerDiff, change_rows
+from steelyard.core.history.diff_text import definition_sections
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit, visible
 from steelyard.core.document.model import FileUnits
 
@@ -139,16 +140,12 @@ def _envelopes(console, diff: LedgerDiff, du) -> None:
     console.print(T(CAUTION, style="italic"))
 
 
-def _definitions(console, title: str, d) -> None:
-    if not d:
-        return
-    lines = [f"{title}:"]
-    lines += [f"  added {n}" for n in d.added] + [f"  removed {n}" for n in d.removed]
-    for name, fields in d.changed:
-        for k, (old, new) in fields.items():
-            lines.append(f"  {name}: {k}: {old!r} → {new!r}")
-    for line in lines:
-        console.print(T(line))
+def _definitions(console, diff: LedgerDiff, du) -> None:
+    """Each kind of definition that differs in its own section: added, removed, and old → new by field."""
+    for title, lines in definition_sections(diff, du):
+        console.print(T(f"{title}:"))
+        for line in lines:
+            console.print(T(line))
 
 
 def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None, max_items: int,
@@ -169,6 +166,5 @@ def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None,
     _ranked_table(console, diff, du, max_items)
     _totals(console, diff, du)
     _envelopes(console, diff, du)
-    _definitions(console, "Envelope definitions", diff.envelope_definitions)
-    _definitions(console, "Loadout definitions", diff.loadout_definitions)
+    _definitions(console, diff, du)
 

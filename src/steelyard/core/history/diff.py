@@ -12,11 +12,14 @@ differ by at most `ULPS` units in the last place of the larger one, so a
 length typed "12 in" in one file and "1 ft" in the other (a one-ulp
 difference after conversion) is no change. Everything per item runs over
 numpy columns; only rows that differ are turned into Python dicts.
+
+Definitions beside the items (envelopes, loadouts, limits, allocations,
+sequences, [mac], [fuel], [growth], [weighing], [user]) are compared by
+core.history.diff_tables; core.history.diff_text puts any change in words.
 """
 
 from __future__ import annotations
 
-import math
 import operator
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -25,17 +28,20 @@ from itertools import repeat
 
 import numpy as np
 
-from steelyard.core.display import DisplayUnits, fmt, pretty_unit
 from steelyard.core.errors import SteelyardError, item_subject
+from steelyard.core.history.diff_equal import ULPS, close, same
+from steelyard.core.history.diff_tables import (DefinitionChanges, TableChanges, envelope_definitions,
+                                                item_extra_changes, loadout_definitions, table_changes)
+from steelyard.core.history.diff_text import change_rows
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.loading.loadout import fill_fractions, state_from_fill
-from steelyard.core.document.model import Amount, Envelope, Ledger, Loadout, more_keys
+from steelyard.core.document.model import Ledger, more_keys
 from steelyard.core.physics.rollup import MassProperties, rollup_state
 from steelyard.core.limits.status import EnvelopeResult, envelope_results
-from steelyard.core.units import unit_factor
 
-#: Equality tolerance for SI numbers, in units in the last place of the larger magnitude.
-ULPS = 8
+
+# ULPS, close, change_rows and DefinitionChanges stay importable from here: screens and reports use them.
+RE_EXPORTED = (ULPS, close, change_rows, DefinitionChanges)
 #: The top-level table that makes a ledger a snapshot (see steelyard.io.ledger.snapshot).
 SNAPSHOT_TABLE = "snapshot"
 #: Per-item key in a snapshot for a load item: { capacity_kg = full amount, fill = 0..1 }.
@@ -44,30 +50,6 @@ LOADED_KEY = "loaded"
 #: Item fields in the order they are reported.
 FIELDS = ("name", "group", "quantity", "mass_kg", "cg_m", "inertia_kg_m2", "shape", "rotate",
           "variable", "capacity_kg", "density_kg_m3")
-
-
-def close(a, b) -> np.ndarray:
-    """Elementwise: equal within ULPS ulps of the larger magnitude (NaN equals NaN)."""
-    a = np.asarray(a, dtype=float)
-    b = np.asarray(b, dtype=float)
-    with np.errstate(invalid="ignore", over="ignore"):
-        tol = ULPS * np.spacing(np.maximum(np.abs(a), np.abs(b)))
-        return (a == b) | (np.abs(a - b) <= tol) | (np.isnan(a) & np.isnan(b))
-
-
-def _same(a, b) -> bool:
-    """Loose equality of nested values (numbers within ULPS, everything else exactly)."""
-    if isinstance(a, bool) or isinstance(b, bool) or isinstance(a, str) or isinstance(b, str):
-        return type(a) is type(b) and a == b
-    if isinstance(a, (int, float)) and isinstance(b, (int, float)):
-        if a == b or (math.isnan(a) and math.isnan(b)):
-            return True
-        return abs(a - b) <= ULPS * math.ulp(max(abs(a), abs(b)))
-    if isinstance(a, (list, tuple)) and isinstance(b, (list, tuple)):
-        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
-    if isinstance(a, Mapping) and isinstance(b, Mapping):
-        return a.keys() == b.keys() and all(_same(a[k], b[k]) for k in a)
-    return a == b
 
 
 # --------------------------------------------------------------------------- one side, as carried
@@ -197,18 +179,6 @@ class EnvelopeChange:
             self.a is not None and self.b is not None and self.a.inside != self.b.inside)
 
 
-@dataclass(frozen=True)
-class DefinitionChanges:
-    """Named definitions (envelopes, loadouts) added, removed or changed field by field."""
-
-    added: tuple[str, ...] = ()
-    removed: tuple[str, ...] = ()
-    changed: tuple[tuple[str, Mapping[str, tuple[object, object]]], ...] = ()
-
-    def __bool__(self) -> bool:
-        return bool(self.added or self.removed or self.changed)
-
-
 @dataclass(frozen=True, eq=False)
 class LedgerDiff:
     a: Carried
@@ -221,11 +191,12 @@ class LedgerDiff:
     frame: Mapping[str, tuple[str, str]] = field(default_factory=dict)
     envelope_definitions: DefinitionChanges = DefinitionChanges()
     loadout_definitions: DefinitionChanges | None = None  # None: not compared
+    tables: TableChanges = TableChanges()  # limits, allocations, sequences, [mac], [fuel], [growth], ...
 
     @property
     def identical(self) -> bool:
         return not (self.added or self.removed or self.changed or self.frame or self.envelope_definitions
-                    or self.loadout_definitions)
+                    or self.loadout_definitions or self.tables)
 
     @property
     def delta_mass(self) -> float:
@@ -319,20 +290,11 @@ def _item_masks(a: Carried, b: Carried, ia: np.ndarray, ib: np.ndarray) -> dict[
     for k in np.flatnonzero(a.geometry[ia] | b.geometry[ib]).tolist():
         x, y = ai[la[k]], bi[lb[k]]
         if x.shape is not None or y.shape is not None:
-            shape[k] = not _same(_shape(x), _shape(y))
+            shape[k] = not same(_shape(x), _shape(y))
         if x.rotate or y.rotate:
-            rotate[k] = not _same(_rotate(x), _rotate(y))
+            rotate[k] = not same(_rotate(x), _rotate(y))
     m["shape"], m["rotate"] = shape, rotate
     return m
-
-
-def _extra_changes(ea: Mapping, eb: Mapping) -> dict[str, tuple[object, object]]:
-    out = {}
-    for k in sorted(set(ea) | set(eb)):
-        x, y = ea.get(k), eb.get(k)
-        if not _same(x, y):
-            out[k] = (x, y)
-    return out
 
 
 def _rank(a: Carried, b: Carried, kinds: list[str], ids: list[str], ra: np.ndarray,
@@ -364,60 +326,6 @@ def _rank(a: Carried, b: Carried, kinds: list[str], ids: list[str], ra: np.ndarr
     return tuple(ItemEffect(ids[i], kinds[i], float(dm[i]), shift[i]) for i in order.tolist())
 
 
-def _envelope_points(env: Envelope) -> list:
-    return [[float(c), float(m)] for c, m in env.points]
-
-
-def _envelope_definitions(a: Ledger, b: Ledger) -> DefinitionChanges:
-    ea = {e.name: e for e in a.envelopes}
-    eb = {e.name: e for e in b.envelopes}
-    changed = []
-    for name, x in ea.items():
-        y = eb.get(name)
-        if y is None:
-            continue
-        fields: dict = {}
-        if x.axis != y.axis:
-            fields["axis"] = (x.axis, y.axis)
-        if not _same(_envelope_points(x), _envelope_points(y)):
-            fields["points_m_kg"] = (_envelope_points(x), _envelope_points(y))
-        fields.update(_extra_changes(more_keys(x), more_keys(y)))
-        if fields:
-            changed.append((name, fields))
-    return DefinitionChanges(tuple(n for n in eb if n not in ea), tuple(n for n in ea if n not in eb),
-                             tuple(changed))
-
-
-def _amount(a: Amount | None) -> dict | None:
-    if a is None:
-        return None
-    key = {"fraction": "fraction", "mass": "mass_kg", "volume": "volume_m3"}.get(a.kind, a.kind)
-    return {key: float(a.value)}
-
-
-def _loadout_definitions(a: Ledger, b: Ledger) -> DefinitionChanges:
-    la: dict[str, Loadout] = {lo.name: lo for lo in a.loadouts}
-    lb: dict[str, Loadout] = {lo.name: lo for lo in b.loadouts}
-    changed = []
-    for name, x in la.items():
-        y = lb.get(name)
-        if y is None:
-            continue
-        fields: dict = {}
-        if x.base != y.base:
-            fields["base"] = (x.base, y.base)
-        same_set = x.set == y.set  # as written: the common case, decided at C speed
-        for item_id in [] if same_set else list(x.set) + [k for k in y.set if k not in x.set]:
-            u, v = _amount(x.set.get(item_id)), _amount(y.set.get(item_id))
-            if not _same(u, v):
-                fields[f"set.{item_id}"] = (u, v)
-        fields.update(_extra_changes(more_keys(x), more_keys(y)))
-        if fields:
-            changed.append((name, fields))
-    return DefinitionChanges(tuple(n for n in lb if n not in la), tuple(n for n in la if n not in lb),
-                             tuple(changed))
-
-
 def _envelope_changes(a: Carried, b: Carried) -> tuple[EnvelopeChange, ...]:
     ra = {r.name: r for r in envelope_results(a.ledger, a.mp)}
     rb = {r.name: r for r in envelope_results(b.ledger, b.mp)}
@@ -446,7 +354,7 @@ def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> 
         any_diff |= masks[name]
     extra_fields: dict[int, dict] = {}
     for k in np.flatnonzero(a.has_extra[ia] | b.has_extra[ib]).tolist():
-        ch = _extra_changes(a.extras[ia[k]], b.extras[ib[k]])
+        ch = item_extra_changes(a.extras[ia[k]], b.extras[ib[k]], a.ledger.units, b.ledger.units)
         if ch:
             extra_fields[k] = ch
             any_diff[k] = True
@@ -473,65 +381,12 @@ def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> 
     if loadouts is None:
         loadouts = (a.loadout is None and b.loadout is None and not a.is_snapshot and not b.is_snapshot)
     return LedgerDiff(a, b, added, removed, tuple(changed), ranked, _envelope_changes(a, b), frame,
-                      _envelope_definitions(a.ledger, b.ledger),
-                      _loadout_definitions(a.ledger, b.ledger) if loadouts else None)
+                      envelope_definitions(a.ledger, b.ledger),
+                      loadout_definitions(a.ledger, b.ledger) if loadouts else None,
+                      table_changes(a.ledger, b.ledger, loading=not (a.is_snapshot or b.is_snapshot)))
 
 
 def compare(a: Ledger, a_loadout: str | None, b: Ledger, b_loadout: str | None, *,
             loadouts: bool | None = None) -> LedgerDiff:
     """Diff of ledger `a` under `a_loadout` against `b` under `b_loadout` (None: load items empty)."""
     return compare_carried(carried(a, a_loadout), carried(b, b_loadout), loadouts=loadouts)
-
-
-# --------------------------------------------------------------------------- display helpers (pure)
-
-
-def _q(x: float | None, convert, unit: str) -> str:
-    return "—" if x is None else f"{fmt(convert(x))} {pretty_unit(unit)}"
-
-
-def _shape_text(s: dict | None, du: DisplayUnits) -> str:
-    if s is None:
-        return "—"
-    lu = pretty_unit(du.length)
-    parts = [s["kind"], f"axis {s['axis']}"]
-    for k, v in s.items():
-        if k not in ("kind", "axis"):
-            size = "×".join(fmt(du.l(x)) for x in v) if isinstance(v, list) else fmt(du.l(v))
-            parts.append(f"{k} {size} {lu}")
-    return ", ".join(parts)
-
-
-def _six_text(t: dict | None, du: DisplayUnits) -> str:
-    if t is None:
-        return "—"
-    return ", ".join(f"{k} {fmt(du.i(v))}" for k, v in t.items()) + f" {pretty_unit(du.inertia)}"
-
-
-def change_rows(name: str, old: object, new: object, du: DisplayUnits) -> list[tuple[str, str, str]]:
-    """One changed field as display rows (label, old text, new text), in display units.
-
-    A vector or table field gives one row per component that differs, so a
-    screen or a report shows "cg x  99.0000 in → 98.5000 in" rather than two lists.
-    """
-    mu, lu, iu = du.mass, du.length, du.inertia
-    if name in ("mass_kg", "capacity_kg"):
-        return [(name[:-3], _q(old, du.m, mu), _q(new, du.m, mu))]
-    if name == "cg_m":
-        return [(f"cg {ax}", _q(o, du.l, lu), _q(n, du.l, lu)) for ax, o, n in zip("xyz", old, new)
-                if not _same(o, n)]
-    if name == "inertia_kg_m2":
-        if old is None or new is None:
-            return [("inertia", _six_text(old, du), _six_text(new, du))]
-        return [(f"inertia {k}", _q(old[k], du.i, iu), _q(new[k], du.i, iu)) for k in COMPONENTS
-                if not _same(old[k], new[k])]
-    if name == "density_kg_m3":  # lb per US gallon beside pounds, else kg/m³
-        f, unit = (unit_factor("lb/gal", "density"), "lb/gal") if mu == "lb" else (1.0, "kg/m³")
-        return [("density", *("—" if v is None else f"{fmt(v / f)} {unit}" for v in (old, new)))]
-    if name == "shape":
-        return [("shape", _shape_text(old, du), _shape_text(new, du))]
-    if name == "rotate":
-        return [("rotate", *(" then ".join(f"{a} {d:g}°" for a, d in r) or "none" for r in (old, new)))]
-    if name == "variable":
-        return [("variable", *("load item" if v else "fixed" for v in (old, new)))]
-    return [(name, *("—" if v is None else v if isinstance(v, str) else repr(v) for v in (old, new)))]

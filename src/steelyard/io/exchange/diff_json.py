@@ -4,7 +4,9 @@ Keys from the issue's contract: added, removed, changed, a, b, delta,
 envelopes (a and b follow the `rollup --json` contract). Added keys: the
 sources, `identical`, `ranked` (every differing item by how far it alone
 moves the CG), `delta.principal_kg_m2`, per-envelope margins, and changes to
-the frame, the envelope definitions and (two whole ledgers) the loadouts.
+the frame, the envelope definitions and (two whole ledgers) the loadouts, and
+`definitions`: limits, allocations and sequences by name, [mac], [fuel],
+[growth], [weighing] and [user] as wholes, each field [old, new] in SI.
 """
 
 from __future__ import annotations
@@ -14,6 +16,7 @@ import math
 import numpy as np
 
 from steelyard.core.history.diff import DefinitionChanges, LedgerDiff
+from steelyard.core.history.diff_tables import NAMED, SINGLE, TableChange, TableChanges
 from steelyard.io.exchange.rollup_json import record_from
 
 
@@ -56,6 +59,20 @@ def _definitions(d: DefinitionChanges | None) -> dict | None:
             "changed": [{"name": n, "fields": _fields(f)} for n, f in d.changed]}
 
 
+def _table(t: TableChange | None) -> dict | None:
+    return None if t is None else {"status": t.status, "fields": _fields(t.fields)}
+
+
+def _tables(t: TableChanges) -> dict:
+    """Named definitions as {added, removed, changed}, single tables as null (same) or {status, fields}."""
+    out: dict = {k: _definitions(getattr(t, k)) for k in NAMED}
+    out.update({k: _table(getattr(t, k)) for k in SINGLE})
+    for k in t.not_compared:
+        out[k] = None
+    out["not_compared"] = list(t.not_compared)
+    return out
+
+
 def diff_record(diff: LedgerDiff, a_source: dict | None = None, b_source: dict | None = None) -> dict:
     a, b = diff.a, diff.b
     a_name = a.loadout if a.loadout is not None else a_source.get("loadout") if a_source else None
@@ -93,5 +110,6 @@ def diff_record(diff: LedgerDiff, a_source: dict | None = None, b_source: dict |
         "frame": {k: list(v) for k, v in diff.frame.items()},
         "envelope_definitions": _definitions(diff.envelope_definitions),
         "loadout_definitions": _definitions(diff.loadout_definitions),
+        "definitions": _tables(diff.tables),
     }
     return out

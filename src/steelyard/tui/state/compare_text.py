@@ -15,6 +15,7 @@ from rich.text import Text
 
 from steelyard.core.caution import CAUTION
 from steelyard.core.history.diff import ItemEffect, LedgerDiff, change_rows
+from steelyard.core.history.diff_text import definition_sections
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.rules import mac_reference
@@ -60,6 +61,8 @@ def heading(diff: LedgerDiff, a: Side, b: Side) -> Text:
     if diff.frame:
         moved = ", ".join(f"+{k} {o} → {n}" for k, (o, n) in diff.frame.items())
         t.append(f"\nThe body frames differ ({clean(moved)}): coordinates mean different directions.", style="bold")
+    if diff.tables or diff.loadout_definitions:
+        t.append("\nDefinitions differ too (limits, loadouts or other tables): see tab 3.", style="bold")
     return t
 
 
@@ -128,7 +131,20 @@ def envelopes_text(diff: LedgerDiff, du: DisplayUnits) -> Text:
                  f"removed {', '.join(map(clean, d.removed))}" if d.removed else "",
                  f"changed {', '.join(clean(n) for n, _ in d.changed)}" if d.changed else ""]
         t.append("Envelope definitions differ: " + "; ".join(p for p in parts if p) + "\n", style="bold")
+    t.append(definitions_text(diff, du))
     t.append("\n" + CAUTION, style="italic")
+    return t
+
+
+def definitions_text(diff: LedgerDiff, du: DisplayUnits) -> Text:
+    """Envelopes, loadouts, limits, allocations, [mac] and the other definitions that differ, old → new by field."""
+    t = Text()
+    for title, lines in definition_sections(diff, du):
+        if title == "Envelope definitions" and not diff.envelope_definitions.changed:
+            continue  # names added or removed are in the summary line above
+        t.append("\n" + title + "\n", style="bold")
+        for line in lines:
+            t.append(clean(line) + "\n")
     return t
 
 
