@@ -122,7 +122,7 @@ def _shift(c: _Ctx) -> tuple[dict, list[str]]:
                     [c.head(), f"Already inside envelope {env.name!r}: nothing to move."])
         target = float(st.lo[0] if c.cg < st.lo[0] else st.hi[0])
         why = f"the nearer limit of envelope {env.name!r}"
-    moved = weight_shift(c.mass, c.cg, target, a, b)
+    moved = weight_shift(c.mass, c.cg, target, a, b, units=c.ledger.units)
     rec = {"mode": "shift", "mass_kg": c.mass, "cg_m": c.cg, "axis": c.axis, "from_m": a, "to_m": b,
            "target_cg_m": target, "moved_kg": moved}
     return rec, [c.head(), f"Move {c.m(moved)} from {c.l(a)} to {c.l(b)}: the CG goes to {c.l(target, True)}, {why} "
@@ -134,7 +134,7 @@ def _add(c: _Ctx) -> tuple[dict, list[str]]:
     if not c.mass + w > 0:  # worded here, in the file's units and as typed (the solver's message is in kg)
         raise SteelyardError(f"{said(c.args.mass)} removes {c.m(-w)}, and the loadout has {c.m(c.mass)}: "
                              "no mass would be left", field="--mass")
-    new_mass, new_cg = add_mass(c.mass, c.cg, w, s)
+    new_mass, new_cg = add_mass(c.mass, c.cg, w, s, units=c.ledger.units)
     _finite(new_mass=new_mass, new_cg=new_cg)
     rec = {"mode": "add", "mass_kg": c.mass, "cg_m": c.cg, "axis": c.axis, "added_kg": w, "station_m": s,
            "new_mass_kg": new_mass, "new_cg_m": new_cg, "envelopes": []}
@@ -162,7 +162,7 @@ def _ballast(c: _Ctx) -> tuple[dict, list[str]]:
     lines = [c.head()]
     if c.args.limit is not None:
         lim = c.length(c.args.limit, "--limit")
-        b = ballast_for_limit(c.mass, c.cg, lim, s)
+        b = ballast_for_limit(c.mass, c.cg, lim, s, units=c.ledger.units)
         answers = [(f"onto the limit {c.l(lim, True)}", b)]
         rec["limit_m"] = lim
     else:
@@ -170,11 +170,12 @@ def _ballast(c: _Ctx) -> tuple[dict, list[str]]:
         if not envs:
             raise SteelyardError(f"no envelope on the {c.axis} axis applies to this loadout; give --limit",
                                  field="--envelope")
-        answers = [(f"inside envelope {e.name!r}", ballast_to_enter(geometry(e.points, e.name), c.mass, c.cg, s))
+        answers = [(f"inside envelope {e.name!r}", ballast_to_enter(geometry(e.points, e.name), c.mass, c.cg, s,
+                                                                        units=c.ledger.units))
                    for e in envs]
     room = _room(c, row)
     for what, b in answers:
-        new_mass, new_cg = add_mass(c.mass, c.cg, b, s)
+        new_mass, new_cg = add_mass(c.mass, c.cg, b, s, units=c.ledger.units)
         rec["answers"].append({"goal": what, "ballast_kg": b, "new_mass_kg": new_mass, "new_cg_m": new_cg})
         text = f"Ballast {c.m(b)} at {c.l(s)} brings the CG {what}: mass {c.m(new_mass)}, CG {c.l(new_cg, True)}."
         if b == 0:
@@ -210,7 +211,8 @@ def _payload(c: _Ctx) -> tuple[dict, list[str]]:
                 skipped.append(env.name)
                 continue
             x = float(pos[k]) if pos is not None else s
-            cap = payload_remaining([geometry(env.points, env.name)], None, mp.mass, float(mp.cg[k]), x)
+            cap = payload_remaining([geometry(env.points, env.name)], None, mp.mass, float(mp.cg[k]), x,
+                                    units=c.ledger.units)
             caps.append((f"envelope {env.name!r}{label}", cap))
         for spec in limit_specs(c.ledger):
             if spec.kind == "mass" and np.isfinite(spec.hi[0]) and applies(spec.applies_to, tags):

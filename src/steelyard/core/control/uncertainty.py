@@ -22,9 +22,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from steelyard.core.errors import SteelyardError, item_subject
+from steelyard.core.errors import SteelyardError, item_subject, said
 from steelyard.core.document.model import Ledger
-from steelyard.core.units import to_si
+from steelyard.core.units import parse_number, to_si
 
 KINDS = ("sigma", "bound")
 SQRT3 = math.sqrt(3.0)
@@ -38,15 +38,13 @@ def _non_negative(value: object, dimension: str, unit: str, subject: str, field:
                   unit_mass: float = 0.0) -> float:
     try:
         if isinstance(value, str) and value.strip().endswith("%") and dimension == "mass":
-            out = float(value.strip()[:-1]) / 100.0 * unit_mass
+            out = parse_number(value.strip()[:-1]) / 100.0 * unit_mass
         else:
             out = to_si(value, dimension, unit)
-    except ValueError:
-        raise SteelyardError(f"cannot read {value!r} as a percentage", subject=subject, field=field)
     except SteelyardError as exc:
         raise exc.located(subject=subject, field=field)
     if not out >= 0.0 or not math.isfinite(out):
-        raise SteelyardError(f"tolerance must be a finite value >= 0, got {value!r}",
+        raise SteelyardError(f"tolerance must be a finite value >= 0, got {said(value)}",
                              subject=subject, field=field)
     return out
 
@@ -67,11 +65,11 @@ def _kind(tol: object, subject: str) -> str:
                              subject=subject, field="tolerance")
     kind = tol.get("kind")
     if kind not in KINDS:
-        raise SteelyardError(f"tolerance kind must be \"sigma\" or \"bound\", got {kind!r}",
+        raise SteelyardError(f"tolerance kind must be \"sigma\" or \"bound\", got {said(kind)}",
                              subject=subject, field="tolerance.kind")
     unknown = set(tol) - {"mass", "cg", "kind"}
     if unknown:
-        raise SteelyardError(f"unknown key {sorted(unknown)[0]!r} (use mass, cg, kind)",
+        raise SteelyardError(f"unknown key {said(sorted(map(str, unknown))[0])} (use mass, cg, kind)",
                              subject=subject, field="tolerance")
     return kind
 
@@ -120,7 +118,8 @@ def _columns(m, cg):
     if not total > 0.0:
         raise SteelyardError("total mass must be > 0 to have a CG", subject="uncertainty")
     ref = cg[int(np.argmax(m))]
-    centre = ref + (m @ (cg - ref)) / total
+    with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+        centre = ref + (m @ (cg - ref)) / total
     return m, cg, total, centre
 
 
@@ -134,8 +133,22 @@ class Spread:
 
 
 def _partials(m, cg, total, centre):
-    """d cg / d m_i (n, 3) and d cg_k / d r_ik (n,)."""
-    return (cg - centre) / total, m / total
+    """d cg / d m_i (n, 3) and d cg_k / d r_ik (n,).
+
+    A total mass near the smallest float (a denormal such as 5e-324 kg) makes
+    d cg / d m overflow: the CG of next to nothing moves without bound when a
+    mass changes. That is computed quietly and reported as not available
+    (`_available`), never as a warning on the terminal.
+    """
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore", under="ignore"):
+        return (cg - centre) / total, m / total
+
+
+def _available(values: np.ndarray) -> np.ndarray:
+    """Spread values with anything a float cannot hold (inf, NaN) as NaN: not available."""
+    out = np.array(values, dtype=float)
+    out[~np.isfinite(out)] = np.nan
+    return out
 
 
 def propagate(m, cg, mass_sigma, cg_sigma) -> Spread:
@@ -149,9 +162,11 @@ def propagate(m, cg, mass_sigma, cg_sigma) -> Spread:
     dcg_dm, dcg_dr = _partials(m, cg, total, centre)
     # Jacobian of [M, x, y, z] w.r.t. masses: rows [1, dcg/dm_i]
     jm = np.concatenate([np.ones((len(m), 1)), dcg_dm], axis=1)  # (n, 4)
-    cov = (jm * (sm ** 2)[:, None]).T @ jm
-    cov[1:, 1:] += np.diag(((dcg_dr[:, None] * sr) ** 2).sum(axis=0))
-    sd = np.sqrt(np.diag(cov))
+    with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+        cov = (jm * (sm ** 2)[:, None]).T @ jm
+        cov[1:, 1:] += np.diag(((dcg_dr[:, None] * sr) ** 2).sum(axis=0))
+        cov = _available(cov)
+        sd = _available(np.sqrt(np.diag(cov)))
     return Spread(float(sd[0]), sd[1:], cov)
 
 
@@ -161,8 +176,10 @@ def worst_case(m, cg, mass_bound, cg_bound) -> Spread:
     bm = np.asarray(mass_bound, dtype=float).reshape(-1)
     br = np.asarray(cg_bound, dtype=float).reshape(-1, 3)
     dcg_dm, dcg_dr = _partials(m, cg, total, centre)
-    cg_bound_total = np.abs(dcg_dm).T @ bm + dcg_dr @ br
-    return Spread(float(bm.sum()), cg_bound_total)
+    with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+        cg_bound_total = _available(np.abs(dcg_dm).T @ bm + dcg_dr @ br)
+        mass_bound = float(_available(bm.sum()))
+    return Spread(mass_bound, cg_bound_total)
 
 
 def _uniform_mask(kind, n: int) -> np.ndarray:
@@ -208,9 +225,10 @@ def monte_carlo(m, cg, mass_sigma, cg_sigma, samples: int = 20000, seed: int = 0
     rows = np.flatnonzero((sm > 0) | (sr > 0).any(axis=1))
     mass_rows = rows[sm[rows] > 0]
     cg_cols = np.flatnonzero((sr[rows] > 0).reshape(-1))  # flat (row-in-`rows`, axis)
-    offset = cg[rows] - centre  # (u, 3)
-    # Nominal moment about the centre of all rows (round-off size; kept for exactness).
-    base_moment = m @ (cg - centre)
+    with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+        offset = cg[rows] - centre  # (u, 3)
+        # Nominal moment about the centre of all rows (round-off size; kept for exactness).
+        base_moment = m @ (cg - centre)
     streams = [np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(4)]
 
     mass_out = np.empty(samples)
@@ -231,9 +249,11 @@ def monte_carlo(m, cg, mass_sigma, cg_sigma, samples: int = 20000, seed: int = 0
             z = _draw(streams[2], streams[3], (c, len(cg_cols)), uniform[col_rows])
             dr[:, cg_cols] = z * col_sigma
         dr = dr.reshape(c, len(rows), 3)
-        mass_s = total + dm.sum(axis=1)
-        moment = base_moment + dm @ offset + np.einsum("cu,cuk->ck", m[rows] + dm, dr)
-        with np.errstate(divide="ignore", invalid="ignore"):
+        # Extreme inputs (a 1e300 kg tolerance, a denormal total) may overflow: such a
+        # sample's CG is inf or NaN, counted as outside, never a warning.
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
+            mass_s = total + dm.sum(axis=1)
+            moment = base_moment + dm @ offset + np.einsum("cu,cuk->ck", m[rows] + dm, dr)
             cg_s = centre + moment / np.where(mass_s > 0, mass_s, np.nan)[:, None]
         mass_out[start:start + c] = mass_s
         cg_out[start:start + c] = cg_s

@@ -20,11 +20,10 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import pint
 
-from steelyard.core.errors import SteelyardError, UnitError, item_subject
+from steelyard.core.errors import SteelyardError, UnitError, item_subject, said
 from steelyard.core.document.model import FileUnits, Item, Ledger
-from steelyard.core.units import DIMENSIONS, registry, to_si
+from steelyard.core.units import DIMENSIONS, from_si, parse_quantity, to_si
 
 #: standard gravity, m/s^2 (NIST SP 811, exact): turns a force reading into mass
 G_N = 9.80665
@@ -66,14 +65,25 @@ class WeighingInputs:
     replaces: str | None = None
     vertical_cg: float | None = None
     vertical_axis: int = 2
+    #: the file's mass unit: messages name masses in it, as the user wrote them
+    mass_unit: str = "kg"
 
     def reduce(self) -> WeighingResult:
         return reduce_weighing(self.support_xyz, self.readings, self.tares,
                                self.on_board, self.missing, names=self.names,
-                               vertical_cg=self.vertical_cg, vertical_axis=self.vertical_axis)
+                               vertical_cg=self.vertical_cg, vertical_axis=self.vertical_axis,
+                               mass_unit=self.mass_unit)
 
 
-def _pairs(entries, what: str) -> tuple[np.ndarray, np.ndarray]:
+def _shown(mass_si: object, unit: str) -> str:
+    """An SI mass as a plain number in `unit` for a message ("-225 lb"), never a numpy repr."""
+    try:
+        return f"{from_si(float(mass_si), 'mass', unit):.10g} {unit}"
+    except (TypeError, ValueError, OverflowError, SteelyardError):
+        return said(mass_si)
+
+
+def _pairs(entries, what: str, unit: str = "kg") -> tuple[np.ndarray, np.ndarray]:
     """(mass (j,), at (j, 3)) from Adjustments or (mass, (x, y, z)) pairs."""
     masses, places = [], []
     for k, e in enumerate(entries):
@@ -90,8 +100,12 @@ def _pairs(entries, what: str) -> tuple[np.ndarray, np.ndarray]:
         if at.shape != (3,) or not np.isfinite(at).all():
             raise SteelyardError("position must be 3 finite numbers",
                                  subject=f"weighing {what} {label}", field="at")
-        if not (math.isfinite(mass) and mass >= 0):
-            raise SteelyardError(f"mass must be >= 0, got {mass!r}",
+        try:
+            good = math.isfinite(mass) and mass >= 0
+        except TypeError:
+            good = False
+        if not good:
+            raise SteelyardError(f"must be a finite number >= 0, got {_shown(mass, unit)}",
                                  subject=f"weighing {what} {label}", field="mass")
         masses.append(float(mass))
         places.append(at)
@@ -100,10 +114,11 @@ def _pairs(entries, what: str) -> tuple[np.ndarray, np.ndarray]:
 
 def reduce_weighing(support_xyz, readings, tares, on_board=(), missing=(), *,
                     names: Sequence[str] | None = None, vertical_cg: float | None = None,
-                    vertical_axis: int = 2) -> WeighingResult:
+                    vertical_axis: int = 2, mass_unit: str = "kg") -> WeighingResult:
     """Net loads, weighed mass and CG, and empty mass and CG (all SI).
 
-    on_board / missing: (mass, (x, y, z)) pairs or `Adjustment`s.
+    on_board / missing: (mass, (x, y, z)) pairs or `Adjustment`s. `mass_unit`
+    only says in which unit a message names a mass (the file's).
     """
     xyz = np.asarray(support_xyz, dtype=float)
     readings = np.asarray(readings, dtype=float).reshape(-1)
@@ -114,19 +129,22 @@ def reduce_weighing(support_xyz, readings, tares, on_board=(), missing=(), *,
                              f"got {xyz.shape}, {readings.shape}, {tares.shape}", subject="weighing")
     labels = list(names) if names is not None else [f"#{i + 1}" for i in range(k)]
     for i in range(k):  # k is a handful of jacks or scales
-        subject = f"weighing point {labels[i]!r}"
+        subject = f"weighing point {said(labels[i])}"
         if not np.isfinite(xyz[i]).all():
             raise SteelyardError("position must be finite", subject=subject, field="at")
         if not (math.isfinite(readings[i]) and readings[i] >= 0):
-            raise SteelyardError(f"reading must be >= 0, got {readings[i]!r}", subject=subject, field="reading")
+            raise SteelyardError(f"must be a finite number >= 0, got {_shown(readings[i], mass_unit)}",
+                                 subject=subject, field="reading")
         if not (math.isfinite(tares[i]) and tares[i] >= 0):
-            raise SteelyardError(f"tare must be >= 0, got {tares[i]!r}", subject=subject, field="tare")
+            raise SteelyardError(f"must be a finite number >= 0, got {_shown(tares[i], mass_unit)}",
+                                 subject=subject, field="tare")
     net = readings - tares
     bad = np.flatnonzero(net < 0)
     if bad.size:
         i = int(bad[0])
-        raise SteelyardError("tare exceeds the reading (negative net load)",
-                             subject=f"weighing point {labels[i]!r}", field="tare")
+        raise SteelyardError(f"tare exceeds the reading ({_shown(tares[i], mass_unit)} > "
+                             f"{_shown(readings[i], mass_unit)}: negative net load)",
+                             subject=f"weighing point {said(labels[i])}", field="tare")
     weighed = float(net.sum())
     if not weighed > 0:
         raise SteelyardError("the net readings add up to zero", subject="weighing", field="reading")
@@ -139,11 +157,11 @@ def reduce_weighing(support_xyz, readings, tares, on_board=(), missing=(), *,
     else:
         weighed_off[vertical_axis] = float(vertical_cg) - ref[vertical_axis]
 
-    off_m, off_r = _pairs(on_board, "on_board")
-    add_m, add_r = _pairs(missing, "missing")
+    off_m, off_r = _pairs(on_board, "on_board", mass_unit)
+    add_m, add_r = _pairs(missing, "missing", mass_unit)
     empty = weighed - off_m.sum() + add_m.sum()
     if not empty > 0:
-        raise SteelyardError(f"taking off the on-board items leaves {empty:g} kg",
+        raise SteelyardError(f"taking off the on-board items leaves {_shown(empty, mass_unit)}",
                              subject="weighing", field="on_board")
     moment = weighed * weighed_off - off_m @ (off_r - ref) + add_m @ (add_r - ref)
     return WeighingResult(net=net, weighed_mass=weighed, weighed_cg=ref + weighed_off,
@@ -155,25 +173,37 @@ def reduce_weighing(support_xyz, readings, tares, on_board=(), missing=(), *,
 def _si(value: object, dimension: str, unit: str | None, subject: str, field: str) -> float:
     try:
         if unit is None and not isinstance(value, str):
-            raise UnitError(f"write the unit, e.g. \"{value} {DIMENSIONS[dimension][1]}\"")
+            example = (f"e.g. \"{value} {DIMENSIONS[dimension][1]}\"" if type(value) in (int, float)
+                       else f"got {said(value)}")
+            raise UnitError(f"write the value with its unit, {example}")
         return to_si(value, dimension, unit or DIMENSIONS[dimension][1])
     except SteelyardError as exc:
         raise exc.located(subject=subject, field=field)
 
 
+def _at_least_zero(si: float, value: object, subject: str, field: str) -> float:
+    """A mass-like value must not be negative; the message quotes it as written."""
+    if not si >= 0:
+        raise SteelyardError(f"must be >= 0, got {said(value)}", subject=subject, field=field)
+    return si
+
+
 def _load(value: object, unit: str, subject: str, field: str) -> float:
-    """A scale reading as mass; a force ("2890 N", "650 lbf") is divided by g_n."""
+    """A scale reading as mass; a force ("2890 N", "650 lbf") is divided by g_n.
+
+    Read as strictly as any other value (one number, one unit, a decimal point):
+    "41,5 lbf" is refused, never read as 415 lbf.
+    """
     try:
-        return to_si(value, "mass", unit)
+        si = to_si(value, "mass", unit)
     except UnitError as exc:
-        if isinstance(value, str):
-            try:
-                q = registry().parse_expression(value)
-            except Exception:
-                q = None
-            if isinstance(q, pint.Quantity) and q.dimensionality == registry().newton.dimensionality:
-                return float(q.to("newton").magnitude) / G_N
-        raise exc.located(subject=subject, field=field)
+        if not isinstance(value, str):
+            raise exc.located(subject=subject, field=field)
+        try:
+            si = parse_quantity(value, "force") / G_N
+        except UnitError:
+            raise exc.located(subject=subject, field=field) from None
+    return _at_least_zero(si, value, subject, field)
 
 
 def _xyz(value: object, unit: str, subject: str, field: str = "at") -> tuple[float, float, float]:
@@ -199,23 +229,26 @@ def _adjustment(entry: object, what: str, k: int, units: FileUnits, ledger: Ledg
     item_id = entry.get("item")
     if item_id is not None:
         if ledger is None or not isinstance(item_id, str) or item_id not in ledger.index:
-            raise SteelyardError(f"no ledger item {item_id!r}", subject=f"weighing {what} #{k + 1}",
+            raise SteelyardError(f"no ledger item {said(item_id)}", subject=f"weighing {what} #{k + 1}",
                                  field="item")
         item = ledger.item(item_id)
     name = entry.get("name", item.label if item else None)
     if not isinstance(name, str) or not name:
         raise SteelyardError("needs a name (or item = id)", subject=f"weighing {what} #{k + 1}",
                              field="name")
-    subject = f"weighing {what} {name!r}"
+    subject = f"weighing {what} {said(name)}"
     _strict(entry, _ADJUST_KEYS, subject)
     if "mass" in entry and "volume" in entry:
         raise SteelyardError("give mass or volume, not both", subject=subject, field="volume")
     if "mass" in entry:
-        mass = _si(entry["mass"], "mass", units.mass, subject, "mass")
+        mass = _at_least_zero(_si(entry["mass"], "mass", units.mass, subject, "mass"),
+                              entry["mass"], subject, "mass")
     elif "volume" in entry:
-        volume = _si(entry["volume"], "volume", units.volume, subject, "volume")
-        if "density" in entry:
-            density = _si(entry["density"], "density", units.density, subject, "density")
+        volume = _at_least_zero(_si(entry["volume"], "volume", units.volume, subject, "volume"),
+                                entry["volume"], subject, "volume")
+        if "density" in entry:  # a negative density times a negative volume must not pass as a mass
+            density = _at_least_zero(_si(entry["density"], "density", units.density, subject, "density"),
+                                     entry["density"], subject, "density")
         elif item is not None and item.density is not None:
             density = item.density
         else:
@@ -267,7 +300,7 @@ def parse_weighing(table: Mapping, units: FileUnits, ledger: Ledger | None = Non
         if not isinstance(p, Mapping):
             raise SteelyardError("must be a table", subject=f"weighing point #{k + 1}")
         name = p.get("name", f"#{k + 1}")
-        subject = f"weighing point {name!r}"
+        subject = f"weighing point {said(name)}"
         if not isinstance(name, str) or not name or name in names:
             raise SteelyardError("needs a unique name", subject=subject, field="name")
         _strict(p, _POINT_KEYS, subject)
@@ -284,16 +317,16 @@ def parse_weighing(table: Mapping, units: FileUnits, ledger: Ledger | None = Non
     replaces = table.get("replaces")
     if replaces is not None:
         if not isinstance(replaces, str) or (ledger is not None and replaces not in ledger.index):
-            raise SteelyardError(f"no ledger item {replaces!r} to replace", subject="weighing", field="replaces")
+            raise SteelyardError(f"no ledger item {said(replaces)} to replace", subject="weighing", field="replaces")
         if ledger is not None and ledger.item(replaces).variable:
-            raise SteelyardError(f"{replaces!r} is a load item; the empty vehicle is not variable",
+            raise SteelyardError(f"{said(replaces)} is a load item; the empty vehicle is not variable",
                                  subject="weighing", field="replaces")
     vertical = table.get("vertical_cg")
     if vertical is not None:
         vertical = _si(vertical, "length", units.length, "weighing", "vertical_cg")
     return WeighingInputs(tuple(names), np.asarray(xyz, dtype=float).reshape(-1, 3),
                           np.asarray(readings), np.asarray(tares), on_board, missing,
-                          replaces, vertical, _vertical_axis(ledger))
+                          replaces, vertical, _vertical_axis(ledger), units.mass)
 
 
 def replaced_item(ledger: Ledger, inputs: WeighingInputs, result: WeighingResult) -> Item:
@@ -304,7 +337,7 @@ def replaced_item(ledger: Ledger, inputs: WeighingInputs, result: WeighingResult
     explicit `growth` is dropped, since a weighed mass carries none.
     """
     if inputs.replaces is None or inputs.replaces not in ledger.index:
-        raise SteelyardError(f"no ledger item {inputs.replaces!r} to replace",
+        raise SteelyardError(f"no ledger item {said(inputs.replaces)} to replace",
                              subject="weighing", field="replaces")
     old = ledger.item(inputs.replaces)
     cg = tuple(float(old.cg[a]) if math.isnan(result.empty_cg[a]) else float(result.empty_cg[a])

@@ -14,18 +14,20 @@ import re
 
 import numpy as np
 
-from steelyard.core.errors import SteelyardError, UnitError
+from steelyard.core.errors import SteelyardError, UnitError, said
 from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, tensor_from_six
 from steelyard.core.loading.loadout import amount_fraction
 from steelyard.core.document.model import FileUnits, Item, Ledger, Shape
 from steelyard.core.physics.shapes import SHAPE_PARAMS, validate_shape
-from steelyard.core.units import parse_quantity, unit_factor
+from steelyard.core.units import NUMBER, number_problem, parse_number, parse_quantity, to_si, unit_factor
 from steelyard.io.ledger.toml_write import number
 
 NO_SHAPE = "point mass"
 GIVEN_INERTIA = "inertia typed in"
 AXES = ("x", "y", "z")
-_SINGLE = re.compile(r"^\s*[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?\s*([A-Za-z_][A-Za-z_0-9*/^ ()]*)\s*$")
+_SINGLE = re.compile(rf"^\s*{NUMBER}\s*([A-Za-z_][A-Za-z_0-9*/^ ()]*)\s*$")  # ASCII digits only
+#: a quantity: ASCII digits only ("١٢".isdigit() is true too), at most a billion units
+_WHOLE = re.compile(r"[0-9]{1,9}")
 
 
 def density_unit(u: FileUnits) -> str:
@@ -85,24 +87,22 @@ def quantity(text: str, dim: str, file_unit: str, field: str) -> tuple[float, st
     s = text.strip()
     if not s:
         raise SteelyardError(f"required: a {dim}", field=field)
+    # Strictly, as the file reader does (core.units): float() would take "1_5" as 15 and
+    # other scripts' digits ("١٢") as 12. Text without a letter is meant as a bare number.
     try:
-        value = float(s)
-    except ValueError:
+        if number_problem(s) is None or not any(ch.isalpha() for ch in s):
+            return to_si(parse_number(s), dim, file_unit), None
+        value = parse_quantity(s, dim)
+    except UnitError as exc:
+        raise SteelyardError(exc.message, field=field) from None
+    m = _SINGLE.match(s)
+    given = m.group(1).strip() if m else None
+    if given:
         try:
-            value = parse_quantity(s, dim)
-        except UnitError as exc:
-            raise SteelyardError(exc.message, field=field) from None
-        m = _SINGLE.match(s)
-        given = m.group(1).strip() if m else None
-        if given:
-            try:
-                unit_factor(given, dim)
-            except UnitError:
-                given = None
-        return value, given
-    if not math.isfinite(value):
-        raise SteelyardError(f"must be a finite number, got {s!r}", field=field)
-    return value * unit_factor(file_unit, dim), None
+            unit_factor(given, dim)
+        except UnitError:
+            given = None
+    return value, given
 
 
 def _rotate(text: str) -> tuple[tuple[str, float], ...]:
@@ -110,12 +110,13 @@ def _rotate(text: str) -> tuple[tuple[str, float], ...]:
     for part in filter(None, (p.strip() for p in re.split(r"[,;]", text))):
         bits = part.split()
         try:
-            axis, deg = bits[0], float(bits[1])
+            axis, deg = bits[0], parse_number(bits[1])
             ok = len(bits) == 2 and axis in AXES and math.isfinite(deg)
-        except (IndexError, ValueError):
+        except (IndexError, UnitError):
             ok = False
         if not ok:
-            raise SteelyardError(f"each turn is 'axis degrees', e.g. 'z 10, x -5'; got {part!r}", field="rotate")
+            raise SteelyardError(f"each turn is 'axis degrees', e.g. 'z 10, x -5'; got {said(part)}",
+                                 field="rotate")
         out.append((axis, deg))
     return tuple(out)
 
@@ -148,13 +149,14 @@ def item_from_fields(fields: dict[str, str], original: Item | None, ledger: Ledg
     if not ident:
         raise SteelyardError("required: a short unique id", field="id")
     if ident in ledger.index and (o is None or ident != o.id):
-        raise SteelyardError(f"id {ident!r} is already used by another item", field="id")
+        raise SteelyardError(f"id {said(ident)} is already used by another item", field="id")
     mass = r.q("mass", "mass", u.mass, "mass", o.mass if o else None)
     if mass < 0:
         raise SteelyardError("must not be negative", field="mass")
     qtext = fields.get("quantity", "1").strip() or "1"
-    if not qtext.isdigit() or int(qtext) < 1:
-        raise SteelyardError(f"must be a whole number of 1 or more, got {qtext!r}", field="quantity")
+    if not _WHOLE.fullmatch(qtext) or int(qtext) < 1:
+        raise SteelyardError(f"must be a whole number of 1 or more in ASCII digits, got {said(qtext)}",
+                             field="quantity")
     cg = tuple(r.q(a, "length", u.length, f"cg.{k}", o.cg[k] if o else None) for k, a in enumerate(AXES))
     variable = fields.get("variable", "").strip().lower() in ("yes", "true", "1", "on")
     density = None
@@ -191,7 +193,7 @@ def item_from_fields(fields: dict[str, str], original: Item | None, ledger: Ledg
 
 def _shape(kind: str, fields: dict[str, str], u: FileUnits, o: Item | None) -> Shape:
     if kind not in SHAPE_PARAMS:
-        raise SteelyardError(f"unknown shape {kind!r}", field="kind")
+        raise SteelyardError(f"unknown shape {said(kind)}", field="kind")
     axis = fields.get("axis", "z").strip() or "z"
     if axis not in AXES:
         raise SteelyardError("must be x, y or z", field="axis")
