@@ -228,7 +228,7 @@ def ledgers(draw, max_items: int = 6):
                 else:
                     it["density"], density = d, F(d) * dens_factor
         if extras == 5:
-            it["part_number"] = draw(SMALL_TEXT)  # an unknown key: kept as is
+            it["user"] = {"part_number": draw(SMALL_TEXT)}  # the user's own data: kept as is
         items.append(it)
         expect.append({"mass": mass, "cg": cg, "quantity": q, "variable": variable, "density": density})
     doc["item"] = items
@@ -271,7 +271,7 @@ def ledgers(draw, max_items: int = 6):
         doc["envelope"] = [{"name": "normal", "axis": draw(AXIS),
                             "points": [[c0, m0], [c0, m0 + dm], [c0 + dc, m0 + dm], [c0 + dc, m0]]}]
     if draw(FEW) == 0:
-        doc["notes"] = {"author": draw(SMALL_TEXT), "rev": draw(st.integers(0, 99))}
+        doc["user"] = {"author": draw(SMALL_TEXT), "rev": draw(st.integers(0, 99))}
     return doc, {"items": expect, "fills": fills, "names": names}
 
 
