@@ -107,7 +107,7 @@ def _other(r: CsvTable, k: int, cell: str) -> dict:
     except (tomllib.TOMLDecodeError, RecursionError, ValueError):
         table = None
     if not isinstance(table, dict):
-        raise r.fail(k, "other", "must be a TOML inline table, e.g. { part = \"A-12\", rev = 3 }")
+        raise r.fail(k, "other", "must be a TOML inline table, e.g. { removable = true, user = { part = \"A-12\" } }")
     clash = sorted(set(table) & (ITEM_KEYS | set(CONTROL_KEYS)))
     if clash:
         raise r.fail(k, "other", f"key {clash[0]!r} has its own column or is a ledger key")

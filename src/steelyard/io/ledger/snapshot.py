@@ -4,8 +4,9 @@ A snapshot is a v1 ledger (any reader, `steelyard rollup` included, takes it)
 in SI units whose items are the configuration as carried: each load item is
 written as a fixed item with the mass the loadout put on board (own inertia
 tables scaled by the same fill), keeps its id, and records its full amount
-under `loaded = { capacity_kg, fill }`. Loadouts are dropped (there is
-nothing left to load); frame, envelopes and unknown tables are kept.
+under `loaded = { capacity_kg, fill }`. Loadouts, sequences and [fuel] are
+dropped (there is nothing left to load); frame, envelopes, limits and every
+other table are kept with their meaning (see `as_carried`).
 
 A `[snapshot]` table at the end records when, by whom, from what, the
 totals and envelope status, and `content_sha256`: the SHA-256 of the
