@@ -1,10 +1,21 @@
-"""Shared by headless commands: open a ledger with progress, pick a loadout."""
+"""Shared by headless commands: open a ledger with progress, pick a loadout, name the file in errors.
+
+Most commands start the same way: load FILE, check that --loadout names one
+of its loadouts, compute something from the ledger, and have any error from
+that computation name FILE. `prepare` does exactly that, once for all.
+"""
 
 from __future__ import annotations
 
+from contextlib import contextmanager
+from typing import Callable, Iterator, TypeVar
+
+from steelyard.core.document.model import Ledger
 from steelyard.core.errors import SteelyardError
 from steelyard.io.ledger.file import LoadedLedger, open_ledger
 from steelyard.cli.progress import LoadProgress
+
+T = TypeVar("T")
 
 
 def load_for_cli(path: str) -> LoadedLedger:
@@ -20,3 +31,21 @@ def check_loadout(loaded: LoadedLedger, name: str | None) -> None:
         known = ", ".join(repr(n) for n in names) or "none"
         raise SteelyardError(f"no loadout named {name!r} (loadouts: {known})", file=loaded.path,
                              field="--loadout")
+
+
+@contextmanager
+def located(loaded: LoadedLedger) -> Iterator[None]:
+    """A SteelyardError raised inside names the ledger's file (when it names none yet)."""
+    try:
+        yield
+    except SteelyardError as exc:
+        raise exc.located(file=loaded.path)
+
+
+def prepare(path: str, loadout: str | None,
+            compute: Callable[[Ledger, str | None], T]) -> tuple[LoadedLedger, T]:
+    """Load `path`, check `loadout`, and return (loaded, compute(ledger, loadout)) with errors located."""
+    loaded = load_for_cli(path)
+    check_loadout(loaded, loadout)
+    with located(loaded):
+        return loaded, compute(loaded.ledger, loadout)

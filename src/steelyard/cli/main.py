@@ -4,13 +4,19 @@ With no sub-command it opens the full-screen editor (or, headless, the
 demo's roll-up). Sub-commands are the modules `steelyard.cli.commands.cmd_*`, each
 with NAME, HELP, add_arguments(parser) and run(args) -> exit code. Headless
 commands never import Textual.
+
+Errors: a SteelyardError is one line and exit 2. So is any OSError that
+escapes a command (a full disk, a file-size limit, an unwritable folder):
+exit 1 means "a limit is broken" to CI, never "could not write".
 """
 
 from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import pkgutil
+import signal
 import sys
 
 from steelyard import __version__
@@ -47,8 +53,36 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _os_error(exc: OSError) -> str:
+    """One line for an OSError that escaped a command: `FILE: <reason>`, never a traceback."""
+    reason = exc.strerror or str(exc) or type(exc).__name__
+    if exc.filename is None:  # most likely stdout itself (a full disk under a redirection)
+        _drop_stdout()
+        return f"steelyard: {SteelyardError(reason)}"
+    return f"steelyard: {SteelyardError(reason, file=os.fsdecode(exc.filename))}"
+
+
+def _drop_stdout() -> None:
+    """Point stdout at /dev/null, so Python does not fail again flushing it at exit."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError, AttributeError):
+        pass
+
+
+def _ignore_file_size_signal() -> None:
+    """Over a file-size limit (ulimit -f) write() then fails with EFBIG and is reported, not a core dump."""
+    try:
+        signal.signal(signal.SIGXFSZ, signal.SIG_IGN)
+    except (AttributeError, ValueError):  # not POSIX, or not the main thread
+        pass
+
+
 def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else argv
+    _ignore_file_size_signal()
     try:
         if not argv or (len(argv) == 1 and not argv[0].startswith("-") and argv[0] not in _names()):
             from steelyard.cli.open_default import run_default
@@ -59,7 +93,7 @@ def main(argv: list[str] | None = None) -> int:
         if getattr(args, "run", None) is None:
             parser.print_help()
             return EXIT_INPUT
-        return int(args.run(args))
+        code = int(args.run(args))
     except SteelyardError as exc:
         print(f"steelyard: {exc}", file=sys.stderr)
         return EXIT_INPUT
@@ -67,6 +101,18 @@ def main(argv: list[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return EXIT_OK
+    except OSError as exc:
+        print(_os_error(exc), file=sys.stderr)
+        return EXIT_INPUT
+    try:
+        sys.stdout.flush()  # a full disk under stdout shows here, not as a traceback at exit
+    except BrokenPipeError:
+        return code
+    except OSError as exc:
+        _drop_stdout()
+        print(f"steelyard: <stdout>: cannot write: {exc.strerror or exc}", file=sys.stderr)
+        return EXIT_INPUT
+    return code
 
 
 def _names() -> set[str]:

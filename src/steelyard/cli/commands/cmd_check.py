@@ -30,16 +30,10 @@ def add_arguments(p) -> None:
 def run(args) -> int:
     from steelyard.core.limits.checks import check_ledger
     from steelyard.core.display import DisplayUnits
-    from steelyard.core.errors import SteelyardError
-    from steelyard.cli.loading import check_loadout, load_for_cli
+    from steelyard.cli.loading import prepare
     from steelyard.cli.render.check import check_record, print_check
 
-    loaded = load_for_cli(args.file)
-    check_loadout(loaded, args.loadout)
-    try:
-        report = check_ledger(loaded.ledger, args.loadout)
-    except SteelyardError as exc:
-        raise exc.located(file=loaded.path)
+    loaded, report = prepare(args.file, args.loadout, check_ledger)
     if args.json:
         json.dump(check_record(report, loaded.path), sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")

@@ -26,14 +26,14 @@ def add_arguments(p) -> None:
     p.add_argument("--seed", type=int, default=0, help="Monte Carlo seed (default 0)")
 
 
-def _write(out: str, text: str, *, bom: bool = False) -> None:
-    from steelyard.io.durability.atomic import write_atomic
+def _write(out: str, text: str, source: str, *, bom: bool = False) -> None:
+    from steelyard.io.durability.atomic import write_output
 
     if out == "-":
         sys.stdout.write(text)
         return
     data = ("\ufeff" if bom else "").encode("utf-8") + text.encode("utf-8")
-    write_atomic(out, data)
+    write_output(out, data, inputs=(source,))
 
 
 def _for_terminal(csv_text: str) -> str:
@@ -45,7 +45,8 @@ def _for_terminal(csv_text: str) -> str:
 
 def run(args) -> int:
     from steelyard.core.errors import SteelyardError
-    from steelyard.cli.loading import load_for_cli
+    from steelyard.io.durability.atomic import check_output, same_file
+    from steelyard.cli.loading import load_for_cli, located
 
     if not args.csv and not args.json:
         raise SteelyardError("say what to write: --csv OUT and/or --json OUT", field="--csv")
@@ -53,11 +54,13 @@ def run(args) -> int:
         raise SteelyardError("--csv and --json need different files", field="--json")
     if args.samples < 0:
         raise SteelyardError("must be >= 0", field="--samples")
-    loaded = load_for_cli(args.file)
     for out in (args.csv, args.json):
-        if out and out != "-" and os.path.realpath(out) == os.path.realpath(loaded.path):
+        if out and out != "-" and os.path.exists(args.file) and same_file(out, args.file):
             raise SteelyardError("would overwrite the ledger itself", file=out)
-    try:
+        if out and out != "-":
+            check_output(out, inputs=(args.file,))  # a symlink, a directory, a read-only file: before the work
+    loaded = load_for_cli(args.file)
+    with located(loaded):
         texts = []
         if args.csv:
             from steelyard.io.exchange.csv_io import ledger_to_csv
@@ -71,10 +74,8 @@ def run(args) -> int:
 
             texts.append((args.json, export_json(loaded.ledger, source=loaded.path, samples=args.samples,
                                                  seed=args.seed)))
-    except SteelyardError as exc:
-        raise exc.located(file=loaded.path)
     for out, text in texts:  # everything built before anything is written
-        _write(out, text)
+        _write(out, text, loaded.path)
         if out != "-":
             print(f"wrote {out}", file=sys.stderr)
     return 0

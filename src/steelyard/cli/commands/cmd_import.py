@@ -21,7 +21,7 @@ def add_arguments(p) -> None:
     p.add_argument("--decimal-comma", action="store_true", help="cells use a decimal comma ('1,5')")
     p.add_argument("--force", action="store_true",
                    help="replace an existing LEDGER, or rewrite EXISTING in place although its comments "
-                        "will be lost")
+                        "will be lost; also replaces a ledger that has no write permission")
     p.add_argument("--author", help="name for the change log when merging (default: $STEELYARD_AUTHOR or login)")
 
 
@@ -37,36 +37,36 @@ def _log(ledger, new, imp, source: str, author: str):
 
 def run(args) -> int:
     from steelyard.core.errors import SteelyardError
-    from steelyard.io.durability.atomic import write_atomic
+    from steelyard.io.durability.atomic import same_file
     from steelyard.io.exchange.csv_io import check_ledger, read_csv_file
-    from steelyard.io.ledger.file import CommentsWouldBeLost, save_ledger
+    from steelyard.io.ledger.file import CommentsWouldBeLost, rewriting
     from steelyard.cli.commands.cmd_weigh import _author
     from steelyard.cli.loading import load_for_cli
 
-    loaded = load_for_cli(args.into) if args.into else None
     target = args.output
-    in_place = loaded is not None and os.path.realpath(target) == os.path.realpath(loaded.path)
-    if not in_place and os.path.exists(target) and not args.force:
+    in_place = args.into is not None and os.path.exists(args.into) and same_file(target, args.into)
+    if not in_place and os.path.lexists(target) and not args.force:
         raise SteelyardError("already exists; pass --force to replace it (or --into it to merge)", file=target,
                              field="--output")
-    imp = read_csv_file(args.csv, decimal_comma=args.decimal_comma, into=loaded.ledger if loaded else None,
-                        check=False)
-    ledger = imp.ledger
-    logged = False
-    if loaded is not None and (imp.added or imp.replaced):
-        try:
-            ledger, logged = _log(loaded.ledger, ledger, imp, args.csv, _author(args))
-        except SteelyardError as exc:
-            raise exc.located(file=args.csv)
-    text = check_ledger(ledger, args.csv)  # everything read back before anything is written
-    if not in_place:
-        write_atomic(target, text.encode("utf-8"))
-    else:
-        try:
-            save_ledger(target, ledger, loaded=loaded, allow_comment_loss=args.force)
-        except CommentsWouldBeLost:
-            raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o, or pass "
-                                 "--force", file=target) from None
+    with rewriting(target, source=args.into, force=args.force) as out:  # the editor's lock, held to the end
+        loaded = load_for_cli(args.into) if args.into else None
+        if loaded is not None:
+            try:
+                out.replaces(loaded, allow_comment_loss=args.force)
+            except CommentsWouldBeLost:
+                raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o, or "
+                                     "pass --force", file=target) from None
+        imp = read_csv_file(args.csv, decimal_comma=args.decimal_comma, into=loaded.ledger if loaded else None,
+                            check=False)
+        ledger = imp.ledger
+        logged = False
+        if loaded is not None and (imp.added or imp.replaced):
+            try:
+                ledger, logged = _log(loaded.ledger, ledger, imp, args.csv, _author(args))
+            except SteelyardError as exc:
+                raise exc.located(file=args.csv)
+        text = check_ledger(ledger, args.csv)  # everything read back before anything is written
+        out.write(text)
     done = f"imported {len(imp.added) + len(imp.replaced) + len(imp.unchanged)} items from {args.csv} into {target}"
     if loaded is not None:
         done += (f" ({len(imp.replaced)} changed, {len(imp.added)} added, {len(imp.unchanged)} unchanged"

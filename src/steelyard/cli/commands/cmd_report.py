@@ -90,7 +90,7 @@ def _loadouts(args, loaded) -> list:
 
 def run(args) -> int:
     from steelyard.core.errors import SteelyardError
-    from steelyard.io.durability.atomic import write_atomic
+    from steelyard.io.durability.atomic import check_output, write_output
     from steelyard.io.report.build import build_report, parse_time
     from steelyard.cli.loading import load_for_cli
 
@@ -98,6 +98,7 @@ def run(args) -> int:
     if args.samples < 0:
         raise SteelyardError("must be >= 0", field="--samples")
     since = parse_time(args.since) if args.since else None
+    check_output(args.output, inputs=(args.file,))  # before the slow part; again below with the chart files
     loaded = load_for_cli(args.file)
     report = build_report(loaded.ledger, source=loaded.path, loadouts=_loadouts(args, loaded),
                           system=args.units, since=since, samples=args.samples, seed=args.seed)
@@ -115,7 +116,9 @@ def run(args) -> int:
         images = {c.envelope: f"{stem}-chart-{k + 1}.svg" for k, c in enumerate(report.charts)}
         files += [(os.path.join(folder, images[name]), svg) for name, svg in svgs.items()]
         files.append((args.output, render_markdown(report, images)))
+    for path, _ in files:  # every output (charts too) is checked before any is written
+        check_output(path, inputs=(loaded.path,))
     for path, text in files:  # all built before any is written
-        write_atomic(path, text.encode("utf-8"))
+        write_output(path, text.encode("utf-8"), inputs=(loaded.path,))
     print(f"wrote {', '.join(p for p, _ in files)}", file=sys.stderr)
     return 0

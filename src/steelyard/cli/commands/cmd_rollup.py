@@ -17,17 +17,11 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
-    from steelyard.core.errors import SteelyardError
     from steelyard.core.loading.loadout import resolve
     from steelyard.core.physics.rollup import rollup_state
-    from steelyard.cli.loading import check_loadout, load_for_cli
+    from steelyard.cli.loading import prepare
 
-    loaded = load_for_cli(args.file)
-    check_loadout(loaded, args.loadout)
-    try:
-        state = resolve(loaded.ledger, args.loadout)
-    except SteelyardError as exc:
-        raise exc.located(file=loaded.path)
+    loaded, state = prepare(args.file, args.loadout, resolve)
     mp = rollup_state(state)
     if args.json:
         from steelyard.io.exchange.rollup_json import record_from

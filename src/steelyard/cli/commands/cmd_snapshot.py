@@ -53,36 +53,44 @@ def _verify(args) -> int:
     return 0
 
 
-def run(args) -> int:
-    from steelyard.core.errors import SteelyardError
-    from steelyard.io.durability.atomic import write_atomic
+def _text(args):
+    """(loaded, snapshot text) of FILE under --loadout; an altered snapshot is never re-issued."""
     from steelyard.io.ledger.snapshot import snapshot_info, snapshot_text, verify_snapshot
-    from steelyard.cli.loading import check_loadout, load_for_cli
+    from steelyard.cli.loading import check_loadout, load_for_cli, located
 
-    if args.verify:
-        return _verify(args)
-    out = args.output
-    if out is not None:
-        if os.path.exists(out) and os.path.realpath(out) == os.path.realpath(args.file):
-            raise SteelyardError("is the source ledger; write the snapshot to another file", file=out,
-                                 field="--output")
-        if os.path.isdir(out):
-            raise SteelyardError("is a directory, not a file", file=out, field="--output")
-        if os.path.exists(out) and not args.force:
-            raise SteelyardError("exists; --force overwrites it", file=out, field="--output")
     loaded = load_for_cli(args.file)
     if snapshot_info(loaded.ledger, file=loaded.path) is not None:
         verify_snapshot(loaded.ledger, file=loaded.path)  # never re-issue an altered snapshot
     check_loadout(loaded, args.loadout)
-    try:
-        text = snapshot_text(loaded.ledger, args.loadout, source=loaded.path, author=_author(),
-                             source_sha256=loaded.sha256)
-    except SteelyardError as exc:
-        raise exc.located(file=loaded.path)
+    with located(loaded):
+        return loaded, snapshot_text(loaded.ledger, args.loadout, source=loaded.path, author=_author(),
+                                     source_sha256=loaded.sha256)
+
+
+def run(args) -> int:
+    from steelyard.core.errors import SteelyardError
+    from steelyard.io.durability.atomic import same_file
+    from steelyard.io.ledger.file import rewriting
+
+    if args.verify:
+        return _verify(args)
+    out = args.output
     if out is None:
+        _, text = _text(args)
         sys.stdout.write(text)
         return 0
-    write_atomic(out, text.encode("utf-8"))
+    if os.path.exists(out) and os.path.exists(args.file) and same_file(out, args.file):
+        raise SteelyardError("is the source ledger; write the snapshot to another file", file=out,
+                             field="--output")
+    if os.path.isdir(out):
+        raise SteelyardError("is a directory, not a file", file=out, field="--output")
+    if os.path.lexists(out) and not args.force:
+        raise SteelyardError("exists; --force overwrites it", file=out, field="--output")
+    # a snapshot is a ledger: written like every other ledger a command writes (no symlink, the editor's
+    # lock, no unsaved journal edits, the file unchanged since the lock was taken)
+    with rewriting(out, source=args.file, force=args.force) as w:
+        loaded, text = _text(args)
+        w.write(text)
     what = f"loadout {args.loadout!r}" if args.loadout else "no loadout (variable items empty)"
     from steelyard.cli.render.diff import safe
 

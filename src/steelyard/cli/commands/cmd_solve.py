@@ -72,16 +72,10 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
-    from steelyard.core.errors import SteelyardError
-    from steelyard.cli.loading import check_loadout, load_for_cli
+    from steelyard.cli.loading import prepare
     from steelyard.cli.commands.solve_modes import solve
 
-    loaded = load_for_cli(args.file)
-    check_loadout(loaded, args.loadout)
-    try:
-        record, lines = solve(loaded.ledger, args)
-    except SteelyardError as exc:
-        raise exc.located(file=loaded.path)
+    loaded, (record, lines) = prepare(args.file, args.loadout, lambda ledger, _loadout: solve(ledger, args))
     if args.json:
         json.dump(record, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")

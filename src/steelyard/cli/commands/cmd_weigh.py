@@ -22,8 +22,8 @@ def add_arguments(p) -> None:
     p.add_argument("--apply", action="store_true", help="write the ledger with the weighed empty item")
     p.add_argument("-o", "--output", metavar="OUT", help="with --apply: write to OUT instead of FILE")
     p.add_argument("--force", action="store_true",
-                   help="with --apply: rewrite FILE even though its comments will be lost, or replace an "
-                        "existing OUT")
+                   help="with --apply: rewrite FILE even though its comments will be lost or it has no write "
+                        "permission, or replace an existing OUT")
     p.add_argument("--author", help="name for the change log (default: $STEELYARD_AUTHOR or the login name)")
     p.add_argument("--units", choices=("si", "us"), help="display units (default: the file's own)")
 
@@ -52,41 +52,59 @@ def _with_log(ledger, new, item_id: str, summary: str, author: str):
     return changes.ledger_with_log(history.ledger, history.log), True
 
 
-def _apply(args, loaded, w) -> dict:
-    from steelyard.core.errors import SteelyardError
-    from steelyard.io.ledger.file import CommentsWouldBeLost, save_ledger
+def _apply(args, loaded, w, out) -> dict:
+    """Write the ledger with the weighed item through `out` (a LedgerRewrite, its lock held)."""
+    from steelyard.io.ledger.write import ledger_to_toml
+    from steelyard.cli.loading import located
     from steelyard.io.report.weighing import weighed_ledger, weighing_summary
 
     ledger = loaded.ledger
-    try:
+    with located(loaded):
         new = weighed_ledger(ledger, w)
         new, logged = _with_log(ledger, new, w.replaces, weighing_summary(ledger, w), _author(args))
-    except SteelyardError as exc:
-        raise exc.located(file=loaded.path)
-    target = args.output or loaded.path
-    in_place = os.path.realpath(target) == os.path.realpath(loaded.path)
-    if not in_place and os.path.exists(target) and not args.force:
-        raise SteelyardError("already exists; pass --force to replace it", file=target, field="--output")
-    try:
-        save_ledger(target, new, loaded=loaded, allow_comment_loss=args.force)
-    except CommentsWouldBeLost:
-        raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o OUT, or "
-                             "pass --force to rewrite it anyway", file=target) from None
-    return {"file": target, "item": w.replaces, "change_logged": logged,
-            "comments_dropped": bool(in_place and loaded.had_comments)}
+    out.write(ledger_to_toml(new))
+    return {"file": out.target, "item": w.replaces, "change_logged": logged,
+            "comments_dropped": bool(out.in_place and loaded.had_comments)}
+
+
+def _load(args, out):
+    """Load FILE and reduce its weighing; with `out`, FILE is what the write replaces."""
+    from steelyard.core.errors import SteelyardError
+    from steelyard.io.ledger.file import CommentsWouldBeLost
+    from steelyard.io.report.weighing import weigh_ledger
+    from steelyard.cli.loading import load_for_cli
+
+    loaded = load_for_cli(args.file)
+    w = weigh_ledger(loaded.ledger, source=loaded.path)
+    if out is not None:
+        try:
+            out.replaces(loaded, allow_comment_loss=args.force)
+        except CommentsWouldBeLost:
+            raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o OUT, or "
+                                 "pass --force to rewrite it anyway", file=out.target) from None
+    return loaded, w
 
 
 def run(args) -> int:
     from steelyard.core.errors import SteelyardError
-    from steelyard.io.report.weighing import weigh_ledger, weighing_record
-    from steelyard.cli.loading import load_for_cli
+    from steelyard.io.durability.atomic import same_file
+    from steelyard.io.ledger.file import rewriting
+    from steelyard.io.report.weighing import weighing_record
 
     if args.output and not args.apply:
         raise SteelyardError("-o/--output only goes with --apply", field="--output")
-    loaded = load_for_cli(args.file)
-    w = weigh_ledger(loaded.ledger, source=loaded.path)
-    record = weighing_record(w)
-    applied = _apply(args, loaded, w) if args.apply else None
+    if not args.apply:
+        loaded, w = _load(args, None)
+        record, applied = weighing_record(w), None
+    else:
+        target = args.output or args.file
+        in_place = os.path.exists(args.file) and same_file(target, args.file)
+        if not in_place and os.path.lexists(target) and not args.force:
+            raise SteelyardError("already exists; pass --force to replace it", file=target, field="--output")
+        with rewriting(target, source=args.file, force=args.force) as out:  # the editor's lock, held to the end
+            loaded, w = _load(args, out)
+            record = weighing_record(w)
+            applied = _apply(args, loaded, w, out)
     if args.json:
         record = {**record, "applied": applied}
         json.dump(record, sys.stdout, indent=2, allow_nan=False)

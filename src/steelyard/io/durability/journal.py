@@ -14,16 +14,25 @@ and a CRC-32 of the line, so a line torn by a kill or a power cut is
 recognised and everything from it on is ignored. A record holds the whole new
 item (SI values) or a delete, a loadout change, ...; `replay` applies records
 to a ledger. See docs/durability.md for how the editor uses this module.
+
+The journal's name is predictable, so anything may have been planted there.
+It is never opened through a symlink (O_NOFOLLOW), a new one is created with
+O_EXCL, and an existing one is used only if it is a regular file with no
+other name (checked with lstat, then fstat on what was opened, O_NONBLOCK so
+a FIFO cannot hang the editor). Anything else is refused with a one-line
+SteelyardError, and left untouched.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
+import errno
 import getpass
 import json
 import os
 import re
 import socket
+import stat
 import zlib
 from dataclasses import dataclass
 from pathlib import Path
@@ -57,6 +66,55 @@ def journal_path(ledger_path: str | os.PathLike) -> Path:
     """`.<name>.steelyard-journal` beside the real file (symlinks resolved, like the lock)."""
     real = Path(os.path.realpath(ledger_path))
     return real.with_name(f".{real.name}{SUFFIX}")
+
+
+_KINDS = {stat.S_IFLNK: "a symbolic link", stat.S_IFIFO: "a FIFO", stat.S_IFCHR: "a device",
+          stat.S_IFBLK: "a device", stat.S_IFDIR: "a directory", stat.S_IFSOCK: "a socket"}
+_NOFOLLOW = os.O_NOFOLLOW | os.O_NONBLOCK | getattr(os, "O_NOCTTY", 0)
+
+
+def _refused(path: Path, st: os.stat_result) -> SteelyardError | None:
+    """Why the file at the journal's name is not one to use, or None if it is."""
+    if not stat.S_ISREG(st.st_mode):
+        kind = _KINDS.get(stat.S_IFMT(st.st_mode), "not a regular file")
+        return SteelyardError(f"is {kind}, not a steelyard journal; refusing it (remove it if no steelyard is "
+                              "editing the ledger)", file=str(path))
+    if st.st_nlink > 1:
+        return SteelyardError("has other names (hard links), so it is not a steelyard journal; refusing it "
+                              "(remove it if no steelyard is editing the ledger)", file=str(path))
+    return None
+
+
+def _open_existing(path: Path, flags: int) -> int | None:
+    """An fd on the existing regular journal at `path` (never through a link), or None if there is none."""
+    try:
+        st = os.lstat(path)
+    except FileNotFoundError:
+        return None
+    except OSError as exc:
+        raise SteelyardError(f"cannot open the journal ({exc.strerror})", file=str(path)) from None
+    why = _refused(path, st)
+    if why is not None:
+        raise why
+    try:
+        fd = os.open(path, flags | _NOFOLLOW)
+    except FileNotFoundError:
+        return None
+    except OSError as exc:
+        if exc.errno == errno.ELOOP:
+            raise SteelyardError("is a symbolic link, not a steelyard journal; refusing it (remove it if no "
+                                 "steelyard is editing the ledger)", file=str(path)) from None
+        raise SteelyardError(f"cannot open the journal ({exc.strerror})", file=str(path)) from None
+    why = _refused(path, os.fstat(fd))
+    if why is not None:
+        os.close(fd)
+        raise why
+    return fd
+
+
+def _read_all(fd: int) -> bytes:
+    size = os.fstat(fd).st_size
+    return os.pread(fd, size, 0) if size else b""
 
 
 # --------------------------------------------------------------- line format
@@ -151,7 +209,7 @@ def _held_elsewhere(path: Path) -> bool:
     if fcntl is None:
         return False
     try:
-        fd = os.open(path, os.O_RDONLY)
+        fd = os.open(path, os.O_RDONLY | _NOFOLLOW)
     except OSError:
         return False
     try:
@@ -202,12 +260,15 @@ class JournalState:
 def pending(ledger_path: str | os.PathLike, *, current_sha256: str | None = None) -> JournalState | None:
     """The unsaved edits journaled for this ledger, or None when there are none. Reads only."""
     jpath = journal_path(ledger_path)
-    try:
-        data = jpath.read_bytes()
-    except FileNotFoundError:
+    fd = _open_existing(jpath, os.O_RDONLY)
+    if fd is None:
         return None
+    try:
+        data = _read_all(fd)
     except OSError as exc:
         raise SteelyardError(f"cannot read the journal ({exc.strerror})", file=str(jpath)) from None
+    finally:
+        os.close(fd)
     scan = _scan(data)
     base, records = _unsaved(scan)
     if not records:
@@ -231,12 +292,9 @@ def discard(ledger_path: str | os.PathLike) -> bool:
     Refuses with `JournalInUse` while a live `Journal` writes it: close that one instead.
     """
     jpath = journal_path(ledger_path)
-    try:
-        fd = os.open(jpath, os.O_RDONLY)
-    except FileNotFoundError:
+    fd = _open_existing(jpath, os.O_RDONLY)
+    if fd is None:
         return False
-    except OSError as exc:
-        raise SteelyardError(f"cannot open the journal ({exc.strerror})", file=str(jpath)) from None
     try:
         if fcntl is not None:
             try:
@@ -280,8 +338,12 @@ class Journal:
             mode = os.stat(os.path.realpath(ledger_path)).st_mode & 0o666
         except OSError:
             mode = 0o666
-        try:
-            fd = os.open(jpath, os.O_RDWR | os.O_CREAT, mode)
+        try:  # a new journal: O_EXCL, so nothing planted at the name is ever opened
+            fd = os.open(jpath, os.O_RDWR | os.O_CREAT | os.O_EXCL | _NOFOLLOW, mode)
+        except FileExistsError:
+            fd = _open_existing(jpath, os.O_RDWR)
+            if fd is None:  # removed meanwhile: one more try at creating it
+                fd = cls._create(jpath, mode)
         except OSError as exc:
             raise SteelyardError(f"cannot create the journal of unsaved edits ({exc.strerror})",
                                  file=str(jpath)) from None
@@ -291,8 +353,7 @@ class Journal:
                     fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
                 except OSError:
                     raise JournalInUse("another editor is writing this journal", file=str(jpath)) from None
-            size = os.fstat(fd).st_size
-            scan = _scan(os.pread(fd, size, 0)) if size else _scan(b"")
+            scan = _scan(_read_all(fd))
             base, records = _unsaved(scan)
             if records and not (resume and base == base_sha256):
                 why = ("they belong to another version of the file" if resume else "restore or discard them first")
@@ -308,6 +369,14 @@ class Journal:
         except BaseException:
             os.close(fd)
             raise
+
+    @staticmethod
+    def _create(jpath: Path, mode: int) -> int:
+        try:
+            return os.open(jpath, os.O_RDWR | os.O_CREAT | os.O_EXCL | _NOFOLLOW, mode)
+        except OSError as exc:
+            raise SteelyardError(f"cannot create the journal of unsaved edits ({exc.strerror})",
+                                 file=str(jpath)) from None
 
     def _restart(self, base_sha256: str, user: str | None = None) -> None:
         """Empty the journal and write a fresh header for `base_sha256`."""

@@ -7,16 +7,26 @@ so the second session can say so and open read-only.
 
 It is advisory: only steelyard looks at it. A text editor, `git checkout` or
 a copy over the file ignore it; saving still refuses to overwrite a file that
-changed on disk (io.ledger_file). See docs/changes.md.
+changed on disk (io.ledger.file). The editor and every CLI command that
+rewrites a ledger take it.
+
+Anyone who can write the folder can plant something at the lock's name. A
+lock is read only if it is a regular file (checked with lstat, then opened
+with O_NOFOLLOW|O_NONBLOCK and checked again with fstat), and at most
+`MAX_LOCK_BYTES` of it: a symlink, a FIFO or a device there is refused
+(`LockRefused`), never followed, waited on or read without end. See
+docs/durability.md.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
+import errno
 import getpass
 import json
 import os
 import socket
+import stat
 import time
 import uuid
 from dataclasses import dataclass
@@ -25,6 +35,9 @@ from pathlib import Path
 from steelyard.core.errors import SteelyardError
 
 _READ_TRIES = 5  # a lock file read empty is being written right now: look again briefly
+MAX_LOCK_BYTES = 4096  # ours are about 200 bytes; anything longer is not a steelyard lock
+_KINDS = {stat.S_IFLNK: "a symbolic link", stat.S_IFIFO: "a FIFO", stat.S_IFCHR: "a device",
+          stat.S_IFBLK: "a device", stat.S_IFDIR: "a directory", stat.S_IFSOCK: "a socket"}
 
 
 @dataclass(frozen=True)
@@ -48,7 +61,56 @@ class Locked(SteelyardError):
 
 
 class LockUnavailable(SteelyardError):
-    """No lock can be made here (a read-only folder): the ledger can only be opened read-only."""
+    """No lock can be made here (a read-only folder): the ledger can only be opened read-only.
+
+    `strerror` is the system's reason when the lock file could not be created or written.
+    """
+
+    def __init__(self, message: str, *, file: str | None = None, strerror: str | None = None) -> None:
+        super().__init__(message, file=file)
+        self.strerror = strerror
+
+
+class LockRefused(LockUnavailable):
+    """Something that is not a lock file (a symlink, a FIFO, a device) sits at the lock's name."""
+
+
+def _refuse(path: Path, kind: str) -> LockRefused:
+    return LockRefused(f"is {kind}, not a steelyard lock file; refusing it (remove it if no steelyard is "
+                       "using the ledger)", file=str(path))
+
+
+def _read_lock_bytes(path: Path) -> bytes | None:
+    """At most MAX_LOCK_BYTES + 1 bytes of a regular lock file; None if there is none; LockRefused otherwise."""
+    try:
+        st = os.lstat(path)
+    except FileNotFoundError:
+        return None
+    except OSError as exc:
+        raise LockUnavailable(f"cannot read the lock file ({exc.strerror})", file=str(path)) from None
+    if not stat.S_ISREG(st.st_mode):
+        raise _refuse(path, _KINDS.get(stat.S_IFMT(st.st_mode), "not a regular file"))
+    try:
+        fd = os.open(path, os.O_RDONLY | os.O_NOFOLLOW | os.O_NONBLOCK | getattr(os, "O_NOCTTY", 0))
+    except FileNotFoundError:
+        return None
+    except OSError as exc:
+        if exc.errno == errno.ELOOP:  # replaced by a symlink since the lstat
+            raise _refuse(path, "a symbolic link") from None
+        raise LockUnavailable(f"cannot read the lock file ({exc.strerror})", file=str(path)) from None
+    try:
+        if not stat.S_ISREG(os.fstat(fd).st_mode):
+            raise _refuse(path, "not a regular file")
+        chunks, size = [], 0
+        while size <= MAX_LOCK_BYTES:
+            chunk = os.read(fd, MAX_LOCK_BYTES + 1 - size)
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+        return b"".join(chunks)
+    finally:
+        os.close(fd)
 
 
 def who_am_i() -> str:
@@ -74,6 +136,8 @@ def _now() -> str:
 
 
 def _parse(data: bytes) -> LockInfo | None:
+    if len(data) > MAX_LOCK_BYTES:
+        return None
     try:
         raw = json.loads(data.decode("utf-8"))
         pid = raw["pid"]
@@ -86,7 +150,7 @@ def _parse(data: bytes) -> LockInfo | None:
 
 def _unreadable(path: Path) -> LockInfo:
     try:
-        since = _dt.datetime.fromtimestamp(path.stat().st_mtime, _dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+        since = _dt.datetime.fromtimestamp(os.lstat(path).st_mtime, _dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     except OSError:
         since = "unknown"
     return LockInfo("unknown", "unknown", 0, since)
@@ -96,10 +160,10 @@ def _read(path: Path) -> tuple[bytes, LockInfo] | None:
     """The lock's bytes and what they say; None if there is no lock file."""
     data = b""
     for attempt in range(_READ_TRIES):
-        try:
-            data = path.read_bytes()
-        except FileNotFoundError:
+        got = _read_lock_bytes(path)
+        if got is None:
             return None
+        data = got
         info = _parse(data)
         if info is not None:
             return data, info
@@ -163,20 +227,23 @@ class Lock:
         self._content = content
         self.released = False
 
+    def _ours(self) -> bool:
+        try:
+            return _read_lock_bytes(self.path) == self._content
+        except SteelyardError:  # replaced by something that is not ours
+            return False
+
     @property
     def held(self) -> bool:
         """Whether the lock file on disk is still ours (someone may have taken it over)."""
-        try:
-            return not self.released and self.path.read_bytes() == self._content
-        except OSError:
-            return False
+        return not self.released and self._ours()
 
     def release(self) -> None:
         if self.released:
             return
         self.released = True
         try:
-            if self.path.read_bytes() == self._content:
+            if self._ours():
                 self.path.unlink()
         except FileNotFoundError:
             pass
@@ -199,7 +266,7 @@ def acquire(ledger_path: str | os.PathLike) -> Lock:
                            "since": info.since, "token": uuid.uuid4().hex}, indent=1) + "\n").encode()
     for _ in range(20):  # a lock released between our try and our look: try again, a bounded number of times
         try:
-            fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o644)
+            fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_NOFOLLOW, 0o644)
         except FileExistsError:
             got = _read(path)
             if got is None:
@@ -207,7 +274,7 @@ def acquire(ledger_path: str | os.PathLike) -> Lock:
             raise Locked(got[1], file=str(ledger_path)) from None
         except OSError as exc:
             raise LockUnavailable(f"cannot create the lock file {path.name} ({exc.strerror}); "
-                                  "open it read-only", file=str(ledger_path)) from None
+                                  "open it read-only", file=str(ledger_path), strerror=exc.strerror) from None
         try:
             os.write(fd, content)
             os.fsync(fd)
@@ -215,7 +282,7 @@ def acquire(ledger_path: str | os.PathLike) -> Lock:
             os.close(fd)
             path.unlink(missing_ok=True)
             raise LockUnavailable(f"cannot write the lock file {path.name} ({exc.strerror}); "
-                                  "open it read-only", file=str(ledger_path)) from None
+                                  "open it read-only", file=str(ledger_path), strerror=exc.strerror) from None
         os.close(fd)
         return Lock(ledger_path, path, info, content)
     raise Locked(_unreadable(path), file=str(ledger_path))
@@ -245,13 +312,16 @@ def take_over(ledger_path: str | os.PathLike, info: LockInfo, *, force: bool = F
     except FileNotFoundError:
         return acquire(ledger_path)
     try:
-        moved = aside.read_bytes()
+        try:
+            moved = _read_lock_bytes(aside)
+        except SteelyardError:  # something else was swapped in: put it back untouched
+            moved = None
         if moved != data:  # someone replaced it between our look and our move: put theirs back
             try:
                 os.link(aside, path)
             except OSError:
                 pass
-            info_now = _parse(moved) or _unreadable(aside)
+            info_now = (_parse(moved) if moved is not None else None) or _unreadable(aside)
             raise Locked(info_now, file=str(ledger_path))
     finally:
         try:

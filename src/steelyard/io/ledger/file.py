@@ -3,7 +3,9 @@
 `open_ledger` remembers what it read (hash, whether the text had comments)
 so that `save_ledger` can refuse to overwrite a file someone changed on disk,
 warn before dropping hand-written comments, and never write over a file
-that failed to load.
+that failed to load. `rewriting` is the one way a command (not the editor)
+writes a ledger: it holds the editor's lock while it works and checks the
+file's hash again just before the rename.
 """
 
 from __future__ import annotations
@@ -12,12 +14,19 @@ import hashlib
 import os
 import re
 import time
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Iterator
 
 from steelyard.core.errors import FormatError, SteelyardError
 from steelyard.core.document.model import Ledger
-from steelyard.io.durability.atomic import mark_failed, mark_loaded, write_atomic
+from steelyard.io.durability.atomic import (  # noqa: F401 - ChangedOnDisk re-exported for callers
+    ABSENT, ChangedOnDisk, check_output, file_sha256, mark_failed, mark_loaded, same_file, writable_check,
+    write_atomic,
+)
+from steelyard.io.durability import journal as _journal
+from steelyard.io.durability.lock import Lock, Locked, LockRefused, LockUnavailable, acquire, is_stale, take_over
 from steelyard.io.ledger.read import Progress, ledger_from_data
 from steelyard.io.ledger.write import ledger_to_toml
 from steelyard.io.ledger.toml_read import decode, parse_toml
@@ -44,10 +53,6 @@ class LoadedLedger:
 
 class CommentsWouldBeLost(SteelyardError):
     """Saving would replace a hand-edited file whose comments the writer cannot keep."""
-
-
-class ChangedOnDisk(SteelyardError):
-    """The file changed since it was read; saving would overwrite someone's work."""
 
 
 def read_bytes(path: str | os.PathLike) -> bytes:
@@ -110,12 +115,105 @@ def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger
     """
     target = str(path)
     same = loaded is not None and os.path.realpath(loaded.path) == os.path.realpath(target)
-    if same and not overwrite_changed and disk_changed(loaded):
-        raise ChangedOnDisk("changed on disk since it was opened; reload or save elsewhere", file=target)
+    expect = None
+    if same and not overwrite_changed:
+        now = file_sha256(os.path.realpath(target))
+        if now not in (loaded.sha256, ABSENT):  # a deleted file may be written again
+            raise ChangedOnDisk("changed on disk since it was opened; reload or save elsewhere", file=target)
+        expect = now  # checked again just before the rename: the text below takes a while on a big ledger
     if same and loaded.had_comments and not allow_comment_loss:
         raise CommentsWouldBeLost("saving rewrites the file in canonical form and drops its comments",
                                   file=target)
     text = ledger_to_toml(ledger)
     data = text.encode("utf-8")
-    write_atomic(target, data)
+    write_atomic(target, data, through_symlink=True, expect_sha256=expect)
     return LoadedLedger(ledger, target, hashlib.sha256(data).hexdigest(), False, time.time())
+
+
+# ------------------------------------------------------------ command writers
+class LedgerRewrite:
+    """A ledger file a command is writing, its lock held; from `rewriting`."""
+
+    def __init__(self, target: str, in_place: bool, expect: str) -> None:
+        self.target = target
+        self.in_place = in_place
+        self._expect = expect  # the target's hash when the lock was taken (ABSENT: no file)
+
+    def replaces(self, loaded: LoadedLedger, *, allow_comment_loss: bool = False) -> None:
+        """Say that what is written replaces `loaded`: call right after loading, before the slow work.
+
+        If `loaded` is the target itself, the write will go ahead only if the
+        file still has the bytes that were read, and a file with comments is
+        refused (`CommentsWouldBeLost`) unless `allow_comment_loss`.
+        """
+        if not (self.in_place and same_file(loaded.path, self.target)):
+            return
+        if loaded.had_comments and not allow_comment_loss:
+            raise CommentsWouldBeLost("rewriting it in canonical form would drop its comments", file=self.target)
+        self._expect = loaded.sha256
+
+    def write(self, text: str) -> str:
+        """Write `text` atomically; refuses (`ChangedOnDisk`) if the file changed since it was read."""
+        data = text.encode("utf-8")
+        try:
+            write_atomic(self.target, data, through_symlink=self.in_place, expect_sha256=self._expect)
+        except ChangedOnDisk:
+            raise ChangedOnDisk("changed on disk while this command ran (another program wrote it); nothing was "
+                                "written, run it again", file=self.target) from None
+        self._expect = hashlib.sha256(data).hexdigest()
+        return self._expect
+
+
+def _lock_for_command(target: str) -> Lock:
+    """The editor's lock on `target`, or a one-line refusal naming who holds it."""
+    try:
+        return acquire(target)
+    except Locked as exc:
+        info = exc.info
+        stale = is_stale(info)
+        if stale and _journal.pending(target) is None:  # a command or editor that died with nothing unsaved
+            try:
+                return take_over(target, info)
+            except Locked as again:
+                info, stale = again.info, False
+        why = ("that session ended without closing it and left unsaved edits; open the file in the editor to "
+               "restore or discard them" if stale else "try again once it is closed, or write elsewhere")
+        raise SteelyardError(f"is in use by another steelyard (locked by {info.describe()}); {why}; nothing was "
+                             "written", file=target) from None
+    except LockRefused:
+        raise
+    except LockUnavailable as exc:
+        if exc.strerror:
+            raise SteelyardError(f"cannot write: {exc.strerror}", file=target) from None
+        raise
+
+
+@contextmanager
+def rewriting(target: str | os.PathLike, *, source: str | os.PathLike | None = None,
+              force: bool = False) -> Iterator[LedgerRewrite]:
+    """Hold what a command needs to write the ledger `target` (the one helper every CLI writer uses).
+
+    `source` is the ledger the command reads (None: none); when it is the
+    target the file is rewritten in place, through a symlink if it is one.
+    Before anything slow: a read-only target is refused unless `force`; any
+    other target that is a symlink, a directory or the source is refused;
+    the editor's lock is taken (refused if someone holds it); unsaved edits
+    waiting in a journal are refused. The lock is released on leaving.
+    """
+    target = str(target)
+    in_place = source is not None and same_file(source, target)
+    if in_place:
+        writable_check(target, force=force, what="pass --force to rewrite it anyway")
+    else:
+        check_output(target, inputs=(source,), force=force, hint="pass --force to replace it anyway")
+    lock = _lock_for_command(target)
+    try:
+        state = _journal.pending(target)
+        if state is not None:
+            n = len(state.records)
+            raise SteelyardError(f"{n} unsaved edit{'s' if n != 1 else ''} of an editing session wait in its "
+                                 "journal; open it in the editor to restore or discard them first", file=target)
+        expect = file_sha256(os.path.realpath(target) if in_place else target)
+        yield LedgerRewrite(target, in_place, expect)
+    finally:
+        lock.release()
