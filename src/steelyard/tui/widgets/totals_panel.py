@@ -11,6 +11,7 @@ from rich.text import Text
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
+from steelyard.core.physics.inertia import radius_of_gyration
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.rules import MacRef
@@ -65,7 +66,7 @@ def totals_text(totals: Totals, ledger: Ledger, du: DisplayUnits, system: str | 
         moments, axes = mp.principal
         t.append(f"\nPrincipal moments [{iu}], axes (body), radius of gyration k [{lu}]\n", style="bold")
         for k in range(3):
-            rg = np.sqrt(max(moments[k], 0.0) / mp.mass)
+            rg = radius_of_gyration(max(float(moments[k]), 0.0), float(mp.mass))  # no overflow warning
             t.append(f"  I{k + 1} {fmt(du.i(moments[k])):>16}  axis ("
                      + ", ".join(f"{v:+.4f}" for v in axes[k]) + f")  k {fmt(du.l(rg))}\n")
     t.append("\nFrame: right-handed, origin at the datum; products of inertia are ∫xy dm about the CG.",
