@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 
 import numpy as np
 
@@ -454,24 +454,32 @@ def read_amount(value: object, source: str, subject: str, field: str) -> Amount:
                          subject=subject, field=field)
 
 
-def read_loadouts(raw: object, ledger_index: dict[str, int], variable: np.ndarray, source: str) -> tuple:
+def _named_tables(raw: object, table: str, source: str) -> Iterator[tuple[dict, str, str]]:
+    """Each `[[table]]` entry with its name and message subject, after the checks
+    every named array of tables shares: a list of tables, each with a unique,
+    non-empty name."""
     if raw is None:
-        return ()
+        return
     if type(raw) is not list:
-        raise SteelyardError("must be an array of tables [[loadout]]", file=source, subject="loadout")
-    out = []
+        raise SteelyardError(f"must be an array of tables [[{table}]]", file=source, subject=table)
     names: set[str] = set()
-    for k, lo in enumerate(raw):
-        if type(lo) is not dict:
-            raise SteelyardError("must be a table", file=source, subject=f"loadout #{k + 1}")
-        name = lo.get("name")
+    for k, entry in enumerate(raw):
+        if type(entry) is not dict:
+            raise SteelyardError("must be a table", file=source, subject=f"{table} #{k + 1}")
+        name = entry.get("name")
         if type(name) is not str or not name.strip():
-            raise SteelyardError("required: a non-empty string", file=source, subject=f"loadout #{k + 1}",
+            raise SteelyardError("required: a non-empty string", file=source, subject=f"{table} #{k + 1}",
                                  field="name")
-        subject = f"loadout {name!r}"
+        subject = f"{table} {name!r}"
         if name in names:
-            raise SteelyardError("duplicate loadout name", file=source, subject=subject, field="name")
+            raise SteelyardError(f"duplicate {table} name", file=source, subject=subject, field="name")
         names.add(name)
+        yield entry, name, subject
+
+
+def read_loadouts(raw: object, ledger_index: dict[str, int], variable: np.ndarray, source: str) -> tuple:
+    out = []
+    for lo, name, subject in _named_tables(raw, "loadout", source):
         base = lo.get("base")
         if base is not None and type(base) is not str:
             raise SteelyardError(f"must be a loadout name, got {base!r}", file=source, subject=subject, field="base")
@@ -494,25 +502,10 @@ def read_loadouts(raw: object, ledger_index: dict[str, int], variable: np.ndarra
 
 
 def read_envelopes(raw: object, units: FileUnits, source: str) -> tuple:
-    if raw is None:
-        return ()
-    if type(raw) is not list:
-        raise SteelyardError("must be an array of tables [[envelope]]", file=source, subject="envelope")
     out = []
-    names: set[str] = set()
     mass_f = unit_factor(units.mass, "mass")
     len_f = unit_factor(units.length, "length")
-    for k, env in enumerate(raw):
-        if type(env) is not dict:
-            raise SteelyardError("must be a table", file=source, subject=f"envelope #{k + 1}")
-        name = env.get("name")
-        if type(name) is not str or not name.strip():
-            raise SteelyardError("required: a non-empty string", file=source, subject=f"envelope #{k + 1}",
-                                 field="name")
-        subject = f"envelope {name!r}"
-        if name in names:
-            raise SteelyardError("duplicate envelope name", file=source, subject=subject, field="name")
-        names.add(name)
+    for env, name, subject in _named_tables(raw, "envelope", source):
         axis = env.get("axis")
         if axis not in ("x", "y", "z"):
             raise SteelyardError(f"must be x, y or z, got {axis!r}", file=source, subject=subject, field="axis")
