@@ -10,7 +10,7 @@ from rich.table import Table
 from rich.text import Text
 
 from steelyard.core.caution import CAUTION
-from steelyard.core.limits.checks import CheckReport, Finding
+from steelyard.core.limits.checks import AllocationCheck, CheckReport, Finding
 from steelyard.core.display import DisplayUnits, fmt, fmt_sig, pretty_unit, visible
 from steelyard.core.document.model import OPPOSITE, Frame
 
@@ -50,6 +50,11 @@ def _finding_record(f: Finding, report: CheckReport, path: bool) -> dict:
     return rec
 
 
+def _allocation_record(a: AllocationCheck) -> dict:
+    return {"group": a.group, "allocation_kg": _n(a.allocation), "predicted_kg": _n(a.predicted),
+            "margin_kg": _n(a.margin), "ok": a.ok, "basic_kg": _n(a.basic), "loadout": a.loadout}
+
+
 def check_record(report: CheckReport, path: str) -> dict:
     n, broken = report.counts
     mac = report.mac
@@ -70,6 +75,7 @@ def check_record(report: CheckReport, path: str) -> dict:
                         "first_state": st.first, "last_state": st.last} for st in q.steps],
              "findings": [_finding_record(f, report, True) for f in q.findings]}
             for q in report.sequences],
+        "allocations": [_allocation_record(a) for a in report.allocations],
         "caution": CAUTION,
     }
 
@@ -122,6 +128,17 @@ def _num_col(t: Table, head: str, left: bool = False) -> None:
     t.add_column(head, justify="left" if left else "right", no_wrap=True, min_width=len(head))
 
 
+def _add_rows(t: Table, *cells) -> None:
+    """One table row; a cell given as a tuple of lines continues on rows of its own below.
+
+    A line break inside a cell would reach the terminal as a control picture
+    (or break a column): every line gets its own row, other cells left blank.
+    """
+    lines = [c if isinstance(c, tuple) else (c,) for c in cells]
+    for k in range(max(len(c) for c in lines)):
+        t.add_row(*(c[k] if k < len(c) else "" for c in lines))
+
+
 def _state_label(s) -> Text:
     return T("  zero fuel" if s.kind == "zero-fuel" else s.name)
 
@@ -164,13 +181,13 @@ def _envelope_table(report: CheckReport, frame: Frame, nf: _Fmt) -> Table | None
     for head in (f"{low} [{lu}]", f"{high} [{lu}]", f"+mass [{mu}]"):
         _num_col(t, head)
     for s, f in rows:
-        lo, hi = nf.num("length", f.margin_lo), nf.num("length", f.margin_hi)
+        lo, hi = (nf.num("length", f.margin_lo),), (nf.num("length", f.margin_hi),)
         if mac is not None and f.axis == "x":
-            lo += "\n" + _pct(f.margin_lo, mac)
-            hi += "\n" + _pct(f.margin_hi, mac)
-        status = _status(f) + (f"\n{f.note}" if f.note else "")
+            lo += (_pct(f.margin_lo, mac),)
+            hi += (_pct(f.margin_hi, mac),)
+        status = (_status(f),) + ((f.note,) if f.note else ())
         name = f.name if one else f"{f.name} ({f.axis})"
-        t.add_row(_state_label(s), T(name), status, lo, hi, nf.num("mass", f.mass_margin))
+        _add_rows(t, _state_label(s), T(name), status, lo, hi, nf.num("mass", f.mass_margin))
     return t
 
 
@@ -233,21 +250,44 @@ def _sequence_table(report: CheckReport, frame: Frame, nf: _Fmt) -> Table | None
     _num_col(t, "least margin")
     t.add_column("where", overflow="fold", ratio=1)
     for q, f in rows:
-        margin = nf.qty(f.dimension, f.margin)
+        margin = (nf.qty(f.dimension, f.margin),)
         if f.kind == "envelope" and f.margin is not None and f.margin_lo is not None:
             lo_w, hi_w = side_words(frame, f.axis)
-            margin = f"{lo_w if f.margin_lo <= f.margin_hi else hi_w} {margin}"
+            margin = (f"{lo_w if f.margin_lo <= f.margin_hi else hi_w} {margin[0]}",)
             if report.mac is not None and f.axis == "x":
-                margin += f"\n{_pct(f.margin, report.mac)}MAC"
+                margin += (f"{_pct(f.margin, report.mac)}MAC",)
         elif f.kind == "envelope" and f.note:
-            margin = f"mass {f.note}"
-        where = _where(q, f)
+            margin = (f"mass {f.note}",)
+        where = (T(_where(q, f)),)
         if not f.ok and f.first_broken_step is not None:
             a, b = f.first_broken_step, f.last_broken_step
-            where += f"\nbroken in step {a}" if a == b else f"\nbroken in steps {a} to {b}"
-            where += f" ({f.broken_states} states)"
-        t.add_row(T(q.name), T(_limit_name(f) if f.kind != "envelope" else f.name), _status(f), margin, T(where))
+            span = f"broken in step {a}" if a == b else f"broken in steps {a} to {b}"
+            where += (T(f"{span} ({f.broken_states} states)"),)
+        _add_rows(t, T(q.name), T(_limit_name(f) if f.kind != "envelope" else f.name), _status(f), margin, where)
     return t
+
+
+def _allocation_table(report: CheckReport, nf: _Fmt) -> Table | None:
+    if not report.allocations:
+        return None
+    mu = nf.unit("mass")
+    t = _table(f"Mass allocations: predicted mass (basic + growth allowance) against the not-to-exceed [{mu}]")
+    _name_col(t, "group", 24)
+    _num_col(t, "status", left=True)
+    for head in ("allocation", "basic", "predicted", "margin"):
+        _num_col(t, head)
+    _name_col(t, "at loadout", 22)
+    for a in report.allocations:
+        t.add_row(T(a.group or "(whole vehicle)"), "ok" if a.ok else "BROKEN", nf.num("mass", a.allocation),
+                  nf.num("mass", a.basic), nf.num("mass", a.predicted), nf.num("mass", a.margin),
+                  T("(no loadout)" if a.loadout is None else a.loadout))
+    return t
+
+
+def _broken_names(report: CheckReport) -> list[str]:
+    out = [f"{s.name}: {f.name}" for s in (*report.states, *report.sequences) for f in s.findings
+           if f.applies and not f.ok]
+    return out + [f"allocation {a.group or '(whole vehicle)'}" for a in report.allocations if not a.ok]
 
 
 def _scope_line(report: CheckReport, ledger) -> str:
@@ -263,10 +303,11 @@ def print_check(report: CheckReport, path: str, ledger, du: DisplayUnits, consol
     console = console or Console(highlight=False, markup=False)
     nf = _Fmt(du)
     frame = ledger.frame
-    n_lo = len({s.loadout for s in report.states})
+    n_lo = len({s.loadout for s in report.states if s.loadout is not None})
     n_sq = len(report.sequences)
-    console.print(T(f"Check of {path}: {n_lo} loadout{'s' * (n_lo != 1)}, {n_sq} sequence{'s' * (n_sq != 1)}",
-                    "bold"))
+    loadouts = (f"{n_lo} loadout{'s' * (n_lo != 1)}" if n_lo else
+                "no loadouts (checked as it stands, variable items empty)")
+    console.print(T(f"Check of {path}: {loadouts}, {n_sq} sequence{'s' * (n_sq != 1)}", "bold"))
     mac = report.mac
     if mac is not None:
         console.print(Text(f"MAC: LEMAC {nf.qty('length', mac.lemac)}, length {nf.qty('length', mac.length)}"))
@@ -274,7 +315,8 @@ def print_check(report: CheckReport, path: str, ledger, du: DisplayUnits, consol
     for q in report.sequences:
         steps = "; ".join(f"{st.index} {st.label}" for st in q.steps)
         console.print(T(f"Sequence {q.name} from {q.loadout} ({len(q.path)} states): {steps}"))
-    for table in (_envelope_table(report, frame, nf), *_limit_tables(report, nf), _sequence_table(report, frame, nf)):
+    for table in (_envelope_table(report, frame, nf), *_limit_tables(report, nf), _sequence_table(report, frame, nf),
+                  _allocation_table(report, nf)):
         if table is not None:
             console.print(table)
     scope = _scope_line(report, ledger)
@@ -284,7 +326,5 @@ def print_check(report: CheckReport, path: str, ledger, du: DisplayUnits, consol
     if report.ok:
         console.print(Text(f"All limits met: {n} checks.", style="bold"))
     else:
-        bad = [f"{s.name}: {f.name}" for s in (*report.states, *report.sequences) for f in s.findings
-               if f.applies and not f.ok]
-        console.print(T(f"LIMITS BROKEN: {broken} of {n} checks ({'; '.join(bad)})", "bold"))
+        console.print(T(f"LIMITS BROKEN: {broken} of {n} checks ({'; '.join(_broken_names(report))})", "bold"))
     console.print(Text(CAUTION, style="italic"))

@@ -9,6 +9,9 @@ from rich.table import Table
 from rich.text import Text
 
 from steelyard.core.caution import CAUTION
+from steelyard.core.errors import SteelyardError
+from steelyard.core.physics.inertia import radius_of_gyration
+from steelyard.core.physics.rollup import check_finite_rollup
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, fmt_sig, pretty_unit, visible
 from steelyard.core.physics.groups import subtotals
 from steelyard.core.limits.rules import mac_reference
@@ -24,6 +27,10 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
     console = console or Console(highlight=False, markup=False)
     ledger = loaded.ledger
     mac = mac_reference(ledger)  # read before printing: a bad [mac] is one error line, not half a report
+    try:
+        check_finite_rollup(mp, ledger.items)  # figures beyond a float: one error line, not half a report
+    except SteelyardError as exc:
+        raise exc.located(file=loaded.path)
     du = DisplayUnits.choose(ledger.units, system)
     mu, lu, iu = pretty_unit(du.mass), pretty_unit(du.length), pretty_unit(du.inertia)
     dl, dm, dmo = du.decimals("length"), du.decimals("mass"), du.decimals("moment")
@@ -57,7 +64,7 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
         for col in ("moment", "x", "y", "z", f"radius of gyration [{lu}]"):
             pt.add_column(col, justify="right")
         for k in range(3):
-            rg = np.sqrt(max(moments[k], 0.0) / mp.mass)
+            rg = radius_of_gyration(max(moments[k], 0.0), mp.mass)
             pt.add_row(fmt_sig(du.i(moments[k])), *(f"{v:+.5f}" for v in axes[k]), fmt(du.l(rg), dl))
         console.print(pt)
 

@@ -7,6 +7,13 @@ lies outside the polygon, so that envelope is broken for it, unless the
 envelope's ``conditions`` / ``loadouts`` / ``sequences`` leave that state out (docs/check.md). Loadout
 states are evaluated together, one `evaluate` per envelope; a sequence's path
 is evaluated the same way, one call per envelope over all its states.
+
+Each `[[allocation]]` (a group's not-to-exceed mass, core.control.growth) is
+checked on the group's predicted mass (basic + growth allowance, the practice
+of ANSI/AIAA S-120A-2015) at the checked loadout that loads the group most.
+
+A roll-up whose figures overflow a float is refused (SteelyardError naming the
+item and field), never reported as a state that meets its limits.
 """
 
 from __future__ import annotations
@@ -15,12 +22,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from steelyard.core.errors import SteelyardError
-from steelyard.core.limits.rules import (EnvelopeSpec, LimitSpec, MacRef, applies, envelope_specs, evaluate_limit, fuel_rows,
-                     limit_specs, mac_reference, needs_inertia, said, zero_fuel_fill)
+from steelyard.core.control.growth import allocation_margins, growth_fractions
+from steelyard.core.errors import SteelyardError, item_subject
+from steelyard.core.limits.rules import (REL_TOL, EnvelopeSpec, LimitSpec, MacRef, applies, envelope_specs, evaluate_limit,
+                     fuel_rows, limit_specs, mac_reference, needs_inertia, said, zero_fuel_fill)
 from steelyard.core.loading.loadout import fill_fractions, is_removable, loadout_condition, state_from_fill
 from steelyard.core.document.model import Ledger
-from steelyard.core.physics.rollup import rollup_state
+from steelyard.core.physics.rollup import check_finite_rollup, rollup_state
 from steelyard.core.loading.sequence import sequence_specs
 from steelyard.core.loading.sequence_path import Path, Step, build_path
 from steelyard.core.limits.status import AXIS_INDEX, geometry
@@ -87,20 +95,40 @@ class SequenceCheck:
 
 
 @dataclass(frozen=True)
+class AllocationCheck:
+    """One `[[allocation]]` against its group's predicted mass, at the checked loadout that loads it most (SI)."""
+
+    group: str  # "" for the whole vehicle
+    loadout: str | None  # that loadout (None: no loadouts, variable items empty)
+    allocation: float  # the not-to-exceed mass
+    basic: float
+    predicted: float  # basic + growth allowance
+    margin: float  # allocation − predicted: negative when broken
+
+    @property
+    def ok(self) -> bool:
+        """Predicted at or below the not-to-exceed (on it is within, to rounding)."""
+        return self.margin >= -REL_TOL * self.allocation
+
+
+@dataclass(frozen=True)
 class CheckReport:
     states: tuple[StateCheck, ...]
     sequences: tuple[SequenceCheck, ...]
     mac: MacRef | None
+    allocations: tuple[AllocationCheck, ...] = ()
 
     @property
     def ok(self) -> bool:
-        return all(s.ok for s in self.states) and all(s.ok for s in self.sequences)
+        return (all(s.ok for s in self.states) and all(s.ok for s in self.sequences)
+                and all(a.ok for a in self.allocations))
 
     @property
     def counts(self) -> tuple[int, int]:
-        """(checks that apply, checks broken)."""
-        every = [f for s in (*self.states, *self.sequences) for f in s.findings if f.applies]
-        return len(every), sum(not f.ok for f in every)
+        """(checks that apply, checks broken); each allocation is one check."""
+        every = [f.ok for s in (*self.states, *self.sequences) for f in s.findings if f.applies]
+        every += [a.ok for a in self.allocations]
+        return len(every), sum(not ok for ok in every)
 
 
 # --------------------------------------------------------------------------- one batch of states
@@ -154,6 +182,7 @@ class _State:
     mass: float
     cg: np.ndarray
     inertia: np.ndarray
+    rows: np.ndarray | None = None  # each row's mass as carried (loadout states only)
 
 
 def _loadout_states(ledger: Ledger, names: list[str | None]) -> list[_State]:
@@ -166,12 +195,15 @@ def _loadout_states(ledger: Ledger, names: list[str | None]) -> list[_State]:
         except SteelyardError as exc:
             raise exc.located(subject=where)
         label = name if name is not None else "(no loadout)"
-        mp = rollup_state(state_from_fill(ledger, fill, name))
+        state = state_from_fill(ledger, fill, name)
+        mp = rollup_state(state)
+        check_finite_rollup(mp, ledger.items)
         tags = frozenset([("condition", cond)] + ([("loadout", name)] if name is not None else []))
-        out.append(_State(label, name, "loadout", cond, tags, mp.mass, mp.cg, mp.inertia_cg))
+        out.append(_State(label, name, "loadout", cond, tags, mp.mass, mp.cg, mp.inertia_cg, state.mass))
         zf = zero_fuel_fill(ledger, fill)
         if zf is not None:
             mz = rollup_state(state_from_fill(ledger, zf, name))
+            check_finite_rollup(mz, ledger.items)
             ztags = frozenset([("condition", "zero-fuel")] + ([("loadout", name)] if name is not None else []))
             out.append(_State(f"{label} (zero fuel)", name, "zero-fuel", "zero-fuel", ztags, mz.mass, mz.cg,
                               mz.inertia_cg))
@@ -233,7 +265,33 @@ def _path_extra(path: Path, ok: np.ndarray, mask: np.ndarray, i: int) -> dict:
             "broken_states": int(broken.sum())}
 
 
+def _refuse_overflow(ledger: Ledger, path: Path, what: str) -> None:
+    """A path state beyond a float: name the moving item with the largest mass × CG term."""
+    rows = [ledger.index[i] for i in path.items]
+    a = ledger.arrays
+    with np.errstate(divide="ignore", over="ignore"):
+        term = np.log10(a.unit_mass[rows] * a.quantity[rows]) + np.log10(np.abs(a.cg[rows]).max(axis=1))
+    k = int(np.argmax(term)) if len(rows) else 0
+    size = f" (mass × CG about 1e{term[k]:.0f} kg·m)" if len(rows) and np.isfinite(term[k]) else ""
+    subject = item_subject(path.items[k]) if len(rows) else f"sequence {said(path.name)}"
+    raise SteelyardError(f"too large: along sequence {said(path.name)} the {what} overflows in SI units{size}",
+                         subject=subject, field="cg")
+
+
+def check_finite_path(ledger: Ledger, path: Path, inertia: np.ndarray | None = None) -> None:
+    """Refuse a sequence path with a state (or, given, an inertia) beyond a float, naming the item."""
+    with np.errstate(invalid="ignore"):
+        bad = ~np.isfinite(path.mass) | ((path.mass > 0) & ~np.isfinite(path.cg).all(axis=1))
+    if bad.any():
+        _refuse_overflow(ledger, path, "roll-up")
+    if inertia is not None and not np.isfinite(inertia[path.mass > 0]).all():
+        _refuse_overflow(ledger, path, "inertia tensor")
+
+
 def _check_path(ledger: Ledger, path: Path) -> tuple[Finding, ...]:
+    specs = limit_specs(ledger)
+    inertia = path.inertia() if needs_inertia(specs) else None
+    check_finite_path(ledger, path, inertia)
     out = []
     for env in envelope_specs(ledger):
         mask = _path_mask(env.applies_to, path)
@@ -246,8 +304,6 @@ def _check_path(ledger: Ledger, path: Path) -> tuple[Finding, ...]:
         i = _worst(np.where(np.isnan(st.margin), -np.inf, st.margin), mask)
         out.append(_envelope_finding(env, st, g, i, c[i], float(path.mass[i]), True,
                                      _path_extra(path, st.inside, mask, i)))
-    specs = limit_specs(ledger)
-    inertia = path.inertia() if needs_inertia(specs) else None
     for spec in specs:
         mask = _path_mask(spec.applies_to, path)
         if not mask.any():
@@ -257,6 +313,30 @@ def _check_path(ledger: Ledger, path: Path) -> tuple[Finding, ...]:
         i = _worst(_relative(ls), mask)
         out.append(_limit_finding(spec, ls, i, True, _path_extra(path, ls.ok, mask, i)))
     return tuple(out)
+
+
+# --------------------------------------------------------------------------- allocations
+
+
+def _check_allocations(ledger: Ledger, states: list[_State]) -> tuple[AllocationCheck, ...]:
+    """Each allocation on its group's predicted mass, at the loadout state that loads the group most.
+
+    Predicted = basic × (1 + growth allowance) per item, summed over the group
+    and its subgroups (core.control.growth.allocation_margins); a group made
+    only of fixed items has the same figure in every loadout.
+    """
+    loaded = [s for s in states if s.rows is not None]
+    if not ledger.allocations or not loaded:
+        return ()
+    fractions = growth_fractions(ledger)
+    worst: dict[str, AllocationCheck] = {}
+    for s in loaded:
+        for a in allocation_margins(ledger, s.rows, fractions):
+            held = worst.get(a["group"])
+            if held is None or a["margin_kg"] < held.margin:
+                worst[a["group"]] = AllocationCheck(a["group"], s.loadout, a["allocation_kg"], a["basic_kg"],
+                                                    a["predicted_kg"], a["margin_kg"])
+    return tuple(worst.values())
 
 
 # --------------------------------------------------------------------------- the whole ledger
@@ -271,7 +351,7 @@ def validate(ledger: Ledger) -> None:
     sequence_specs(ledger)
     tank_tables(ledger)
     for it in ledger.items:
-        if it.extra and "removable" in it.extra:
+        if it.removable:
             is_removable(it)
 
 
@@ -287,11 +367,13 @@ def check_ledger(ledger: Ledger, loadout: str | None = None) -> CheckReport:
         names: list[str | None] = [loadout]
     else:
         names = [lo.name for lo in ledger.loadouts] or [None]
-    states = _check_states(ledger, _loadout_states(ledger, names), mac)
+    loaded = _loadout_states(ledger, names)
+    states = _check_states(ledger, loaded, mac)
+    allocations = _check_allocations(ledger, loaded)
     seqs = []
     for spec in sequence_specs(ledger):
         if loadout is not None and spec.loadout != loadout:
             continue
         path = build_path(ledger, spec.name)
         seqs.append(SequenceCheck(spec.name, spec.loadout, path.steps, path, _check_path(ledger, path)))
-    return CheckReport(states, tuple(seqs), mac)
+    return CheckReport(states, tuple(seqs), mac, allocations)

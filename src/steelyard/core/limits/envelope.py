@@ -80,7 +80,13 @@ def envelope_problem(points) -> str | None:
     low = p[:, 1] <= 0
     if low.any():
         return f"point {int(np.argmax(low)) + 1} has a mass <= 0; masses must be positive"
-    span = np.ptp(p, axis=0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        span = np.ptp(p, axis=0)
+        extent = span[0] * span[1]  # the bounding box's area bounds every cross product of the outline
+    if not (np.isfinite(span).all() and np.isfinite(extent)):
+        (c0, m0), (c1, m1) = p.min(axis=0), p.max(axis=0)
+        return (f"too large: the outline runs from {c0:.6g} to {c1:.6g} m and from {m0:.6g} to {m1:.6g} kg; "
+                "its area overflows in SI units")
     if (span == 0).any():
         return "all points lie on one line: the envelope has no area"
     q = (p - p.min(axis=0)) / span  # unit box: one tolerance fits both axes
@@ -328,6 +334,10 @@ class EnvelopeGeometry:
         if c.ndim != 1 or c.shape != m.shape:
             raise SteelyardError(f"cg and mass must be 1-D and the same length, got shapes "
                                  f"{c.shape} and {m.shape}")
+        with np.errstate(over="ignore", invalid="ignore"):  # far-off states: margins may be ±inf, no warning
+            return self._evaluate(c, m)
+
+    def _evaluate(self, c: np.ndarray, m: np.ndarray) -> EnvelopeStatus:
         n = len(c)
         # Chord at each state's mass: the piece holding the CG, else the nearest.
         lo, hi = np.full(n, np.nan), np.full(n, np.nan)

@@ -17,7 +17,7 @@ import numpy as np
 from steelyard.core.limits.envelope import EnvelopeGeometry
 from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Envelope, Ledger
-from steelyard.core.physics.rollup import MassProperties
+from steelyard.core.physics.rollup import MassProperties, check_finite_rollup
 
 AXIS_INDEX = {"x": 0, "y": 1, "z": 2}
 
@@ -88,4 +88,11 @@ def envelope_result(env: Envelope, mp: MassProperties, ledger: Ledger | None = N
 
 
 def envelope_results(ledger: Ledger, mp: MassProperties) -> list[EnvelopeResult]:
+    """Every envelope's status for this roll-up of `ledger` (its rows in item order).
+
+    A roll-up whose figures overflowed has no status: it is refused here with
+    the item and field to blame, so whatever shows envelope status (roll-up,
+    report, snapshot, diff) stops with one line instead of printing inf.
+    """
+    check_finite_rollup(mp, ledger.items)
     return [envelope_result(env, mp, ledger) for env in ledger.envelopes]

@@ -8,6 +8,8 @@ negatives. Every function here takes either one tensor (3, 3) or a stack
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from steelyard.core.errors import InertiaError
@@ -70,8 +72,18 @@ def principal(tensor: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     the axes form a right-handed set. Where two moments are equal the axes in
     that plane are not unique; numpy's eigh choice is kept, with the same sign
     rule. A diagonal tensor returns body axes.
+
+    A tensor with a non-finite entry has no axes: NaN moments and axes come
+    back instead of a LinAlgError. The tensor is scaled by a power of two
+    (exact) before the eigen-solver, so entries near the float limit do not
+    overflow on the way; a moment beyond a float comes back infinite.
     """
     t = np.asarray(tensor, dtype=float)
+    if not np.isfinite(t).all():
+        return np.full(3, np.nan), np.full((3, 3), np.nan)
+    peak = float(np.abs(t).max())
+    shift = math.frexp(peak)[1] if peak > 0 else 0
+    t = np.ldexp(t, -shift)
     t = 0.5 * (t + t.T)
     scale = max(float(np.abs(t).max()), np.finfo(float).tiny)
     off = np.abs(t - np.diag(np.diag(t))).max()
@@ -82,8 +94,11 @@ def principal(tensor: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         if np.linalg.det(axes) < 0:
             axes[2] = -axes[2]
             axes[2] = np.cross(axes[0], axes[1])
-        return d[order].copy(), axes
+        with np.errstate(over="ignore"):
+            return np.ldexp(d[order], shift), axes
     values, vectors = np.linalg.eigh(t)
+    with np.errstate(over="ignore"):
+        values = np.ldexp(values, shift)
     axes = vectors.T.copy()
     for i in (0, 1):
         k = int(np.argmax(np.abs(axes[i]) - 1e-12 * np.arange(3)))
@@ -93,12 +108,20 @@ def principal(tensor: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return values, axes
 
 
+def radius_of_gyration(moment: float, mass: float) -> float:
+    """k = sqrt(I / m); as sqrt(I) / sqrt(m) where I / m alone would overflow (a tiny mass)."""
+    if mass <= 0:
+        return 0.0
+    moment = max(float(moment), 0.0)
+    with np.errstate(over="ignore"):
+        ratio = moment / mass
+    return math.sqrt(ratio) if math.isfinite(ratio) else math.sqrt(moment) / math.sqrt(mass)
+
+
 def radii_of_gyration(tensor: np.ndarray, mass: float) -> np.ndarray:
     """k = sqrt(I_axis / m) about each body axis; zeros for zero mass."""
     diag = np.diagonal(np.asarray(tensor, dtype=float), axis1=-2, axis2=-1)
-    if mass <= 0:
-        return np.zeros(3)
-    return np.sqrt(np.clip(diag, 0.0, None) / mass)
+    return np.array([radius_of_gyration(d, mass) for d in diag])
 
 
 def realisability_problem(tensor: np.ndarray, rtol: float = REALISABLE_RTOL) -> str | None:
@@ -112,6 +135,11 @@ def realisability_problem(tensor: np.ndarray, rtol: float = REALISABLE_RTOL) -> 
     t = np.asarray(tensor, dtype=float)
     if not np.all(np.isfinite(t)):
         return "inertia has a non-finite component"
+    # the test is scale-free: run it on the tensor scaled by a power of two (exact), so entries
+    # near the float limit cannot overflow the trace; moments are scaled back for the message
+    peak = float(np.abs(t).max())
+    shift = math.frexp(peak)[1] if peak > 0 else 0
+    t = np.ldexp(t, -shift)
     trace = float(np.trace(t))
     tol = rtol * max(abs(trace), np.finfo(float).tiny)
     if np.abs(t - t.T).max() > tol:
@@ -121,8 +149,10 @@ def realisability_problem(tensor: np.ndarray, rtol: float = REALISABLE_RTOL) -> 
     s = 0.5 * trace * np.eye(3) - t
     low = float(np.linalg.eigvalsh(s).min())
     if low < -tol:
-        moments = np.linalg.eigvalsh(t)
-        if moments.min() < -tol:
+        scaled = np.linalg.eigvalsh(t)
+        with np.errstate(over="ignore"):
+            moments = np.ldexp(scaled, shift)
+        if scaled.min() < -tol:
             return f"inertia is not positive semi-definite (principal moment {moments.min():.6g})"
         a, b, c = moments
         return (f"inertia is not physically possible: principal moment {c:.6g} exceeds "
@@ -137,6 +167,8 @@ def realisability_problems(tensors: np.ndarray, rtol: float = REALISABLE_RTOL) -
         return np.zeros(0, dtype=bool)
     finite = np.all(np.isfinite(t), axis=(1, 2))
     t0 = np.where(finite[:, None, None], t, 0.0)
+    peak = np.abs(t0).max(axis=(1, 2))
+    t0 = np.ldexp(t0, -np.frexp(peak)[1][:, None, None])  # scale-free test: power-of-two scaling is exact
     trace = np.trace(t0, axis1=1, axis2=2)
     tol = rtol * np.maximum(np.abs(trace), np.finfo(float).tiny)
     asym = np.abs(t0 - np.swapaxes(t0, 1, 2)).max(axis=(1, 2)) > tol

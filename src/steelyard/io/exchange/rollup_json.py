@@ -7,7 +7,7 @@ import math
 from steelyard.core.limits.rules import mac_reference
 from steelyard.core.loading.loadout import resolve
 from steelyard.core.document.model import Ledger
-from steelyard.core.physics.rollup import MassProperties, rollup_state
+from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
 from steelyard.core.limits.status import envelope_results
 
 
@@ -30,6 +30,8 @@ def rollup_record(ledger: Ledger, loadout: str | None = None) -> dict:
 
 
 def record_from(ledger: Ledger, mp: MassProperties, loadout: str | None) -> dict:
+    """The record of roll-up `mp` of `ledger`; a roll-up beyond a float is refused, naming the item."""
+    check_finite_rollup(mp, ledger.items)
     zero = mp.mass <= 0
     moments, axes = (None, None) if zero else mp.principal
     mac = mac_reference(ledger)
