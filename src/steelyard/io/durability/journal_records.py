@@ -7,9 +7,9 @@ Split from journal.py, which keeps the file format and the writer.
 from __future__ import annotations
 
 import datetime as _dt
-from dataclasses import replace
 
 from steelyard.core.errors import SteelyardError
+from steelyard.core.loading.loadout_edits import rename_in_loadouts, with_amount
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.document.model import (ENVELOPE_MORE, ITEM_MORE, LOADOUT_MORE, Amount, Envelope, FileUnits, Frame,
                                            Item, Ledger, Loadout, Shape, more_keys)
@@ -191,22 +191,6 @@ def loadout_delete_record(name: str) -> dict:
 
 
 # ------------------------------------------------------------------- replay
-def _rename_in(loadouts: list[Loadout], old: str, new: str | None) -> list[Loadout]:
-    """Loadouts with item `old` renamed to `new` in place (None: dropped), as the editor does."""
-    out = []
-    for lo in loadouts:
-        if old in lo.set:
-            amounts = {}
-            for k, v in lo.set.items():
-                if k != old:
-                    amounts[k] = v
-                elif new is not None:
-                    amounts[new] = v
-            lo = replace(lo, set=amounts)
-        out.append(lo)
-    return out
-
-
 class _Work:
     """A mutable copy of a ledger's parts, so a long journal replays in O(records), not O(records·items)."""
 
@@ -259,7 +243,7 @@ def _put_item(w: _Work, rec: dict) -> None:
         if w.where(item.id) is not None:
             raise ValueError(f"renames to {item.id!r}, which is in the ledger already")
         w.put(i, item)
-        w.loadouts = _rename_in(w.loadouts, old_id, item.id)
+        w.loadouts = rename_in_loadouts(w.loadouts, old_id, item.id)
         return
     i = w.where(item.id)
     if at is None or at == i:
@@ -289,12 +273,7 @@ def _set_amount(w: _Work, rec: dict) -> None:
     name, item_id, amount = rec["loadout"], rec["id"], amount_from_json(rec["amount"])
     for k, lo in enumerate(w.loadouts):
         if lo.name == name:
-            amounts = dict(lo.set)
-            if amount is None:
-                amounts.pop(item_id, None)
-            else:
-                amounts[item_id] = amount
-            w.loadouts[k] = replace(lo, set=amounts)
+            w.loadouts[k] = with_amount(lo, item_id, amount)
             return
     raise KeyError(f"sets an amount in loadout {name!r}, which is not in the ledger")
 
@@ -308,7 +287,7 @@ def _apply(w: _Work, rec: dict) -> None:
         if i is None:
             raise KeyError(f"deletes item {rec['id']!r}, which is not in the ledger")
         w.remove(i)
-        w.loadouts = _rename_in(w.loadouts, rec["id"], None)
+        w.loadouts = rename_in_loadouts(w.loadouts, rec["id"], None)
     elif op == "splice":
         start, stop = rec["start"], rec["stop"]
         if not (type(start) is int and type(stop) is int and 0 <= start <= stop <= len(w.items)):
@@ -434,9 +413,9 @@ def edit_record(old: Ledger, new: Ledger, *, change: dict | None = None) -> dict
     loadouts = list(old.loadouts)
     for op in ops:  # deletes and renames carry their loadout amounts with them
         if op["op"] == "delete":
-            loadouts = _rename_in(loadouts, op["id"], None)
+            loadouts = rename_in_loadouts(loadouts, op["id"], None)
         elif op["op"] == "item" and "old_id" in op:
-            loadouts = _rename_in(loadouts, op["old_id"], op["item"]["id"])
+            loadouts = rename_in_loadouts(loadouts, op["old_id"], op["item"]["id"])
     ops += _loadout_ops(loadouts, new.loadouts)
     if tuple(new.envelopes) != tuple(old.envelopes):
         ops.append({"op": "envelopes", "envelopes": [_envelope_to_json(e) for e in new.envelopes]})

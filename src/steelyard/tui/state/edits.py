@@ -8,12 +8,11 @@ ledger costs a few array copies.
 
 from __future__ import annotations
 
-from dataclasses import replace
-
 import numpy as np
 
 from steelyard.core.errors import SteelyardError
-from steelyard.core.document.model import Amount, Item, ItemArrays, Ledger, Loadout, with_arrays
+from steelyard.core.document.model import Amount, Item, ItemArrays, Ledger, with_arrays
+from steelyard.core.loading.loadout_edits import rename_in_loadouts, with_amount
 
 
 def _arrays_of(ledger: Ledger) -> ItemArrays | None:
@@ -36,23 +35,6 @@ def add_item(ledger: Ledger, item: Item) -> Ledger:
     return new
 
 
-def _rename_in_loadouts(loadouts: tuple[Loadout, ...], old: str, new: str | None) -> tuple[Loadout, ...]:
-    """Loadouts with item `old` renamed to `new` (None: dropped from every loadout)."""
-    out = []
-    for lo in loadouts:
-        if old not in lo.set:
-            out.append(lo)
-            continue
-        amounts = {}
-        for k, v in lo.set.items():
-            if k != old:
-                amounts[k] = v
-            elif new is not None:
-                amounts[new] = v
-        out.append(replace(lo, set=amounts))
-    return tuple(out)
-
-
 def replace_item(ledger: Ledger, old_id: str, item: Item) -> Ledger:
     """Put `item` where `old_id` was (same place in the file); a new id is renamed in loadouts too."""
     i = ledger.index[old_id]
@@ -61,7 +43,7 @@ def replace_item(ledger: Ledger, old_id: str, item: Item) -> Ledger:
     if item.id in ledger.index:
         raise SteelyardError("an item with this id exists already", subject=f"item {item.id!r}", field="id")
     items = ledger.items[:i] + (item,) + ledger.items[i + 1:]
-    new = ledger.evolve(items=items, loadouts=_rename_in_loadouts(ledger.loadouts, old_id, item.id))
+    new = ledger.evolve(items=items, loadouts=tuple(rename_in_loadouts(ledger.loadouts, old_id, item.id)))
     a = _arrays_of(ledger)
     if a is not None:
         with_arrays(new, a.with_row(i, item))
@@ -72,7 +54,7 @@ def delete_item(ledger: Ledger, item_id: str) -> Ledger:
     """Remove an item, and its amount from every loadout that names it."""
     i = ledger.index[item_id]
     new = ledger.evolve(items=ledger.items[:i] + ledger.items[i + 1:],
-                        loadouts=_rename_in_loadouts(ledger.loadouts, item_id, None))
+                        loadouts=tuple(rename_in_loadouts(ledger.loadouts, item_id, None)))
     a = _arrays_of(ledger)
     if a is not None:
         with_arrays(new, ItemArrays(*(np.delete(getattr(a, f), i, axis=0)
@@ -102,17 +84,8 @@ def move_item(ledger: Ledger, item_id: str, group: str) -> Ledger:
 
 def set_amount(ledger: Ledger, loadout: str, item_id: str, amount: Amount | None) -> Ledger:
     """A ledger whose loadout carries `amount` of a variable item (None: empty, i.e. not named)."""
-    out = []
-    for lo in ledger.loadouts:
-        if lo.name == loadout:
-            amounts = dict(lo.set)
-            if amount is None:
-                amounts.pop(item_id, None)
-            else:
-                amounts[item_id] = amount
-            lo = replace(lo, set=amounts)
-        out.append(lo)
-    new = ledger.evolve(loadouts=tuple(out))
+    out = tuple(with_amount(lo, item_id, amount) if lo.name == loadout else lo for lo in ledger.loadouts)
+    new = ledger.evolve(loadouts=out)
     a = _arrays_of(ledger)
     if a is not None:
         with_arrays(new, a)  # the items are the same objects
