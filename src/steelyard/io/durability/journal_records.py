@@ -156,14 +156,20 @@ def _more(d: dict, names: tuple[str, ...]) -> dict:
 
 
 # Builders for the records the editor writes (see docs/durability.md).
-def item_record(item: Item, *, at: int | None = None, old_id: str | None = None) -> dict:
-    """Put the whole item: replaces the item with its id (or `old_id`, renamed in loadouts too), else adds it."""
-    rec: dict = {"op": "item", "item": item_to_json(item)}
+def _put_record(op: str, whole: dict, at: int | None, old_key: str, old: str | None, name: str) -> dict:
+    """A record that puts a whole object (`whole`, under the key `op`): at row `at` if given, and
+    under `old_key` the name it replaces when that is not its own."""
+    rec: dict = {"op": op, op: whole}
     if at is not None:
         rec["at"] = at
-    if old_id is not None and old_id != item.id:
-        rec["old_id"] = old_id
+    if old is not None and old != name:
+        rec[old_key] = old
     return rec
+
+
+def item_record(item: Item, *, at: int | None = None, old_id: str | None = None) -> dict:
+    """Put the whole item: replaces the item with its id (or `old_id`, renamed in loadouts too), else adds it."""
+    return _put_record("item", item_to_json(item), at, "old_id", old_id, item.id)
 
 
 def delete_record(item_id: str) -> dict:
@@ -178,12 +184,7 @@ def amount_record(loadout: str, item_id: str, amount: Amount | None) -> dict:
 
 def loadout_record(loadout: Loadout, *, at: int | None = None, old_name: str | None = None) -> dict:
     """Put a whole loadout (replacing the one named `old_name` or its own name)."""
-    rec: dict = {"op": "loadout", "loadout": loadout_to_json(loadout)}
-    if at is not None:
-        rec["at"] = at
-    if old_name is not None and old_name != loadout.name:
-        rec["old_name"] = old_name
-    return rec
+    return _put_record("loadout", loadout_to_json(loadout), at, "old_name", old_name, loadout.name)
 
 
 def loadout_delete_record(name: str) -> dict:
