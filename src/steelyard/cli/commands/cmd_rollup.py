@@ -19,17 +19,20 @@ def add_arguments(p) -> None:
 def run(args) -> int:
     from steelyard.core.loading.loadout import resolve
     from steelyard.core.physics.rollup import rollup_state
-    from steelyard.cli.loading import prepare
+    from steelyard.cli.loading import located, prepare
 
     loaded, state = prepare(args.file, args.loadout, resolve)
     mp = rollup_state(state)
     if args.json:
         from steelyard.io.exchange.rollup_json import record_from
 
-        json.dump(record_from(loaded.ledger, mp, args.loadout), sys.stdout, indent=2, allow_nan=False)
+        with located(loaded):  # a roll-up beyond a float names the file and the item
+            record = record_from(loaded.ledger, mp, args.loadout)
+        json.dump(record, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
         return 0
     from steelyard.cli.render.rollup import print_rollup
 
-    print_rollup(loaded, state, mp, args.units)
+    with located(loaded):
+        print_rollup(loaded, state, mp, args.units)
     return 0

@@ -14,7 +14,7 @@ from steelyard.core.errors import SteelyardError, UnitError, said
 from steelyard.core.limits.rules import applies, envelope_specs, fuel_rows, limit_specs, mac_reference, zero_fuel_fill
 from steelyard.core.loading.loadout import fill_fractions, loadout_condition, state_from_fill
 from steelyard.core.document.model import Ledger
-from steelyard.core.physics.rollup import rollup_state
+from steelyard.core.physics.rollup import check_finite_rollup, rollup_state
 from steelyard.core.limits.solvers import add_mass, ballast_for_limit, ballast_to_enter, payload_remaining, weight_shift
 from steelyard.core.limits.status import AXIS_INDEX, geometry
 from steelyard.core.units import number_problem, parse_number, parse_quantity, to_si
@@ -29,6 +29,7 @@ class _Ctx:
         self.k = AXIS_INDEX[self.axis]
         self.fill = fill_fractions(ledger, args.loadout)
         self.mp = rollup_state(state_from_fill(ledger, self.fill, args.loadout))
+        check_finite_rollup(self.mp, ledger.items)  # no answer from a roll-up beyond a float
         if not self.mp.mass > 0:
             raise SteelyardError("the loadout has no mass", field="--loadout")
         self.condition = loadout_condition(ledger, args.loadout)
@@ -199,6 +200,7 @@ def _payload(c: _Ctx) -> tuple[dict, list[str]]:
     zf = zero_fuel_fill(c.ledger, c.fill)
     if zf is not None and row not in set(fuel_rows(c.ledger).tolist()):
         mz = rollup_state(state_from_fill(c.ledger, zf))
+        check_finite_rollup(mz, c.ledger.items)
         tags = {("condition", "zero-fuel")} | ({("loadout", c.args.loadout)} if c.args.loadout else set())
         states.append((" at zero fuel", mz, tags))
     skipped = []

@@ -36,7 +36,7 @@ from steelyard.core.history.diff_text import change_rows
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.loading.loadout import fill_fractions, state_from_fill
 from steelyard.core.document.model import Ledger, more_keys
-from steelyard.core.physics.rollup import MassProperties, rollup_state
+from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
 from steelyard.core.limits.status import EnvelopeResult, envelope_results
 
 
@@ -131,8 +131,10 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     labels = [name or i for name, i in zip(map(operator.attrgetter("name"), items), ids)]
     geometry = np.fromiter((it.shape is not None or bool(it.rotate) for it in items), bool, n)
     has_extra = np.fromiter(map(bool, extras), bool, n)
+    mp = rollup_state(state)
+    check_finite_rollup(mp, items)  # a side beyond a float is refused naming the item, before any arithmetic
     return Carried(ledger, loadout, ids, labels, list(map(operator.attrgetter("group"), items)), a.quantity,
-                   a.unit_mass * fill, a.cg, six, variable, capacity, density, extras, rollup_state(state),
+                   a.unit_mass * fill, a.cg, six, variable, capacity, density, extras, mp,
                    state.mass, geometry, has_extra)
 
 

@@ -44,6 +44,11 @@ _AXIS_VECTOR = {"fwd": (1, 0, 0), "aft": (-1, 0, 0), "right": (0, 1, 0), "left":
 Progress = Callable[[str, float], None]
 
 
+def _finite_as_written(v: object) -> bool:
+    """A bare number the file wrote as finite (it may still overflow once converted to SI)."""
+    return (type(v) is float or type(v) is int) and math.isfinite(v)
+
+
 def _is_number(v: object) -> bool:
     return type(v) is float or type(v) is int
 
@@ -241,12 +246,20 @@ class _Items:
         if bad.any():
             i = int(np.argmax(bad))
             m = raw[i]["mass"]
-            why = "must be >= 0" if np.isfinite(mass[i]) else "must be a finite number"
-            raise self.fail(i, "mass", f"{why}, got {m!r}")
+            if np.isfinite(mass[i]):
+                why = "must be >= 0"
+            elif _finite_as_written(m):
+                why = f"too large: overflows in SI units ({u.mass} to kg)"
+            else:
+                why = "must be a finite number"
+            raise self.fail(i, "mass", f"{why}, got {said(m)}")
         bad = ~np.all(np.isfinite(cg), axis=1)
         if bad.any():
             i = int(np.argmax(bad))
-            raise self.fail(i, "cg", f"must be finite numbers, got {raw[i]['cg']!r}")
+            c = raw[i]["cg"]
+            if all(_finite_as_written(v) for v in c):
+                raise self.fail(i, "cg", f"too large: overflows in SI units ({u.length} to m), got {said(c)}")
+            raise self.fail(i, "cg", f"must be finite numbers, got {said(c)}")
         return self._finish(ids, mass, cg, quantity, variable, given)
 
     def _finish(self, ids, mass, cg, quantity, variable, given) -> tuple[list[Item], ItemArrays]:
@@ -601,16 +614,14 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
         raise FormatError("not a steelyard ledger", file=source)
     version = data.get("steelyard")
     if version is None:
-        raise FormatError("not a steelyard ledger: missing format version 'steelyard = 1'", file=source,
-                          field="steelyard")
+        raise FormatError("not a steelyard ledger: missing format version 'steelyard = 1'", file=source)
     if type(version) is not int:
-        raise FormatError(f"format version must be a whole number, got {version!r}", file=source,
-                          field="steelyard")
+        raise FormatError(f"format version must be a whole number, got {version!r}", file=source)
     if version > FORMAT_VERSION:
         raise FormatError(f"format version {version} is newer than this program reads ({FORMAT_VERSION}); "
-                          "upgrade steelyard", file=source, field="steelyard")
+                          "upgrade steelyard", file=source)
     if version < 1:
-        raise FormatError(f"unknown format version {version}", file=source, field="steelyard")
+        raise FormatError(f"unknown format version {version}", file=source)
     try:
         check_document(data)
     except SteelyardError as exc:

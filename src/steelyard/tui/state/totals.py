@@ -48,7 +48,8 @@ def compute_totals(ledger: Ledger, loadout: str | None) -> Totals:
     """Roll-up and envelope status from core; a loadout problem becomes `error`."""
     try:
         state = resolve(ledger, loadout)
+        mp = rollup_state(state)
+        envelopes = tuple(envelope_results(ledger, mp))  # refuses a roll-up that overflowed, naming the item
     except SteelyardError as exc:
         return Totals(loadout, None, None, (), str(exc))
-    mp = rollup_state(state)
-    return Totals(loadout, state, mp, tuple(envelope_results(ledger, mp)))
+    return Totals(loadout, state, mp, envelopes)
