@@ -7,6 +7,8 @@ that computation name FILE. `prepare` does exactly that, once for all.
 
 from __future__ import annotations
 
+import sys
+
 from contextlib import contextmanager
 from typing import Callable, Iterator, TypeVar
 
@@ -20,7 +22,12 @@ T = TypeVar("T")
 
 def load_for_cli(path: str) -> LoadedLedger:
     with LoadProgress(f"loading {path}") as progress:
-        return open_ledger(path, progress=progress)
+        loaded = open_ledger(path, progress=progress)
+    from steelyard.io.ledger.read import reading_notes
+
+    for note in reading_notes(loaded.ledger):  # stderr: stdout stays data for scripts
+        print(f"steelyard: note: {loaded.path}: {note}", file=sys.stderr)
+    return loaded
 
 
 def check_loadout(loaded: LoadedLedger, name: str | None) -> None:

@@ -591,6 +591,31 @@ def _other_tables(data: dict, source: str) -> dict:
     return out
 
 
+def _unit_notes(data: dict, units: FileUnits) -> tuple[str, ...]:
+    """What a reader should be told although the file is valid.
+
+    With no `inertia` in [units], bare inertia numbers are kg·m² (the v1
+    contract) even in a file whose masses are pounds and lengths inches: a
+    factor of about 3,400 if the author meant lb·in². Said once, where it matters.
+    """
+    given = data.get("units")
+    if isinstance(given, dict) and "inertia" in given:
+        return ()
+    if (units.mass, units.length) == ("kg", "m"):
+        return ()
+    for it in data.get("item", ()):
+        t = it.get("inertia") if isinstance(it, dict) else None
+        if isinstance(t, dict) and any(type(v) in (int, float) for v in t.values()):
+            return (f"[units] gives mass in {units.mass} and length in {units.length} but no inertia unit: "
+                    "bare inertia numbers are read as kg*m**2; write inertia = \"...\" in [units] to say which",)
+    return ()
+
+
+def reading_notes(ledger: Ledger) -> tuple[str, ...]:
+    """Notes the reader made about a valid file (see `_unit_notes`)."""
+    return ledger.__dict__.get("_read_notes", ())
+
+
 def _envelope_problem(points: list) -> str | None:
     from steelyard.core.limits.envelope import envelope_problem
 
@@ -638,6 +663,9 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
     ledger = Ledger(tuple(items), units, frame, loadouts, envelopes, **_other_tables(data, source))
     ledger.__dict__["index"] = index
     ledger = with_arrays(ledger, arrays)
+    notes = _unit_notes(data, units)
+    if notes:
+        ledger.__dict__["_read_notes"] = notes
     try:
         validate_document(ledger)
     except SteelyardError as exc:
