@@ -11,6 +11,7 @@ from __future__ import annotations
 import tomllib
 
 from steelyard.core.errors import FormatError
+from steelyard.io.ledger.conflicts import conflict_marker_line, conflict_message
 
 import os
 
@@ -37,6 +38,9 @@ def decode(data: bytes, *, source: str) -> str:
 
 def parse_toml(text: str, *, source: str, fast: bool = True) -> dict:
     """Parse TOML text; a syntax error becomes one FormatError line naming the file."""
+    marker = conflict_marker_line(text)
+    if marker is not None:
+        raise FormatError(conflict_message(text, marker), file=source)
     if fast and _rtoml is not None:
         try:
             return _rtoml.loads(text)
