@@ -118,7 +118,7 @@ def main(argv: list[str] | None = None) -> int:
 def _names() -> set[str]:
     import steelyard.cli.commands as pkg
 
-    return {m.name[4:] for m in pkgutil.iter_modules(pkg.__path__) if m.name.startswith("cmd_")}
+    return {m.name[4:].replace("_", "-") for m in pkgutil.iter_modules(pkg.__path__) if m.name.startswith("cmd_")}
 
 
 if __name__ == "__main__":  # pragma: no cover
