@@ -16,7 +16,7 @@ item (SI values) or a delete, a loadout change, ...; `replay` applies records
 to a ledger. See docs/durability.md for how the editor uses this module.
 
 The journal's name is predictable, so anything may have been planted there.
-It is never opened through a symlink (O_NOFOLLOW), a new one is created with
+It is never opened through a symlink (ONOFOLLOW), a new one is created with
 O_EXCL, and an existing one is used only if it is a regular file with no
 other name (checked with lstat, then fstat on what was opened, O_NONBLOCK so
 a FIFO cannot hang the editor). Anything else is refused with a one-line
@@ -26,19 +26,18 @@ SteelyardError, and left untouched.
 from __future__ import annotations
 
 import datetime as _dt
-import errno
 import getpass
 import json
 import os
 import re
 import socket
-import stat
 import zlib
 from dataclasses import dataclass
 from pathlib import Path
 
 from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Ledger
+from steelyard.io.durability.no_follow import NOFOLLOW, kind_of, open_existing
 from steelyard.io.durability.journal_records import (  # noqa: F401 - records live there; re-exported for callers
     amount_from_json, amount_record, amount_to_json, delete_record, describe, edit_record, item_from_json, item_record, item_to_json, loadout_delete_record, loadout_from_json, loadout_record, loadout_to_json, replay, _MAX_ITEM_OPS,
 )
@@ -68,43 +67,31 @@ def journal_path(ledger_path: str | os.PathLike) -> Path:
     return real.with_name(f".{real.name}{SUFFIX}")
 
 
-_KINDS = {stat.S_IFLNK: "a symbolic link", stat.S_IFIFO: "a FIFO", stat.S_IFCHR: "a device",
-          stat.S_IFBLK: "a device", stat.S_IFDIR: "a directory", stat.S_IFSOCK: "a socket"}
-_NOFOLLOW = os.O_NOFOLLOW | os.O_NONBLOCK | getattr(os, "O_NOCTTY", 0)
+def _not_a_journal(path: Path, kind: str) -> SteelyardError:
+    return SteelyardError(f"is {kind}, not a steelyard journal; refusing it (remove it if no steelyard is "
+                          "editing the ledger)", file=str(path))
 
 
-def _refused(path: Path, st: os.stat_result) -> SteelyardError | None:
-    """Why the file at the journal's name is not one to use, or None if it is."""
-    if not stat.S_ISREG(st.st_mode):
-        kind = _KINDS.get(stat.S_IFMT(st.st_mode), "not a regular file")
-        return SteelyardError(f"is {kind}, not a steelyard journal; refusing it (remove it if no steelyard is "
-                              "editing the ledger)", file=str(path))
+def _hard_linked(path: Path, st: os.stat_result) -> SteelyardError | None:
     if st.st_nlink > 1:
         return SteelyardError("has other names (hard links), so it is not a steelyard journal; refusing it "
                               "(remove it if no steelyard is editing the ledger)", file=str(path))
     return None
 
 
+def _refused(path: Path, st: os.stat_result) -> SteelyardError | None:
+    """Why the file at the journal's name is not one to use, or None if it is."""
+    kind = kind_of(st)
+    return _not_a_journal(path, kind) if kind is not None else _hard_linked(path, st)
+
+
 def _open_existing(path: Path, flags: int) -> int | None:
     """An fd on the existing regular journal at `path` (never through a link), or None if there is none."""
-    try:
-        st = os.lstat(path)
-    except FileNotFoundError:
+    fd = open_existing(path, flags, refuse=lambda kind: _not_a_journal(path, kind),
+                       failure=lambda why: SteelyardError(f"cannot open the journal ({why})", file=str(path)),
+                       check=lambda st: _hard_linked(path, st))
+    if fd is None:
         return None
-    except OSError as exc:
-        raise SteelyardError(f"cannot open the journal ({exc.strerror})", file=str(path)) from None
-    why = _refused(path, st)
-    if why is not None:
-        raise why
-    try:
-        fd = os.open(path, flags | _NOFOLLOW)
-    except FileNotFoundError:
-        return None
-    except OSError as exc:
-        if exc.errno == errno.ELOOP:
-            raise SteelyardError("is a symbolic link, not a steelyard journal; refusing it (remove it if no "
-                                 "steelyard is editing the ledger)", file=str(path)) from None
-        raise SteelyardError(f"cannot open the journal ({exc.strerror})", file=str(path)) from None
     why = _refused(path, os.fstat(fd))
     if why is not None:
         os.close(fd)
@@ -209,7 +196,7 @@ def _held_elsewhere(path: Path) -> bool:
     if fcntl is None:
         return False
     try:
-        fd = os.open(path, os.O_RDONLY | _NOFOLLOW)
+        fd = os.open(path, os.O_RDONLY | NOFOLLOW)
     except OSError:
         return False
     try:
@@ -219,6 +206,16 @@ def _held_elsewhere(path: Path) -> bool:
         return True
     finally:
         os.close(fd)
+
+
+def _take_writer_lock(fd: int, jpath: Path) -> None:
+    """The journal's writer lock (an exclusive flock), or JournalInUse while a live editor holds it."""
+    if fcntl is None:
+        return
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        raise JournalInUse("another editor is writing this journal", file=str(jpath)) from None
 
 
 def _fsync_dir(path: Path) -> None:
@@ -296,11 +293,7 @@ def discard(ledger_path: str | os.PathLike) -> bool:
     if fd is None:
         return False
     try:
-        if fcntl is not None:
-            try:
-                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-            except OSError:
-                raise JournalInUse("another editor is writing this journal", file=str(jpath)) from None
+        _take_writer_lock(fd, jpath)
         try:
             os.unlink(jpath)
         except FileNotFoundError:
@@ -339,7 +332,7 @@ class Journal:
         except OSError:
             mode = 0o666
         try:  # a new journal: O_EXCL, so nothing planted at the name is ever opened
-            fd = os.open(jpath, os.O_RDWR | os.O_CREAT | os.O_EXCL | _NOFOLLOW, mode)
+            fd = os.open(jpath, os.O_RDWR | os.O_CREAT | os.O_EXCL | NOFOLLOW, mode)
         except FileExistsError:
             fd = _open_existing(jpath, os.O_RDWR)
             if fd is None:  # removed meanwhile: one more try at creating it
@@ -348,11 +341,7 @@ class Journal:
             raise SteelyardError(f"cannot create the journal of unsaved edits ({exc.strerror})",
                                  file=str(jpath)) from None
         try:
-            if fcntl is not None:
-                try:
-                    fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-                except OSError:
-                    raise JournalInUse("another editor is writing this journal", file=str(jpath)) from None
+            _take_writer_lock(fd, jpath)
             scan = _scan(_read_all(fd))
             base, records = _unsaved(scan)
             if records and not (resume and base == base_sha256):
@@ -373,7 +362,7 @@ class Journal:
     @staticmethod
     def _create(jpath: Path, mode: int) -> int:
         try:
-            return os.open(jpath, os.O_RDWR | os.O_CREAT | os.O_EXCL | _NOFOLLOW, mode)
+            return os.open(jpath, os.O_RDWR | os.O_CREAT | os.O_EXCL | NOFOLLOW, mode)
         except OSError as exc:
             raise SteelyardError(f"cannot create the journal of unsaved edits ({exc.strerror})",
                                  file=str(jpath)) from None

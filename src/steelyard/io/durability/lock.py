@@ -21,7 +21,6 @@ docs/durability.md.
 from __future__ import annotations
 
 import datetime as _dt
-import errno
 import getpass
 import json
 import os
@@ -33,11 +32,10 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from steelyard.core.errors import SteelyardError
+from steelyard.io.durability.no_follow import open_existing
 
 _READ_TRIES = 5  # a lock file read empty is being written right now: look again briefly
 MAX_LOCK_BYTES = 4096  # ours are about 200 bytes; anything longer is not a steelyard lock
-_KINDS = {stat.S_IFLNK: "a symbolic link", stat.S_IFIFO: "a FIFO", stat.S_IFCHR: "a device",
-          stat.S_IFBLK: "a device", stat.S_IFDIR: "a directory", stat.S_IFSOCK: "a socket"}
 
 
 @dataclass(frozen=True)
@@ -82,22 +80,10 @@ def _refuse(path: Path, kind: str) -> LockRefused:
 
 def _read_lock_bytes(path: Path) -> bytes | None:
     """At most MAX_LOCK_BYTES + 1 bytes of a regular lock file; None if there is none; LockRefused otherwise."""
-    try:
-        st = os.lstat(path)
-    except FileNotFoundError:
+    fd = open_existing(path, os.O_RDONLY, refuse=lambda kind: _refuse(path, kind),
+                       failure=lambda why: LockUnavailable(f"cannot read the lock file ({why})", file=str(path)))
+    if fd is None:
         return None
-    except OSError as exc:
-        raise LockUnavailable(f"cannot read the lock file ({exc.strerror})", file=str(path)) from None
-    if not stat.S_ISREG(st.st_mode):
-        raise _refuse(path, _KINDS.get(stat.S_IFMT(st.st_mode), "not a regular file"))
-    try:
-        fd = os.open(path, os.O_RDONLY | os.O_NOFOLLOW | os.O_NONBLOCK | getattr(os, "O_NOCTTY", 0))
-    except FileNotFoundError:
-        return None
-    except OSError as exc:
-        if exc.errno == errno.ELOOP:  # replaced by a symlink since the lstat
-            raise _refuse(path, "a symbolic link") from None
-        raise LockUnavailable(f"cannot read the lock file ({exc.strerror})", file=str(path)) from None
     try:
         if not stat.S_ISREG(os.fstat(fd).st_mode):
             raise _refuse(path, "not a regular file")
