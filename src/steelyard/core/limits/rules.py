@@ -25,6 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from steelyard.core.document import schema
+from steelyard.core.document.named_tables import entry_name, refuse_duplicate_names
 from steelyard.core.errors import SteelyardError, said
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.limits.mac import percent_mac, station_from_percent_mac
@@ -304,12 +305,7 @@ def _inertia_bounds(raw, ledger: Ledger, subject: str, field: str) -> np.ndarray
 
 
 def _read_limit(raw, k: int, ledger: Ledger) -> LimitSpec:
-    if type(raw) is not dict:
-        raise SteelyardError("must be a table", subject=f"limit #{k}")
-    name = raw.get("name")
-    if type(name) is not str or not name.strip():
-        raise SteelyardError("required: a non-empty string", subject=f"limit #{k}", field="name")
-    subject = f"limit {said(name)}"
+    name, subject = entry_name(raw, "limit", k)
     _strict_table(raw, subject, _LIMIT_KEYS)
     kinds = [kind for kind, keys in (("mass", ("max_mass", "min_mass")), ("inertia", ("max_inertia", "min_inertia")),
                                      ("cg-offset", ("max_cg_offset",))) if any(x in raw for x in keys)]
@@ -359,10 +355,7 @@ def _read_limit(raw, k: int, ledger: Ledger) -> LimitSpec:
 def _read_limits(ledger: Ledger) -> tuple[LimitSpec, ...]:
     raw = ledger.limits
     out = [_read_limit(r, k, ledger) for k, r in enumerate(raw, start=1)]
-    names = [x.name for x in out]
-    for name in names:
-        if names.count(name) > 1:
-            raise SteelyardError("duplicate limit name", subject=f"limit {said(name)}", field="name")
+    refuse_duplicate_names([x.name for x in out], "limit")
     return tuple(out)
 
 

@@ -25,6 +25,7 @@ import numpy as np
 
 from steelyard.core.display import fmt
 from steelyard.core.document import schema
+from steelyard.core.document.named_tables import entry_name, refuse_duplicate_names
 from steelyard.core.errors import SteelyardError
 from steelyard.core.errors import said
 from steelyard.core.loading.loadout import CONDITIONS, is_removable
@@ -114,12 +115,7 @@ class SequenceSpec:
 
 
 def _read_sequence(raw, k: int, ledger: Ledger) -> SequenceSpec:
-    if type(raw) is not dict:
-        raise SteelyardError("must be a table", subject=f"sequence #{k}")
-    name = raw.get("name")
-    if type(name) is not str or not name.strip():
-        raise SteelyardError("required: a non-empty string", subject=f"sequence #{k}", field="name")
-    where = f"sequence {said(name)}"
+    name, where = entry_name(raw, "sequence", k)
     unknown = sorted(set(raw) - _SEQ_KEYS)
     if unknown:
         raise SteelyardError(f"unknown key {said(unknown[0])} (known: {', '.join(sorted(_SEQ_KEYS))})", subject=where,
@@ -143,10 +139,7 @@ def _read_sequence(raw, k: int, ledger: Ledger) -> SequenceSpec:
 def _read_all(ledger: Ledger) -> tuple[SequenceSpec, ...]:
     raw = ledger.sequences
     out = tuple(_read_sequence(s, k, ledger) for k, s in enumerate(raw, 1))
-    names = [s.name for s in out]
-    for s in out:
-        if names.count(s.name) > 1:
-            raise SteelyardError("duplicate sequence name", subject=s.subject, field="name")
+    refuse_duplicate_names([s.name for s in out], "sequence")
     return out
 
 
