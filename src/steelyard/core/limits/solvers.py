@@ -24,6 +24,7 @@ import numpy as np
 from steelyard.core.document.model import FileUnits
 from steelyard.core.errors import SteelyardError, said
 from steelyard.core.limits.envelope import EnvelopeGeometry, as_geometry
+from steelyard.core.quadratic import quadratic_roots
 from steelyard.core.units import from_si
 
 _GRID = 257  # uniform samples along a path, on top of the edge crossings
@@ -144,14 +145,7 @@ def _edge_crossings(g: EnvelopeGeometry, w: float, x: float, s: float) -> np.nda
     dx, dy = np.roll(x0, -1) - x0, np.roll(y0, -1) - y0
     e = x0 - s
     qa, qb, qc = dx * dy, e * dy + dx * y0, e * y0 - w * (x - s)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        disc = qb * qb - 4 * qa * qc
-        q = -0.5 * (qb + np.copysign(np.sqrt(np.maximum(disc, 0.0)), qb))
-        lin = qa == 0
-        r1 = np.where(lin, -qc / qb, q / qa)
-        r2 = np.where(lin, np.nan, qc / q)
-        real = lin | (disc >= 0)
-        u = np.concatenate([np.where(real, r1, np.nan), np.where(real, r2, np.nan)])
+    u = np.concatenate(quadratic_roots(qa, qb, qc))
     y = np.concatenate([y0, y0]) + u * np.concatenate([dy, dy])
     on = np.isfinite(u) & (u >= -1e-9) & (u <= 1 + 1e-9)
     return np.concatenate([y[on], y0]) - w

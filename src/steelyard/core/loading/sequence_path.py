@@ -25,6 +25,7 @@ from steelyard.core.errors import SteelyardError
 from steelyard.core.loading.loadout import fill_fractions, loadout_condition, state_from_fill
 from steelyard.core.document.model import Ledger
 from steelyard.core.physics.rollup import rollup_state
+from steelyard.core.quadratic import quadratic_roots
 from steelyard.core.loading.sequence import sequence_specs, step_change, step_row
 from steelyard.core.loading.tank import tank_tables
 
@@ -115,18 +116,6 @@ class _Movers:
         return c, d
 
 
-def _roots(qa: np.ndarray, qb: np.ndarray, qc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Both real roots of qa t² + qb t + qc per row (NaN where none), in the stable form."""
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        disc = qb * qb - 4.0 * qa * qc
-        q = -0.5 * (qb + np.copysign(np.sqrt(np.maximum(disc, 0.0)), qb))
-        lin = qa == 0
-        r1 = np.where(lin, -qc / qb, q / qa)
-        r2 = np.where(lin, np.nan, qc / q)
-        real = lin | (disc >= 0)
-    return np.where(real, r1, np.nan), np.where(real, r2, np.nan)
-
-
 def _edge_hits(env, lo: float, hi: float, m0: float, m1: float, s: np.ndarray) -> np.ndarray:
     """Progress values in [lo, hi] where mass m0 + m1 t, moment s0 + s1 t + s2 t² (about the
     reference point, on the envelope's axis) meet an edge of the envelope.
@@ -141,7 +130,7 @@ def _edge_hits(env, lo: float, hi: float, m0: float, m1: float, s: np.ndarray) -
     qa = s2 * dm - m1 * m1 * dx
     qb = (s1 - xe * m1) * dm - (2.0 * m0 * m1 - me * m1) * dx
     qc = (s0 - xe * m0) * dm - (m0 * m0 - me * m0) * dx
-    t = np.concatenate(_roots(qa, qb, qc))
+    t = np.concatenate(quadratic_roots(qa, qb, qc))
     edge = np.concatenate([np.arange(len(xe))] * 2)
     keep = np.isfinite(t) & (t >= lo) & (t <= hi)
     t, edge = t[keep], edge[keep]
