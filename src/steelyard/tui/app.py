@@ -23,6 +23,7 @@ from steelyard.tui.flows.compare import CompareFlows
 from steelyard.tui.flows.edit import EditFlows
 from steelyard.tui.flows.file import FileFlows, groups_of
 from steelyard.tui.flows.journal import JournalFlows
+from steelyard.tui.flows.revision import RevisionFlows
 from steelyard.tui.screens.main_screen import MainScreen
 from steelyard.tui.messages import ExtrasReady, SubtotalsReady
 from steelyard.tui.state.session import Session
@@ -42,6 +43,7 @@ PALETTE = (
     ("Loadout", "choose the loadout, edit amounts", "loadout"),
     ("Compare…", "with another loadout, the saved ledger, a file or a snapshot", "compare"),
     ("Weighing form", "scale readings and tares → empty mass and CG", "weighing"),
+    ("Mass history", "mass, predicted mass and allocation at each commit (git)", "trend"),
     ("Switch units", "file units, SI, US customary", "units"),
     ("Show ledger", "the item table", "view:ledger"),
     ("Show totals", "mass, CG, inertia, principal axes", "view:totals"),
@@ -54,7 +56,7 @@ PALETTE = (
 )
 
 
-class SteelyardApp(FileFlows, EditFlows, JournalFlows, CompareFlows, App[int]):
+class SteelyardApp(RevisionFlows, FileFlows, EditFlows, JournalFlows, CompareFlows, App[int]):
     CSS_PATH = "app.tcss"
     TITLE = "steelyard"
     SUB_TITLE = "steelyard"

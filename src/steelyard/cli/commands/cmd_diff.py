@@ -2,9 +2,9 @@
 
 Exit codes follow diff(1): 0 no differences (one line says so), 1 different,
 2 bad input (one-line message). A side written `FILE:LOADOUT` is split at
-its last ':' only when FILE is a file and LOADOUT names one of its
-loadouts, so paths that contain ':' still work; `--a-loadout` and
-`--b-loadout` say it explicitly.
+its last ':' only when FILE is a file (or FILE@REV, a file as committed)
+and LOADOUT names one of its loadouts, so paths that contain ':' still
+work; `--a-loadout` and `--b-loadout` say it explicitly.
 """
 
 from __future__ import annotations
@@ -88,8 +88,10 @@ def split_side(spec: str, explicit: str | None, option: str, files: _Files) -> t
 
     if explicit is not None or ":" not in spec:
         return spec, explicit
+    from steelyard.io.vcs.revision import split_revision
+
     head, tail = spec.rsplit(":", 1)
-    if not head or not tail or not os.path.isfile(head):
+    if not head or not tail or not (os.path.isfile(head) or split_revision(head) is not None):  # FILE@REV:LOADOUT
         return spec, None
     names = [lo.name for lo in files.get(head).ledger.loadouts]
     if tail in names:

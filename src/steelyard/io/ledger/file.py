@@ -71,7 +71,15 @@ def read_bytes(path: str | os.PathLike) -> bytes:
 
 def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
                 fast: bool = True) -> LoadedLedger:
-    """Read and check a ledger file. On any error the file is marked never to be overwritten."""
+    """Read and check a ledger file. On any error the file is marked never to be overwritten.
+
+    FILE@REV reads the file as committed at a git revision (`io.vcs`); nothing is marked then.
+    """
+    from steelyard.io.vcs.ledger_at import open_spec  # here: io.vcs reads ledgers through this module
+
+    at = open_spec(path, progress=progress, fast=fast)
+    if at is not None:
+        return at
     source = str(path)
     try:
         data = read_bytes(path)
@@ -201,6 +209,11 @@ def rewriting(target: str | os.PathLike, *, source: str | os.PathLike | None = N
     waiting in a journal are refused. The lock is released on leaving.
     """
     target = str(target)
+    from steelyard.io.vcs.revision import names_revision
+
+    if names_revision(target):  # FILE@REV: a file as committed is read, never written back
+        raise SteelyardError("names a ledger as committed at a git revision (FILE@REV), which is never "
+                             "written back; write to another file", file=target)
     in_place = source is not None and same_file(source, target)
     if in_place:
         writable_check(target, force=force, what="pass --force to rewrite it anyway")

@@ -12,11 +12,12 @@ from dataclasses import dataclass
 from steelyard.core.display import AXIS_NAMES, fmt, pretty_unit
 from steelyard.core.physics.groups import UNGROUPED
 from steelyard.io.report.build import ITEM_ROWS, Chart, Report
+from steelyard.io.report.trend import trend_svg, trend_table, what_of
 
 
 @dataclass(frozen=True)
 class Block:
-    kind: str  # "h1" | "h2" | "p" | "caution" | "table" | "chart" | "list"
+    kind: str  # "h1" | "h2" | "p" | "caution" | "table" | "chart" | "list" | "svg" (HTML only, made safe)
     text: str = ""
     headers: tuple[str, ...] = ()
     rows: tuple[tuple[str, ...], ...] = ()
@@ -216,6 +217,21 @@ def _weighing(r: Report, u: _Units) -> list[Block]:
     return out
 
 
+def _trend(r: Report) -> list[Block]:
+    t = r.trend
+    if t is None:
+        return []
+    headers, rows, right = trend_table(t, r.units)
+    skipped = len(t.skipped)
+    note = (f"{len(t.points)} commit{'s' if len(t.points) != 1 else ''} changed the file ({what_of(t)}); "
+            "committed versions only, oldest first. Predicted = basic × (1 + growth allowance); "
+            "margin = allocation − predicted.")
+    if skipped:
+        note += f" {skipped} could not be read (the reason is beside each)."
+    return [Block("h2", "Mass history (git)"), Block("p", note), Block("svg", trend_svg(t, r.units)),
+            Block("table", headers=tuple(headers), rows=tuple(map(tuple, rows)), right=frozenset(right))]
+
+
 def _changes(r: Report) -> list[Block]:
     title = "Change log" + (f" since {r.since}" if r.since else "")
     if not r.changes:
@@ -230,4 +246,4 @@ def report_blocks(report: Report) -> list[Block]:
     u = _Units(report)
     return [*_intro(report, u), *_weight_statement(report, u), *_growth(report, u), *_loadouts(report, u),
             *_sequences(report, u), *_charts(report), *_weighing(report, u), *_items(report, u),
-            *_changes(report), Block("caution", report.caution)]
+            *_trend(report), *_changes(report), Block("caution", report.caution)]

@@ -3,8 +3,8 @@
 `build_report` collects the figures (weight statement by group, basic vs
 predicted, each chosen loadout against each envelope, the envelope charts as
 text, sequences, the change log since a baseline, a weighing if the ledger
-has one) into a `Report`; `report_html` and `report_md` only lay it out, so
-both formats always say the same thing. Numbers stay SI here; the renderers
+has one, its mass history when it is in git) into a `Report`; `report_html`
+and `report_md` only lay it out, so both formats always say the same thing. Numbers stay SI here; the renderers
 convert with the report's display units.
 """
 
@@ -29,6 +29,7 @@ from steelyard.io.report.chart import MARKS, text_chart
 from steelyard.io.report.text import clean
 from steelyard.io.report.control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth, uncertainty_region
 from steelyard.io.report.weighing import weigh_ledger, weighing_record
+from steelyard.io.report.trend import trend_section
 
 #: items listed one by one up to this many; past it the report says how many it left out
 ITEM_ROWS = 2000
@@ -79,6 +80,7 @@ class Report:
     caution: str = CAUTION
     items_left_out: int = 0
     fractions: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    trend: object | None = None  # core.history.trend.Trend: the ledger's history in git, if it has one
 
 
 def parse_time(text: str, *, what: str = "--since") -> dt.datetime:
@@ -224,4 +226,5 @@ def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], sys
                   changes=changes_since(ledger, since),
                   since=None if since is None else since.strftime("%Y-%m-%d %H:%M UTC"), weighing=weighing,
                   items_left_out=max(0, len(ledger.items) - ITEM_ROWS),
-                  fractions=growth_fractions(ledger) if has_growth(ledger) else np.zeros(len(ledger.items)))
+                  fractions=growth_fractions(ledger) if has_growth(ledger) else np.zeros(len(ledger.items)),
+                  trend=trend_section(source))

@@ -60,6 +60,8 @@ def render_html(report: Report, svgs: dict[str, str] | None = None) -> str:
             parts.append(_table(b))
         elif b.kind == "chart":
             parts.append(_chart(b, svgs))
+        elif b.kind == "svg" and b.text:  # drawn by the report itself, its text escaped there
+            parts.append(f"<figure>\n{b.text}\n</figure>")
         elif b.kind == "list":
             parts.append("<ul>" + "".join(f"<li>{escape(t)}</li>" for t in b.items) + "</ul>")
     title = escape(f"Mass-properties report: {report.source}")

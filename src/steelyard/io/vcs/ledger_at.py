@@ -1,0 +1,143 @@
+"""Ledgers as committed: `FILE@REV` opened like a file, and a file's versions across its history.
+
+Both read git's bytes with the same strict reader as a file on disk
+(`io.ledger`), so a committed ledger says exactly what it would say checked
+out. A `RevisionLedger` is a `LoadedLedger` whose `path` is FILE@REV as
+typed: every message names it, and nothing is ever written back to it (the
+working file is not touched, not even marked).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+import os
+import time
+from collections.abc import Iterator
+from dataclasses import dataclass
+
+from steelyard.core.document.model import Ledger
+from steelyard.core.errors import FormatError, SteelyardError
+from steelyard.core.history.trend import Trend, Version, trend
+from steelyard.io.ledger.file import LoadedLedger, has_comments
+from steelyard.io.ledger.read import Progress, ledger_from_data
+from steelyard.io.ledger.toml_read import decode, parse_toml
+from steelyard.io.vcs.history import BlobBatch, Commit, commits_touching
+from steelyard.io.vcs.revision import Revision, repository_of, revision_of
+
+#: hex digits of a commit hash in labels ("ledger.toml@3f2a9c01d4")
+SHORT = 10
+
+
+@dataclass(frozen=True)
+class RevisionLedger(LoadedLedger):
+    """A ledger read at a revision; `revision` says which (and reads other files at the same commit)."""
+
+    revision: Revision | None = None
+
+
+def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = None,
+                      fast: bool = True) -> tuple[Ledger, str]:
+    """(ledger, text) of a ledger file's bytes, checked as strictly as a file on disk."""
+    try:
+        if not data.strip():
+            raise FormatError("empty file (a ledger starts with 'steelyard = 1')", file=source)
+        text = decode(data, source=source)
+        if progress is not None:
+            progress("parsing", 0.0)
+        parsed = parse_toml(text, source=source, fast=fast)
+        return ledger_from_data(parsed, source=source, progress=progress), text
+    except (RecursionError, MemoryError):
+        raise FormatError("too deeply nested or too large to read", file=source) from None
+
+
+def open_at(revision: Revision, *, progress: Progress | None = None, fast: bool = True) -> RevisionLedger:
+    """Read and check the ledger `revision` names."""
+    data = revision.read()
+    ledger, text = ledger_from_bytes(data, source=revision.spec, progress=progress, fast=fast)
+    return RevisionLedger(ledger, revision.spec, hashlib.sha256(data).hexdigest(), has_comments(text),
+                          time.time(), revision=revision)
+
+
+def open_spec(text: str | os.PathLike, *, progress: Progress | None = None,
+              fast: bool = True) -> RevisionLedger | None:
+    """The ledger FILE@REV names, or None when `text` is a plain path (the hook in `open_ledger`)."""
+    revision = revision_of(text)
+    return None if revision is None else open_at(revision, progress=progress, fast=fast)
+
+
+@dataclass(frozen=True)
+class FileHistory:
+    """Where a file's history comes from: repository, the file's name in it, the newest commit looked at."""
+
+    spec: str
+    path: str
+    root: str
+    name: str
+    start: str  # "HEAD", or the commit FILE@REV named
+
+
+def file_history(text: str) -> FileHistory:
+    """The history to follow for FILE (up to HEAD) or FILE@REV (up to that commit)."""
+    revision = revision_of(text)
+    if revision is not None:
+        return FileHistory(text, revision.path, revision.root, revision.name, revision.commit)
+    if not os.path.isfile(text) and os.path.lexists(text):
+        raise SteelyardError("is not a file", file=text)
+    root, name = repository_of(text, spec=text)
+    return FileHistory(text, text, root, name, "HEAD")
+
+
+def committed(commit: Commit) -> dt.datetime | None:
+    try:
+        return dt.datetime.fromisoformat(commit.date)
+    except ValueError:
+        return None
+
+
+def commits_of(history: FileHistory, *, since: dt.datetime | None = None,
+               until: dt.datetime | None = None) -> list[Commit]:
+    """Commits that changed the file, oldest first, committed in [since, until) (aware times)."""
+    out = []
+    for c in commits_touching(history.root, [history.name], start=history.start, file=history.spec):
+        when = committed(c)
+        if when is not None and ((since is not None and when < since) or (until is not None and when >= until)):
+            continue
+        out.append(c)
+    return out
+
+
+def versions(history: FileHistory, commits: list[Commit]) -> Iterator[Version]:
+    """The file at each commit, read through one `git cat-file --batch`; keys are blob hashes.
+
+    Each version's `load` parses its bytes (the trend calls it once per blob);
+    a commit that deleted the file has a version whose `load` says so.
+    """
+    batch = BlobBatch(history.root, file=history.spec)
+    for commit, blob in zip(commits, batch.read([f"{c.rev}:{history.name}" for c in commits])):
+        label = f"{history.path}@{commit.rev[:SHORT]}"
+        if blob.data is None:
+            why = (f"no file {history.name!r} in this commit (deleted or moved)" if blob.missing == "missing"
+                   else f"{history.name!r} is {blob.missing}")
+            yield Version(commit.rev, commit.date, commit.subject, None, _failing(label, why))
+        else:
+            yield Version(commit.rev, commit.date, commit.subject, blob.oid, _reader(blob.data, label))
+
+
+def _failing(label: str, why: str):
+    def load() -> Ledger:
+        raise SteelyardError(why, file=label)
+    return load
+
+
+def _reader(data: bytes, label: str):
+    def load() -> Ledger:
+        return ledger_from_bytes(data, source=label)[0]
+    return load
+
+
+def trend_of(text: str, *, loadout: str | None = None, group: str = "", since: dt.datetime | None = None,
+             until: dt.datetime | None = None) -> Trend:
+    """The mass history of FILE (or FILE@REV): one git log, one cat-file, each blob read once."""
+    history = file_history(text)
+    return trend(versions(history, commits_of(history, since=since, until=until)), loadout=loadout, group=group)
