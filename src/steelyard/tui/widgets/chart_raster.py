@@ -10,6 +10,8 @@ import math
 
 import numpy as np
 
+from steelyard.io.report.chart import ticks
+
 # braille bit of the dot at (row 0..3, column 0..1) of a cell
 _BITS = np.array([[0x01, 0x08], [0x02, 0x10], [0x04, 0x20], [0x40, 0x80]], dtype=np.uint32)
 _MAX_SAMPLES = 400_000  # cap on rasterised dots per line set, whatever the path length
@@ -42,16 +44,11 @@ def finite_point(p) -> tuple[float, float] | None:
 
 
 def nice_ticks(lo: float, hi: float, count: int) -> tuple[list[float], int]:
-    """About `count` round tick values (steps of 1, 2 or 5 × 10^k) in [lo, hi], and decimals."""
-    span = hi - lo
-    if not (span > 0) or count < 1:
+    """About `count` round tick values (steps of 1, 2 or 5 × 10^k) in [lo, hi], and decimals;
+    none on an empty range (the report's `ticks` shows `lo` there instead)."""
+    if not (hi - lo > 0) or count < 1:
         return [], 0
-    raw = span / count
-    mag = 10.0 ** math.floor(math.log10(raw))
-    step = next(m * mag for m in (1, 2, 5, 10) if m * mag >= raw * (1 - 1e-9))
-    first = math.ceil(lo / step - 1e-9)
-    ticks = [k * step for k in range(first, math.floor(hi / step + 1e-9) + 1)]
-    return ticks, max(0, -math.floor(math.log10(step) + 1e-9))
+    return ticks(lo, hi, count)
 
 
 def fmt_tick(v: float, decimals: int) -> str:
