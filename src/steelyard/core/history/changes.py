@@ -217,19 +217,19 @@ class History:
 
     def undo(self) -> Change | None:
         """Go back one change; returns it, or None when there is nothing of this session to undo."""
-        if not self._done:
-            return None
-        change, previous = self._done.pop()
-        self._undone.append((change, self._ledger))
-        self._ledger = previous
-        return change
+        return self._step(self._done, self._undone)
 
     def redo(self) -> Change | None:
-        if not self._undone:
+        return self._step(self._undone, self._done)
+
+    def _step(self, source: list, target: list) -> Change | None:
+        """Move the last change from one stack to the other, taking the ledger it keeps (undo and redo
+        are the same move in opposite directions)."""
+        if not source:
             return None
-        change, following = self._undone.pop()
-        self._done.append((change, self._ledger))
-        self._ledger = following
+        change, ledger = source.pop()
+        target.append((change, self._ledger))
+        self._ledger = ledger
         return change
 
 

@@ -121,19 +121,18 @@ class EditFlows:
 
     def action_undo(self) -> None:
         if self._may_edit():
-            change = self.session.undo()
-            self._journal_warning()
-            self.notify("nothing to undo" if change is None else f"undid: {change.summary}", markup=False,
-                        timeout=3)
-            self.refresh_views(focus_item=None if change is None else change.item)
+            self._stepped(self.session.undo(), "undo", "undid")
 
     def action_redo(self) -> None:
         if self._may_edit():
-            change = self.session.redo()
-            self._journal_warning()
-            self.notify("nothing to redo" if change is None else f"redid: {change.summary}", markup=False,
-                        timeout=3)
-            self.refresh_views(focus_item=None if change is None else change.item)
+            self._stepped(self.session.redo(), "redo", "redid")
+
+    def _stepped(self, change, verb: str, past: str) -> None:
+        """Tell what an undo or redo did (or that there was nothing to do) and show the item it touched."""
+        self._journal_warning()
+        self.notify(f"nothing to {verb}" if change is None else f"{past}: {change.summary}", markup=False,
+                    timeout=3)
+        self.refresh_views(focus_item=None if change is None else change.item)
 
     # ------------------------------------------------------ loadouts, units
     def action_loadout(self) -> None:

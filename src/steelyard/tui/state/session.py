@@ -14,6 +14,8 @@ from __future__ import annotations
 
 import hashlib
 import os
+from collections.abc import Callable
+
 from steelyard.core.history.changes import Change, Effect, History, ledger_with_log, log_from_ledger, utc_stamp
 from steelyard.core.display import DisplayUnits
 from steelyard.core.errors import SteelyardError
@@ -189,21 +191,20 @@ class Session:
         return out
 
     def undo(self) -> Change | None:
-        self.check_writable()
-        self.flush()
-        before = self.history.ledger
-        change = self.history.undo()
-        if change is not None:
-            self._journal(before, self.history.ledger, self._change("undo", change.item, f"undo: {change.summary}"))
-        return change
+        return self._step(self.history.undo, "undo")
 
     def redo(self) -> Change | None:
+        return self._step(self.history.redo, "redo")
+
+    def _step(self, step: Callable[[], Change | None], action: str) -> Change | None:
+        """Undo or redo one change (`step`), journaled like any edit under `action`."""
         self.check_writable()
         self.flush()
         before = self.history.ledger
-        change = self.history.redo()
+        change = step()
         if change is not None:
-            self._journal(before, self.history.ledger, self._change("redo", change.item, f"redo: {change.summary}"))
+            self._journal(before, self.history.ledger,
+                          self._change(action, change.item, f"{action}: {change.summary}"))
         return change
 
     def _known_effect(self, old: Ledger, new: Ledger, loadout: str | None) -> Effect | None:
