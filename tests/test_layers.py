@@ -44,7 +44,11 @@ def _terminal_modules(pkg: str) -> tuple[int, list[str]]:
 
 @pytest.mark.parametrize("pkg", ["core", "io"])
 def test_core_and_io_do_not_import_textual_or_rich(pkg):
+    """Neither imports Textual; rich only in io.report (reports and the trend chart are rich text),
+    which the per-subpackage tests below hold to that."""
     _count, bad = _terminal_modules(pkg)
+    if pkg == "io":
+        bad = [n for n in bad if n.split(".")[0] != "rich"]
     assert bad == []
 
 

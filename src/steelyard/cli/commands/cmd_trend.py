@@ -56,7 +56,7 @@ def run(args) -> int:
     from steelyard.core.display import DisplayUnits
     from steelyard.core.document.model import FileUnits
     from steelyard.io.vcs.ledger_at import trend_of
-    from steelyard.cli.render.trend import print_trend, trend_record
+    from steelyard.io.report.trend_text import print_trend, trend_record
 
     since, until = _times(args)
     group = (args.group or "").strip("/")

@@ -1,7 +1,9 @@
-"""The chart's raster arithmetic: ticks, dots along lines, braille cells, shaded regions.
+"""Braille chart raster arithmetic: ticks, dots along lines, braille cells, shaded regions.
 
 Pure numpy on numbers already in display units and dot coordinates (2 x 4
-dots per terminal cell); `chart.EnvelopeChart` turns the result into Strips.
+dots per terminal cell). Shared by the editor's envelope chart
+(tui.widgets.chart turns the result into Strips) and the terminal trend chart
+(io.report.trend_text), so it lives below both.
 """
 
 from __future__ import annotations

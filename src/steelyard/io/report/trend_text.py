@@ -1,6 +1,6 @@
 """`steelyard trend` on a terminal: the history table, a braille chart, and the --json record.
 
-The chart reuses the editor's raster arithmetic (`tui.widgets.chart_raster`:
+The chart reuses the editor's raster arithmetic (`io.report.raster`:
 pure numpy, no Textual) for dots along lines and braille cells. Basic mass
 is a solid line, predicted mass a dashed one, the allocation a step line
 (a budget holds until a commit changes it); where lines share a cell, the
@@ -18,7 +18,7 @@ from rich.text import Text
 from steelyard.core.display import DisplayUnits, pretty_unit, visible
 from steelyard.core.history.trend import Trend
 from steelyard.io.report.trend import COLOURS, date_ticks, series, trend_table, what_of
-from steelyard.tui.widgets.chart_raster import braille, fmt_tick, line_dots, nice_ticks
+from steelyard.io.report.raster import braille, fmt_tick, line_dots, nice_ticks
 
 
 def trend_record(trend: Trend) -> dict:

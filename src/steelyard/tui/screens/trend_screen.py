@@ -15,7 +15,7 @@ from textual.containers import VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
-from steelyard.cli.render.trend import trend_renderables
+from steelyard.io.report.trend_text import trend_renderables
 from steelyard.core.display import DisplayUnits
 from steelyard.core.document.model import FileUnits
 from steelyard.core.errors import SteelyardError

@@ -24,7 +24,7 @@ from textual.events import Resize
 from textual.strip import Strip
 from textual.widget import Widget
 
-from steelyard.tui.widgets.chart_raster import (braille, cells_covered, clean_label, finite_point, finite_rows, fmt_tick,
+from steelyard.io.report.raster import (braille, cells_covered, clean_label, finite_point, finite_rows, fmt_tick,
                            line_dots, nice_ticks)
 
 POINT, OTHER, WORST, REGION = "●", "○", "✖", "░"
