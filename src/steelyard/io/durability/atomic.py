@@ -97,7 +97,12 @@ def check_output(path: str | os.PathLike, *, inputs=(), force: bool = False,
     if not stat.S_ISREG(st.st_mode):
         raise SteelyardError("is not a regular file; refusing to replace it", file=name)
     for source in inputs:
-        if source is not None and same_file(path, source):
+        if source is None:
+            continue
+        from steelyard.io.vcs.revision import split_revision
+
+        at = split_revision(source)  # FILE@REV: its working copy is the ledger too
+        if same_file(path, source) or (at is not None and same_file(path, at[0])):
             raise SteelyardError("is an input of this command (the ledger); write elsewhere", file=name)
     if not force:
         writable_check(path, force=False, what=hint)
