@@ -59,32 +59,34 @@ def full_data(chart: EnvelopeChart, path_points: int = 500) -> np.ndarray:
     return path
 
 
-async def test_legend_words_and_distinct_marks_on_screen():
-    async with hosted_chart((100, 30)) as (chart, pilot):
-        full_data(chart)
+async def full_chart_lines(size: tuple[int, int], path_points: int = 500) -> list[str]:
+    """What the chart paints in a terminal of `size` with `full_data` on it."""
+    async with hosted_chart(size) as (chart, pilot):
+        full_data(chart, path_points)
         await pilot.pause()
-        lines = screen_lines(chart)
-        text = "\n".join(lines)
-        for words in ("envelope", "path", "this loadout", "other loadouts", "least margin",
-                      "ferry", "max-range"):
-            assert words in text
-        # each mark is its own glyph: one current point, two others, one worst step,
-        # plus one sample of each in the legend
-        assert len(find(lines, POINT)) == 2
-        assert len(find(lines, OTHER)) == 3
-        assert len(find(lines, WORST)) == 2
-        assert len({POINT, OTHER, WORST}) == 3
+        return screen_lines(chart)
+
+
+async def test_legend_words_and_distinct_marks_on_screen():
+    lines = await full_chart_lines((100, 30))
+    text = "\n".join(lines)
+    for words in ("envelope", "path", "this loadout", "other loadouts", "least margin",
+                  "ferry", "max-range"):
+        assert words in text
+    # each mark is its own glyph: one current point, two others, one worst step,
+    # plus one sample of each in the legend
+    assert len(find(lines, POINT)) == 2
+    assert len(find(lines, OTHER)) == 3
+    assert len(find(lines, WORST)) == 2
+    assert len({POINT, OTHER, WORST}) == 3
 
 
 async def test_axis_ticks_and_labels_with_units():
-    async with hosted_chart((100, 30)) as (chart, pilot):
-        full_data(chart)
-        await pilot.pause()
-        text = "\n".join(screen_lines(chart))
-        assert "CG station (mm)" in text and "mass (kg)" in text
-        # round ticks across 2700..3200 mm and 300..650 kg (steps of 1, 2 or 5 x 10^k: common practice)
-        assert "3000" in text and "2800" in text
-        assert "400" in text and "600" in text
+    text = "\n".join(await full_chart_lines((100, 30)))
+    assert "CG station (mm)" in text and "mass (kg)" in text
+    # round ticks across 2700..3200 mm and 300..650 kg (steps of 1, 2 or 5 x 10^k: common practice)
+    assert "3000" in text and "2800" in text
+    assert "400" in text and "600" in text
 
 
 def _marker_boxed(lines: list[str], r: int, c: int) -> bool:
@@ -137,22 +139,15 @@ async def test_worst_step_marks_the_given_path_state():
 
 @pytest.mark.parametrize("size", [(36, 12), (24, 8), (12, 4), (6, 2), (1, 1), (2, 30), (200, 3)])
 async def test_small_sizes_do_not_crash(size):
-    async with hosted_chart(size) as (chart, pilot):
-        full_data(chart, 10_000)
-        await pilot.pause()
-        lines = screen_lines(chart)
-        assert all(len(line) <= max(size[0], 1) for line in lines)
+    lines = await full_chart_lines(size, 10_000)
+    assert all(len(line) <= max(size[0], 1) for line in lines)
 
 
 async def test_36_by_12_still_shows_chart_and_legend():
-    async with hosted_chart((36, 12)) as (chart, pilot):
-        full_data(chart)
-        await pilot.pause()
-        lines = screen_lines(chart)
-        text = "\n".join(lines)
-        for words in ("envelope", "path", "loadout", "other loadouts", "least margin"):
-            assert words in text
-        assert any(is_dot(ch) for ch in text)
+    text = "\n".join(await full_chart_lines((36, 12)))
+    for words in ("envelope", "path", "loadout", "other loadouts", "least margin"):
+        assert words in text
+    assert any(is_dot(ch) for ch in text)
 
 
 @pytest.mark.parametrize("polygon", [
