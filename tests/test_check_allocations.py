@@ -16,7 +16,8 @@ from pathlib import Path
 
 import pytest
 
-from steelyard.cli.main import main
+from support.cli import run_main
+from support.ledgers import write_ledger
 
 ROOT = Path(__file__).resolve().parents[1]
 OVER = ROOT / "fixtures" / "trainer-overweight.toml"
@@ -64,19 +65,11 @@ GROWTH = {"layout": F(15, 100), "estimated": F(25, 100)}  # docs/control.md defa
 
 
 def _check(capsys, path, *more):
-    code = main(["check", str(path), *more])
-    out = capsys.readouterr()
-    return code, out.out, out.err
-
-
-def _write(tmp_path, text, name="a.toml"):
-    p = tmp_path / name
-    p.write_text(text, encoding="utf-8")
-    return p
+    return run_main(capsys, "check", path, *more)
 
 
 def test_group_over_its_allocation_breaks_the_check(tmp_path, capsys):
-    path = _write(tmp_path, AVIONICS)
+    path = write_ledger(tmp_path, AVIONICS)
     code, out, err = _check(capsys, path, "--json")
     assert code == 1, err  # exit 1: a limit is broken (DESIGN.md exit codes)
     rec = json.loads(out)
@@ -98,7 +91,7 @@ def test_group_over_its_allocation_breaks_the_check(tmp_path, capsys):
 
 def test_basic_under_but_predicted_over_is_broken(tmp_path, capsys):
     # basic 4.5 kg < 4.747 kg < predicted 5.13 kg: the budget is judged on predicted mass (S-120A practice)
-    path = _write(tmp_path, AVIONICS)
+    path = write_ledger(tmp_path, AVIONICS)
     code, out, _ = _check(capsys, path)
     assert code == 1
     assert "LIMITS BROKEN: 1 of 1 checks (allocation avionics)" in " ".join(out.split())
@@ -119,14 +112,14 @@ growth = 0.25
 group = "payload"
 mass = 2.5
 """
-    code, out, _ = _check(capsys, _write(tmp_path, text), "--json")
+    code, out, _ = _check(capsys, write_ledger(tmp_path, text), "--json")
     assert code == 0
     (a,) = json.loads(out)["allocations"]
     assert a["predicted_kg"] == 2.5 and a["margin_kg"] == 0.0 and a["ok"] is True  # 2 × (1 + 1/4), exact
 
 
 def test_no_loadouts_is_not_counted_as_one(tmp_path, capsys):
-    code, out, _ = _check(capsys, _write(tmp_path, AVIONICS))
+    code, out, _ = _check(capsys, write_ledger(tmp_path, AVIONICS))
     head = " ".join(out.split()).split("Loadouts (and")[0]  # the heading, however the terminal wrapped it
     assert "1 loadout" not in head and "no loadouts" in head
 
@@ -159,7 +152,7 @@ fuel = 1.0
 group = ""
 mass = 70.0
 """
-    path = _write(tmp_path, text)
+    path = write_ledger(tmp_path, text)
     code, out, _ = _check(capsys, path, "--json")
     assert code == 1
     (a,) = json.loads(out)["allocations"]
@@ -188,7 +181,7 @@ maturity = "layout"
 group = "hydraulics"
 mass = "3 kg"
 """
-    code, out, _ = _check(capsys, _write(tmp_path, text), "--json")
+    code, out, _ = _check(capsys, write_ledger(tmp_path, text), "--json")
     (a,) = json.loads(out)["allocations"]
     predicted = 6 * (1 + GROWTH["layout"]) * LB
     assert a["predicted_kg"] == pytest.approx(float(predicted), rel=1e-14)
@@ -197,7 +190,7 @@ mass = "3 kg"
 
 
 def test_bad_allocation_is_one_line_exit_2(tmp_path, capsys):
-    code, out, err = _check(capsys, _write(tmp_path, AVIONICS.replace("mass = 4.747", 'mass = "4 m"')))
+    code, out, err = _check(capsys, write_ledger(tmp_path, AVIONICS.replace("mass = 4.747", 'mass = "4 m"')))
     assert code == 2 and out == ""
     lines = err.strip().splitlines()
     assert len(lines) == 1 and "allocation 'avionics'" in lines[0] and "mass" in lines[0]

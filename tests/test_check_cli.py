@@ -11,8 +11,6 @@ from __future__ import annotations
 
 import hashlib
 import json
-import subprocess
-import sys
 import tomllib
 from fractions import Fraction as F
 from pathlib import Path
@@ -20,6 +18,7 @@ from pathlib import Path
 import pytest
 
 from steelyard.core.caution import CAUTION
+from support.cli import process_one_line_error, run_process
 
 ROOT = Path(__file__).resolve().parents[1]
 TRAINER = ROOT / "fixtures" / "trainer.toml"
@@ -27,25 +26,12 @@ OVER = ROOT / "fixtures" / "trainer-overweight.toml"
 LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact
 
 
-def run(*args):
-    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True)
-
-
-def one_line_error(out, *parts):
-    assert out.returncode == 2, (out.returncode, out.stdout[-500:], out.stderr)
-    lines = out.stderr.strip().splitlines()
-    assert len(lines) == 1 and "Traceback" not in out.stderr, out.stderr
-    for p in parts:
-        assert p in lines[0], (p, lines[0])
-    return lines[0]
-
-
 # --------------------------------------------------------------------------- exit codes
 
 
 def test_trainer_passes_every_loadout_and_sequence():
     before = hashlib.sha256(TRAINER.read_bytes()).hexdigest()
-    out = run("check", TRAINER, "--all")
+    out = run_process("check", TRAINER, "--all")
     assert out.returncode == 0, out.stdout + out.stderr
     assert "All limits met" in out.stdout and "%MAC" in out.stdout and "trip-to-landing" in out.stdout
     # the caution (DESIGN.md safety wording) comes under the tables, as the last thing printed
@@ -56,13 +42,13 @@ def test_trainer_passes_every_loadout_and_sequence():
 
 
 def test_overweight_file_fails_with_exit_1_and_names_what_broke():
-    out = run("check", OVER)
+    out = run_process("check", OVER)
     assert out.returncode == 1, out.stderr
     assert "LIMITS BROKEN" in out.stdout
     for words in ("ferry: max-takeoff-mass", "heavy-cabin (zero fuel): max-zero-fuel-mass", "nose-heavy: normal",
                   "forward-tank-first: normal"):
         assert words in " ".join(out.stdout.split()), words
-    rec = json.loads(run("check", OVER, "--json").stdout)
+    rec = json.loads(run_process("check", OVER, "--json").stdout)
     broken = {(s["name"], f["name"]) for s in rec["states"] + rec["sequences"] for f in s["findings"]
               if f["applies"] and not f["ok"]}
     assert broken == {("ferry", "normal"), ("ferry", "max-takeoff-mass"),
@@ -72,21 +58,21 @@ def test_overweight_file_fails_with_exit_1_and_names_what_broke():
 
 
 def test_one_loadout_at_a_time_as_ci_would():
-    assert run("check", OVER, "--loadout", "within-limits").returncode == 0
+    assert run_process("check", OVER, "--loadout", "within-limits").returncode == 0
     # aft-loaded is inside as loaded, but the sequence that starts from it leaves the envelope
-    out = run("check", OVER, "--loadout", "aft-loaded", "--json")
+    out = run_process("check", OVER, "--loadout", "aft-loaded", "--json")
     assert out.returncode == 1
     rec = json.loads(out.stdout)
     assert [s["name"] for s in rec["states"]] == ["aft-loaded", "aft-loaded (zero fuel)"]
     assert all(s["ok"] for s in rec["states"]) and rec["sequences"][0]["ok"] is False
     f = rec["sequences"][0]["findings"][0]
     assert (f["first_broken_step"], f["last_broken_step"], f["step"]) == (2, 3, 2)
-    one_line_error(run("check", OVER, "--loadout", "nope"), str(OVER), "--loadout", "nope")
-    assert run("check", OVER, "--loadout", "ferry", "--all").returncode == 2
+    process_one_line_error(run_process("check", OVER, "--loadout", "nope"), str(OVER), "--loadout", "nope")
+    assert run_process("check", OVER, "--loadout", "ferry", "--all").returncode == 2
 
 
 def test_json_record_is_si_and_matches_the_exact_roll_up():
-    rec = json.loads(run("check", TRAINER, "--json").stdout)
+    rec = json.loads(run_process("check", TRAINER, "--json").stdout)
     data = tomllib.loads(TRAINER.read_text())
     assert rec["mac"] == {"lemac_m": pytest.approx(float(114 * IN)), "length_m": pytest.approx(float(60 * IN))}
     s = next(x for x in rec["states"] if x["name"] == "solo-training")
@@ -134,8 +120,8 @@ def broken(tmp_path, old: str, new: str) -> Path:
 ])
 def test_bad_input_exit_2_one_line(tmp_path, old, new, parts):
     p = broken(tmp_path, old, new)
-    line = one_line_error(run("check", p), str(p), *parts)
-    assert run("check", p, "--json").stdout == ""  # nothing half-printed on stdout
+    line = process_one_line_error(run_process("check", p), str(p), *parts)
+    assert run_process("check", p, "--json").stdout == ""  # nothing half-printed on stdout
     assert len(line) < 300
 
 
@@ -159,7 +145,7 @@ def ledger_file(tmp_path, w, x, extra="") -> Path:
 
 
 def solve(*args):
-    out = run("solve", *args, "--json")
+    out = run_process("solve", *args, "--json")
     assert out.returncode == 0, out.stderr
     return json.loads(out.stdout)
 
@@ -190,13 +176,13 @@ cg = [-30.0, 0.0, 0.0]
 ''')
     w = F(645) + F(635) + F("222.5")
     x = (F(645) * 70 + F(635) * 70 + F("222.5") * -30) / w
-    rec = json.loads(run("check", p, "--json").stdout)
+    rec = json.loads(run_process("check", p, "--json").stdout)
     s = rec["states"][0]
     assert s["mass_kg"] == pytest.approx(float(w * LB), rel=1e-14)
     assert s["cg_m"][0] == pytest.approx(float(x * IN), rel=1e-13)
     # FAA-H-8083-1 %MAC with an invented LEMAC 40 in and MAC 58 in
     assert s["cg_percent_mac"] == pytest.approx(float((x - 40) / 58 * 100), rel=1e-12)
-    assert run("check", p).returncode == 0  # no limits at all: nothing broken
+    assert run_process("check", p).returncode == 0  # no limits at all: nothing broken
 
 
 def test_weight_shift_handbook_example(tmp_path):
@@ -211,7 +197,7 @@ def test_weight_shift_handbook_example(tmp_path):
     p = ledger_file(tmp_path, 7800.0, 81.5, env)
     rec = solve("shift", p, "--from", "150 in", "--to", "30 in", "--envelope", "n")
     assert rec["moved_kg"] == pytest.approx(float(65 * LB), rel=1e-12)
-    out = run("solve", "shift", p, "--from", 150, "--to", 30, "--envelope", "n")
+    out = run_process("solve", "shift", p, "--from", 150, "--to", 30, "--envelope", "n")
     assert "65.00 lb" in out.stdout and CAUTION in out.stdout
 
 
@@ -251,7 +237,7 @@ def test_ballast_at_a_ballast_item_fixes_the_nose_heavy_loadout():
     rec = solve("ballast", OVER, "--loadout", "nose-heavy", "--item", "tail-ballast")
     assert rec["answers"][0]["ballast_kg"] == pytest.approx(float(expect * LB), rel=1e-9)
     assert rec["item_room_kg"] == pytest.approx(float(30 * LB), rel=1e-14)
-    assert run("check", OVER, "--loadout", "nose-heavy").returncode == 1
+    assert run_process("check", OVER, "--loadout", "nose-heavy").returncode == 1
 
 
 def test_payload_remaining_stops_at_the_first_limit():
@@ -274,19 +260,19 @@ def test_payload_remaining_stops_at_the_first_limit():
 
 def test_solve_bad_input_is_one_line(tmp_path):
     p = ledger_file(tmp_path, 4954.0, 30.5)
-    one_line_error(run("solve", "ballast", p, "--station", 32.0, "--limit", 32.0), str(p), "limit station")
-    one_line_error(run("solve", "ballast", p, "--station", "162 blorps", "--limit", 32.0), "--station")
-    one_line_error(run("solve", "shift", p, "--from", 1, "--to", 2, "--envelope", "nope"), "--envelope", "nope")
-    one_line_error(run("solve", "add", p, "--mass", 1, "--station", "25 %mac"), "--station", "%MAC")
-    one_line_error(run("solve", "payload", TRAINER, "--item", "ghost"), "--item", "ghost")
-    one_line_error(run("solve"), "MODE")
+    process_one_line_error(run_process("solve", "ballast", p, "--station", 32.0, "--limit", 32.0), str(p), "limit station")
+    process_one_line_error(run_process("solve", "ballast", p, "--station", "162 blorps", "--limit", 32.0), "--station")
+    process_one_line_error(run_process("solve", "shift", p, "--from", 1, "--to", 2, "--envelope", "nope"), "--envelope", "nope")
+    process_one_line_error(run_process("solve", "add", p, "--mass", 1, "--station", "25 %mac"), "--station", "%MAC")
+    process_one_line_error(run_process("solve", "payload", TRAINER, "--item", "ghost"), "--item", "ghost")
+    process_one_line_error(run_process("solve"), "MODE")
 
 
 # --------------------------------------------------------------------------- rollup additions
 
 
 def test_rollup_shows_percent_mac_and_both_margins():
-    out = run("rollup", TRAINER, "--loadout", "takeoff")
+    out = run_process("rollup", TRAINER, "--loadout", "takeoff")
     assert out.returncode == 0
     text = out.stdout
     assert "CG x [%MAC]" in text and "fwd [in]" in text and "aft [in]" in text
@@ -302,10 +288,10 @@ def test_names_with_terminal_escapes_are_shown_not_obeyed(tmp_path):
         'name = "normal"', 'name = "normal\\u001b]0;x\\u0007"')
     p = tmp_path / "esc.toml"
     p.write_text(text)
-    out = run("check", p)
+    out = run_process("check", p)
     assert out.returncode == 1
     assert "\x1b" not in out.stdout and "\x07" not in out.stdout and "ferry␛[2J" in out.stdout
-    out = run("solve", "ballast", p, "--loadout", "nose-heavy", "--item", "tail-ballast")
+    out = run_process("solve", "ballast", p, "--loadout", "nose-heavy", "--item", "tail-ballast")
     assert out.returncode == 0 and "\x1b" not in out.stdout
-    out = run("rollup", p, "--loadout", "ferry\x1b[2J")
+    out = run_process("rollup", p, "--loadout", "ferry\x1b[2J")
     assert out.returncode == 0 and "\x1b" not in out.stdout.split("CG envelopes")[1]

@@ -7,13 +7,13 @@ exact factors 1 lb = 0.45359237 kg and 1 in = 0.0254 m.
 
 import hashlib
 import json
-import subprocess
-import sys
 import tomllib
 from fractions import Fraction as F
 from pathlib import Path
 
 import pytest
+
+from support.cli import process_one_line_error, run_process
 
 ROOT = Path(__file__).resolve().parents[1]
 BAD = ROOT / "fixtures" / "bad"
@@ -56,47 +56,33 @@ CASES = [
 ]
 
 
-def run(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True,
-                          cwd=cwd)
-
-
 def digest(p: Path) -> str:
     return hashlib.sha256(p.read_bytes()).hexdigest()
-
-
-def assert_one_line_error(out, *parts):
-    assert out.returncode == 2, out.stderr
-    lines = out.stderr.strip().splitlines()
-    assert len(lines) == 1, out.stderr
-    assert "Traceback" not in out.stderr
-    for part in parts:
-        assert part in lines[0], (part, lines[0])
 
 
 @pytest.mark.parametrize("name,subject,field", CASES, ids=[c[0] for c in CASES])
 def test_bad_input_exit_2_one_line_file_unchanged(name, subject, field):
     path = BAD / name
     before = digest(path)
-    out = run("rollup", path, "--json")
+    out = run_process("rollup", path, "--json")
     assert out.stdout == ""
-    assert_one_line_error(out, str(path), *(p for p in (subject, field) if p))
+    process_one_line_error(out, str(path), *(p for p in (subject, field) if p))
     assert digest(path) == before
 
 
 def test_missing_file_and_directory(tmp_path):
-    assert_one_line_error(run("rollup", tmp_path / "nope.toml"), "nope.toml", "no such file")
-    assert_one_line_error(run("rollup", tmp_path), str(tmp_path), "directory")
+    process_one_line_error(run_process("rollup", tmp_path / "nope.toml"), "nope.toml", "no such file")
+    process_one_line_error(run_process("rollup", tmp_path), str(tmp_path), "directory")
 
 
 def test_unknown_loadout_option():
     demo = ROOT / "fixtures" / "trainer.toml"
-    assert_one_line_error(run("rollup", demo, "--loadout", "no-such"), "--loadout", "no-such")
+    process_one_line_error(run_process("rollup", demo, "--loadout", "no-such"), "--loadout", "no-such")
 
 
 def test_usage_error_is_one_line():
-    assert_one_line_error(run("rollup"), "steelyard")
-    assert_one_line_error(run("rollup", "x.toml", "--units", "furlongs"), "--units")
+    process_one_line_error(run_process("rollup"), "steelyard")
+    process_one_line_error(run_process("rollup", "x.toml", "--units", "furlongs"), "--units")
 
 
 def exact_totals(path: Path, loadout: str | None):
@@ -141,7 +127,7 @@ def test_rollup_json_contract_si(fixture):
     checked = 0
     for name in names:
         args = ["rollup", path, "--json"] + (["--loadout", name] if name else [])
-        out = run(*args)
+        out = run_process(*args)
         assert out.returncode == 0, out.stderr
         rec = json.loads(out.stdout)
         # DESIGN.md contract v1: these keys with these meanings; added keys are allowed
@@ -168,12 +154,12 @@ def test_rollup_json_contract_si(fixture):
 
 
 def test_human_rollup_names_units_and_axes():
-    out = run("rollup", ROOT / "fixtures" / "trainer.toml", "--units", "si")
+    out = run_process("rollup", ROOT / "fixtures" / "trainer.toml", "--units", "si")
     assert out.returncode == 0, out.stderr
     assert "mass [kg]" in out.stdout and "(+aft)" in out.stdout and "kg·m²" in out.stdout
 
 
 def test_no_argument_without_terminal_rolls_up_the_demo():
-    out = run()
+    out = run_process()
     assert out.returncode == 0, out.stderr
     assert "Roll-up of" in out.stdout and "demo.toml" in out.stdout

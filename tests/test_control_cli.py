@@ -9,8 +9,6 @@ with the binomial standard error of a sampled probability.
 
 import json
 import math
-import subprocess
-import sys
 from fractions import Fraction as F
 from pathlib import Path
 
@@ -24,6 +22,7 @@ from steelyard.core.control.growth import DEFAULT_GROWTH
 from steelyard.core.loading.loadout import resolve
 from steelyard.io.ledger.file import load_ledger
 from steelyard.io.report.control import control_record, uncertainty_region
+from support.cli import run_process
 
 ROOT = Path(__file__).resolve().parents[1]
 LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact
@@ -82,10 +81,6 @@ mass = "90 kg"            # 198.4 lb: broken by the predicted 211.5 lb
 """
 
 
-def run(*args):
-    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True)
-
-
 def _hand():
     """(group -> (basic, predicted, basic moment x, predicted moment x)) in lb and lb·in, exactly."""
     rows = {  # group, basic mass (lb, quantity applied), allowance, x (in)
@@ -106,7 +101,7 @@ def _hand():
 def test_growth_roll_up_through_cli_matches_hand_calculation(tmp_path):
     path = tmp_path / "g.toml"
     path.write_text(GROWTH)
-    out = run("export", path, "--json", "-")
+    out = run_process("export", path, "--json", "-")
     assert out.returncode == 0, out.stderr
     control = json.loads(out.stdout)["control"]
     hand = _hand()
@@ -251,7 +246,7 @@ def test_uncertainty_region_is_the_k_sigma_ellipse():
 
 
 def test_export_json_items_in_si(tmp_path):
-    out = run("export", ROOT / "fixtures" / "trainer.toml", "--json", "-")
+    out = run_process("export", ROOT / "fixtures" / "trainer.toml", "--json", "-")
     assert out.returncode == 0, out.stderr
     data = json.loads(out.stdout)
     wing = next(it for it in data["items"] if it["id"] == "wing-l")
@@ -263,5 +258,5 @@ def test_export_json_items_in_si(tmp_path):
         "solo-training", "two-up-full-fuel", "trip", "max-baggage", "takeoff"]
     assert "control" not in data  # the trainer carries no growth, allocation or tolerance keys
     # the embedded record is the rollup --json contract
-    contract = json.loads(run("rollup", ROOT / "fixtures" / "trainer.toml", "--json", "--loadout", "takeoff").stdout)
+    contract = json.loads(run_process("rollup", ROOT / "fixtures" / "trainer.toml", "--json", "--loadout", "takeoff").stdout)
     assert data["loadouts"][-1] == contract

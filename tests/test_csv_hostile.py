@@ -28,13 +28,10 @@ from steelyard.core.errors import SteelyardError
 from steelyard.io.exchange.csv_io import ledger_to_csv, protect, read_csv, unprotect
 from steelyard.io.ledger.file import load_ledger
 from steelyard.io.ledger.toml_write import string
+from support.cli import run_process
 
 LB = F("0.45359237")  # NIST SP 811, exact
 OWASP_LEAD = ("=", "+", "-", "@", "\t", "\r")  # OWASP CSV injection: characters that start a formula
-
-
-def run(*args):
-    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True)
 
 
 def ledger_file(tmp_path, items: list[tuple[str, str, str, float]], name="l.toml"):
@@ -68,8 +65,8 @@ def test_trailing_space_id_merges_into_itself(tmp_path):
 def test_trailing_space_id_round_trip_through_the_cli(tmp_path):
     path = ledger_file(tmp_path, [("a", "A", "", 5), ("b ", "B", "", 15)])
     out_csv, merged = tmp_path / "x.csv", tmp_path / "m.toml"
-    assert run("export", path, "--csv", out_csv).returncode == 0
-    r = run("import", out_csv, "-o", merged, "--into", path)
+    assert run_process("export", path, "--csv", out_csv).returncode == 0
+    r = run_process("import", out_csv, "-o", merged, "--into", path)
     assert r.returncode == 0, r.stderr
     back = load_ledger(merged)
     assert [it.id for it in back.items] == ["a", "b "]
@@ -149,7 +146,7 @@ def test_csv_on_a_terminal_shows_control_characters_as_symbols(tmp_path):
 
 def test_csv_to_a_pipe_keeps_the_bytes(tmp_path):
     path = ledger_file(tmp_path, [("a", "x\x1bname", "", 1)])
-    r = run("export", path, "--csv", "-")
+    r = run_process("export", path, "--csv", "-")
     assert r.returncode == 0 and rows(r.stdout)[1][1] == "x\x1bname"
 
 
@@ -166,7 +163,7 @@ def test_carriage_return_in_an_id_is_quoted_and_imports(tmp_path):
 def test_nul_in_an_id_stops_the_export_before_a_file_is_written(tmp_path):
     path = ledger_file(tmp_path, [("ok", "A", "", 1), ("d\x00x", "B", "", 1)])
     out = tmp_path / "x.csv"
-    r = run("export", path, "--csv", out)
+    r = run_process("export", path, "--csv", out)
     assert r.returncode == 2 and r.stderr.count("\n") == 1, r.stderr
     assert "NUL" in r.stderr and "id" in r.stderr
     assert not out.exists()
@@ -177,7 +174,7 @@ def test_cg_table_on_a_fixed_item_is_refused_at_its_line_and_column(tmp_path):
     bad.write_text('id,mass [kg],x [m],y [m],z [m],variable,other\nok,1,0,0,0,false,\n'
                    't,5,1,2,3,false,"{ cg_table = [[0.5, 1, 2, 3], [1.0, 1, 2, 3]] }"\n')
     out = tmp_path / "new.toml"
-    r = run("import", bad, "-o", out)
+    r = run_process("import", bad, "-o", out)
     assert r.returncode == 2, r.stdout
     assert "line 3" in r.stderr and "column 'other'" in r.stderr and "variable" in r.stderr, r.stderr
     assert not out.exists()

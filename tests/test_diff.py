@@ -18,8 +18,6 @@ from __future__ import annotations
 import json
 import random
 import shutil
-import subprocess
-import sys
 from fractions import Fraction as F
 from pathlib import Path
 
@@ -28,9 +26,9 @@ import pytest
 import scipy.linalg
 from shapely.geometry import LineString, Point, Polygon
 
-from steelyard.cli.main import main
 from steelyard.core.history.diff import ULPS, close, compare
 from steelyard.io.ledger.file import load_ledger
+from support.cli import one_line_error, run_main, run_process
 
 ROOT = Path(__file__).resolve().parents[1]
 TRAINER = ROOT / "fixtures" / "trainer.toml"
@@ -39,24 +37,6 @@ MASS = {"kg": F(1), "lb": LB}
 LENGTH = {"m": F(1), "in": IN, "ft": 12 * IN, "mm": F(1, 1000)}
 INERTIA = {"kg*m**2": F(1), "lb*in**2": LB * IN * IN}
 SYSTEMS = [("kg", "m", "kg*m**2"), ("lb", "in", "lb*in**2")]
-
-
-def cli(capsys, *args):
-    rc = main([str(a) for a in args])
-    out = capsys.readouterr()
-    return rc, out.out, out.err
-
-
-def run(*args):
-    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True)
-
-
-def one_line_error(rc, err, *parts):
-    assert rc == 2, err
-    lines = err.strip().splitlines()
-    assert len(lines) == 1 and "Traceback" not in err, err
-    for p in parts:
-        assert p in lines[0], (p, lines[0])
 
 
 # --------------------------------------------------------------------------- random ledgers
@@ -303,7 +283,7 @@ def test_random_pairs_against_exact_recomputation(tmp_path, seed, loadout):
 
 def test_random_pair_json_through_the_command(tmp_path, capsys):
     pa, pb, *_ , expect, removed, added = random_pair(tmp_path, 101)
-    rc, out, err = cli(capsys, "diff", f"{pa}:trip", f"{pb}:trip", "--json")
+    rc, out, err = run_main(capsys, "diff", f"{pa}:trip", f"{pb}:trip", "--json")
     assert rc == (0 if not (expect or removed or added) else 1), err
     rec = json.loads(out)
     assert {"added", "removed", "changed", "a", "b", "delta", "envelopes"} <= set(rec)
@@ -353,7 +333,7 @@ def write(path: Path, **kw) -> Path:
 def test_renamed_item_is_a_change_not_an_add_and_remove(tmp_path, capsys):
     a = write(tmp_path / "a.toml")
     b = write(tmp_path / "b.toml", name="VHF radio")
-    rc, out, _ = cli(capsys, "diff", a, b, "--json")
+    rc, out, _ = run_main(capsys, "diff", a, b, "--json")
     rec = json.loads(out)
     assert rc == 1
     assert rec["added"] == [] and rec["removed"] == []
@@ -371,10 +351,10 @@ def test_reordered_items_are_no_difference(tmp_path, capsys):
     assert shuffled != text
     p = tmp_path / "shuffled.toml"
     p.write_text(shuffled)
-    rc, out, err = cli(capsys, "diff", TRAINER, p)
+    rc, out, err = run_main(capsys, "diff", TRAINER, p)
     assert rc == 0, err
     assert len(out.strip().splitlines()) == 1 and "no differences" in out
-    rc, out, _ = cli(capsys, "diff", f"{TRAINER}:takeoff", f"{p}:takeoff", "--json")
+    rc, out, _ = run_main(capsys, "diff", f"{TRAINER}:takeoff", f"{p}:takeoff", "--json")
     assert rc == 0 and json.loads(out)["identical"] is True
 
 
@@ -384,20 +364,20 @@ def test_twelve_inches_equal_one_foot(tmp_path, capsys):
     assert 12.0 * 0.0254 != 0.3048 and abs(12.0 * 0.0254 - 0.3048) <= ULPS * np.spacing(0.3048)
     a = write(tmp_path / "in.toml", length="in", x="12.0", bx="80.0")
     b = write(tmp_path / "ft.toml", length="ft", x="1.0", bx='"80 in"')
-    rc, out, err = cli(capsys, "diff", a, b)
+    rc, out, err = run_main(capsys, "diff", a, b)
     assert rc == 0, out + err
     assert "no differences" in out
     # the same with the unit inside the value, and pounds against their exact kilograms
     c = write(tmp_path / "c.toml", x='"12 in"', radio_mass='"2 lb"')
     d = write(tmp_path / "d.toml", x='"1 ft"', radio_mass="0.90718474")  # 2 × 0.45359237 kg
-    rc, out, err = cli(capsys, "diff", c, d)
+    rc, out, err = run_main(capsys, "diff", c, d)
     assert rc == 0, out + err
 
 
 def test_a_real_small_difference_is_found(tmp_path, capsys):
     a = write(tmp_path / "a.toml", x='"12 in"')
     b = write(tmp_path / "b.toml", x='"12.0001 in"')
-    rc, out, _ = cli(capsys, "diff", a, b, "--json")
+    rc, out, _ = run_main(capsys, "diff", a, b, "--json")
     assert rc == 1
     (ch,) = json.loads(out)["changed"]
     old, new = ch["fields"]["cg_m"]
@@ -441,7 +421,7 @@ def test_capacity_of_an_empty_load_item_is_compared(tmp_path):
 
 
 def test_two_loadouts_of_one_file(capsys):
-    rc, out, err = cli(capsys, "diff", f"{TRAINER}:takeoff", f"{TRAINER}:trip", "--json")
+    rc, out, err = run_main(capsys, "diff", f"{TRAINER}:takeoff", f"{TRAINER}:trip", "--json")
     assert rc == 1, err
     rec = json.loads(out)
     assert rec["a"]["loadout"] == "takeoff" and rec["b"]["loadout"] == "trip"
@@ -457,36 +437,36 @@ def test_two_loadouts_of_one_file(capsys):
 def test_path_with_colon_and_last_colon_split(tmp_path, capsys):
     odd = tmp_path / "rev:2.toml"
     shutil.copy(TRAINER, odd)
-    rc, out, err = cli(capsys, "diff", odd, TRAINER)
+    rc, out, err = run_main(capsys, "diff", odd, TRAINER)
     assert rc == 0, err
-    rc, out, err = cli(capsys, "diff", f"{odd}:trip", f"{TRAINER}:trip")
+    rc, out, err = run_main(capsys, "diff", f"{odd}:trip", f"{TRAINER}:trip")
     assert rc == 0, err
-    rc, out, err = cli(capsys, "diff", f"{odd}:trip", f"{TRAINER}:takeoff")
+    rc, out, err = run_main(capsys, "diff", f"{odd}:trip", f"{TRAINER}:takeoff")
     assert rc == 1, err
-    rc, out, err = cli(capsys, "diff", odd, TRAINER, "--a-loadout", "trip", "--b-loadout", "trip")
+    rc, out, err = run_main(capsys, "diff", odd, TRAINER, "--a-loadout", "trip", "--b-loadout", "trip")
     assert rc == 0, err
 
 
 def test_unknown_loadout_missing_file_and_bad_file_exit_2_one_line(tmp_path, capsys):
-    rc, _, err = cli(capsys, "diff", f"{TRAINER}:nope", TRAINER)
+    rc, _, err = run_main(capsys, "diff", f"{TRAINER}:nope", TRAINER)
     one_line_error(rc, err, str(TRAINER), "nope", "loadout")
-    rc, _, err = cli(capsys, "diff", tmp_path / "missing.toml", TRAINER)
+    rc, _, err = run_main(capsys, "diff", tmp_path / "missing.toml", TRAINER)
     one_line_error(rc, err, "missing.toml", "no such file")
     bad = ROOT / "fixtures" / "bad" / "negative-mass.toml"
-    rc, _, err = cli(capsys, "diff", TRAINER, bad)
+    rc, _, err = run_main(capsys, "diff", TRAINER, bad)
     one_line_error(rc, err, "negative-mass.toml", "item 'tail-bumper'", "mass")
-    rc, _, err = cli(capsys, "diff", TRAINER, TRAINER, "--max-items", "-1")
+    rc, _, err = run_main(capsys, "diff", TRAINER, TRAINER, "--max-items", "-1")
     one_line_error(rc, err, "--max-items")
 
 
 def test_exit_codes_in_a_real_process(tmp_path):
-    same = run("diff", TRAINER, TRAINER)
+    same = run_process("diff", TRAINER, TRAINER)
     assert same.returncode == 0 and len(same.stdout.strip().splitlines()) == 1 and same.stderr == ""
-    diff = run("diff", f"{TRAINER}:solo-training", f"{TRAINER}:trip")
+    diff = run_process("diff", f"{TRAINER}:solo-training", f"{TRAINER}:trip")
     assert diff.returncode == 1 and "Changed items" in diff.stdout and "Planning aid only" in diff.stdout
-    bad = run("diff", TRAINER)
+    bad = run_process("diff", TRAINER)
     assert bad.returncode == 2 and len(bad.stderr.strip().splitlines()) == 1
-    missing = run("diff", TRAINER, tmp_path / "x.toml")
+    missing = run_process("diff", TRAINER, tmp_path / "x.toml")
     assert missing.returncode == 2 and "Traceback" not in missing.stderr
     assert len(missing.stderr.strip().splitlines()) == 1
 
@@ -498,7 +478,7 @@ def test_envelope_status_change_and_margin(tmp_path, capsys):
     b = write(tmp_path / "b.toml", x="8.0")
     a.write_text(a.read_text() + env)
     b.write_text(b.read_text() + env)
-    rc, out, _ = cli(capsys, "diff", a, b, "--json")
+    rc, out, _ = run_main(capsys, "diff", a, b, "--json")
     (e,) = json.loads(out)["envelopes"]
     # CG = Σ m x / Σ m (FAA-H-8083-1): A (1·3 + 20·2)/21, B (1·8 + 20·2)/21; limits 2.0 … 2.2 m at 21 kg
     cg_a, cg_b = (3 + 40) / 21, (8 + 40) / 21
@@ -512,18 +492,18 @@ def test_frame_change_and_definition_changes_are_differences(tmp_path, capsys):
     a = write(tmp_path / "a.toml")
     b = tmp_path / "b.toml"
     b.write_text(a.read_text().replace("steelyard = 1\n", 'steelyard = 1\n[frame]\nx = "fwd"\ny = "left"\nz = "up"\n'))
-    rc, out, _ = cli(capsys, "diff", a, b, "--json")
+    rc, out, _ = run_main(capsys, "diff", a, b, "--json")
     rec = json.loads(out)
     assert rc == 1 and rec["frame"] == {"x": ["aft", "fwd"], "y": ["right", "left"]}
     assert rec["changed"] == []
 
 
 def test_human_report_has_units_and_the_caution(capsys):
-    rc, out, _ = cli(capsys, "diff", f"{TRAINER}:solo-training", f"{TRAINER}:max-baggage", "--units", "us")
+    rc, out, _ = run_main(capsys, "diff", f"{TRAINER}:solo-training", f"{TRAINER}:max-baggage", "--units", "us")
     assert rc == 1
     assert "baggage" in out and "[lb]" in out and "→" in out
     assert "Items ranked" in out and "Planning aid only" in out
-    rc, out, _ = cli(capsys, "diff", f"{TRAINER}:solo-training", f"{TRAINER}:max-baggage", "--max-items", "1")
+    rc, out, _ = run_main(capsys, "diff", f"{TRAINER}:solo-training", f"{TRAINER}:max-baggage", "--max-items", "1")
     assert "more (--max-items 0 shows all" in out
 
 
@@ -532,6 +512,6 @@ def test_report_sends_no_raw_terminal_escapes(tmp_path, capsys):
     nasty = "\\u001b[2J\\u001b[31mred\\u001b[0m [b]bold[/b]"
     a = write(tmp_path / "a.toml")
     b = write(tmp_path / "b.toml", name=nasty)
-    rc, out, _ = cli(capsys, "diff", a, b)
+    rc, out, _ = run_main(capsys, "diff", a, b)
     assert rc == 1
     assert "\x1b" not in out and "[b]bold[/b]" in out and "␛[31mred" in out

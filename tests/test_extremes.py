@@ -19,11 +19,11 @@ from fractions import Fraction as F
 import numpy as np
 import pytest
 
-from steelyard.cli.main import main
 from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.envelope import envelope_problem
 from steelyard.core.physics.inertia import principal, realisability_problem, realisability_problems
 from steelyard.core.physics.rollup import check_finite_rollup, rollup
+from support.cli import one_line_error, run_main
 
 def _item(ident, mass, cg, inertia=None, extra=""):
     text = f'[[item]]\nid = "{ident}"\nmass = {mass!r}\ncg = [{", ".join(repr(float(c)) for c in cg)}]\n'
@@ -46,21 +46,6 @@ def _strict_json(text):
     return json.loads(text, parse_constant=bad)
 
 
-def _cli(capsys, *args):
-    code = main([str(a) for a in args])
-    out = capsys.readouterr()
-    return code, out.out, out.err
-
-
-def _one_line(code, err, *parts):
-    assert code == 2, err
-    lines = err.strip().splitlines()
-    assert len(lines) == 1 and "Traceback" not in err, err
-    for p in parts:
-        assert p in lines[0], (p, lines[0])
-    return lines[0]
-
-
 COMMANDS = (("rollup", "--json"), ("rollup",), ("check", "--json"), ("check",), ("export", "--json", "-"),
             ("snapshot",))
 
@@ -72,8 +57,8 @@ COMMANDS = (("rollup", "--json"), ("rollup",), ("check", "--json"), ("check",), 
 def test_huge_first_moment_is_refused_naming_item_and_field(tmp_path, capsys, command):
     # 1e300 kg × 1e10 m = 1e310 kg·m > 1.797e308: the first moment overflows binary64
     path = _ledger(tmp_path, _item("light", 1.0, [1, 0, 0]) + _item("huge", 1e300, [1e10, 0, 0]))
-    code, out, err = _cli(capsys, command[0], path, *command[1:])
-    _one_line(code, err, "item 'huge'", "cg", "too large")
+    code, out, err = run_main(capsys, command[0], path, *command[1:])
+    one_line_error(code, err, "item 'huge'", "cg", "too large")
     if command != ("rollup", "--json"):  # cmd_rollup does not add the file to errors from the JSON record
         assert str(path) in err
     assert "All limits met" not in out and "inf" not in out
@@ -83,31 +68,31 @@ def test_diff_of_an_overflowing_ledger_is_refused(tmp_path, capsys):
     a = _ledger(tmp_path, _item("light", 1.0, [1, 0, 0]), "a.toml")
     b = _ledger(tmp_path, _item("light", 1.0, [1, 0, 0]) + _item("huge", 1e300, [1e10, 0, 0]), "b.toml")
     for args in ((a, b), (a, b, "--json")):
-        code, out, err = _cli(capsys, "diff", *args)
-        _one_line(code, err, "item 'huge'", "cg", "too large")
+        code, out, err = run_main(capsys, "diff", *args)
+        one_line_error(code, err, "item 'huge'", "cg", "too large")
 
 
 def test_total_mass_overflow_names_the_heaviest_item(tmp_path, capsys):
     # 1e308 + 1.5e308 = 2.5e308 > 1.797e308
     path = _ledger(tmp_path, _item("a", 1e308, [1e-200, 0, 0]) + _item("b", 1.5e308, [1e-200, 0, 0]))
     for command in COMMANDS:
-        code, out, err = _cli(capsys, command[0], path, *command[1:])
-        _one_line(code, err, "item 'b'", "mass", "too large")
+        code, out, err = run_main(capsys, command[0], path, *command[1:])
+        one_line_error(code, err, "item 'b'", "mass", "too large")
 
 
 def test_own_inertia_overflow_names_the_item_and_inertia(tmp_path, capsys):
     # each tensor is finite and realisable (equal moments); their sum 2e308 is not
     path = _ledger(tmp_path, _item("wheel", 1.0, [0, 0, 0], (1e308, 1e308, 1e308))
                    + _item("wheel-2", 1.0, [0, 0, 0], (1e308, 1e308, 1e308)))
-    code, out, err = _cli(capsys, "rollup", "--json", path)
-    _one_line(code, err, "item 'wheel'", "inertia", "too large")
+    code, out, err = run_main(capsys, "rollup", "--json", path)
+    one_line_error(code, err, "item 'wheel'", "inertia", "too large")
 
 
 def test_one_huge_but_finite_inertia_rolls_up(tmp_path, capsys):
     # a single tensor 1e308·E is realisable (triangle inequality holds with equality to 2x): the roll-up
     # is that tensor and its principal moments are 1e308 exactly (diagonal, IEEE exact)
     path = _ledger(tmp_path, _item("wheel", 1.0, [0, 0, 0], (1e308, 1e308, 1e308)))
-    code, out, err = _cli(capsys, "rollup", "--json", path)
+    code, out, err = run_main(capsys, "rollup", "--json", path)
     assert code == 0, err
     rec = _strict_json(out)
     assert rec["principal_kg_m2"] == [1e308, 1e308, 1e308]
@@ -118,8 +103,8 @@ def test_envelope_whose_area_overflows_is_refused(tmp_path, capsys):
            "points = [[-1e308, 1.0], [1e308, 1.0], [1e308, 1e308], [-1e308, 1e308]]\n")
     path = _ledger(tmp_path, _item("a", 1.0, [0, 0, 0]) + env)
     for command in COMMANDS:
-        code, out, err = _cli(capsys, command[0], path, *command[1:])
-        _one_line(code, err, "envelope 'wide'", "points", "too large")
+        code, out, err = run_main(capsys, command[0], path, *command[1:])
+        one_line_error(code, err, "envelope 'wide'", "points", "too large")
 
 
 def test_envelope_problem_words_overflow():
@@ -132,8 +117,8 @@ def test_envelope_problem_words_overflow():
 def test_check_never_says_met_for_an_overflow(tmp_path, capsys):
     env = '[[envelope]]\nname = "n"\naxis = "x"\npoints = [[0.0, 1.0], [2.0, 1.0], [2.0, 10.0], [0.0, 10.0]]\n'
     path = _ledger(tmp_path, _item("a", 1e308, [1, 0, 0]) + _item("b", 1e308, [1, 0, 0]) + env)
-    code, out, err = _cli(capsys, "check", path)
-    _one_line(code, err, "item 'a'", "mass")
+    code, out, err = run_main(capsys, "check", path)
+    one_line_error(code, err, "item 'a'", "mass")
     assert out == ""
 
 
@@ -143,8 +128,8 @@ def test_sequence_that_overflows_on_the_way_is_refused(tmp_path, capsys):
             + '[[loadout]]\nname = "start"\n[loadout.set]\n'
             + '[[sequence]]\nname = "load"\nloadout = "start"\n[[sequence.step]]\nadd = { anvil = "full" }\n')
     path = _ledger(tmp_path, body)
-    code, out, err = _cli(capsys, "check", "--json", path)
-    _one_line(code, err, "item 'anvil'", "cg", "too large", "sequence 'load'")
+    code, out, err = run_main(capsys, "check", "--json", path)
+    one_line_error(code, err, "item 'anvil'", "cg", "too large", "sequence 'load'")
 
 
 # --------------------------------------------------------------------------- tiny values keep their digits
@@ -256,15 +241,15 @@ def test_random_extremes_never_crash(tmp_path, capsys, seed):
     rng = np.random.default_rng(seed)
     path = _ledger(tmp_path, _random_ledger(rng))
     for command in (("rollup", "--json"), ("check", "--json"), ("export", "--json", "-")):
-        code, out, err = _cli(capsys, command[0], path, *command[1:])
+        code, out, err = run_main(capsys, command[0], path, *command[1:])
         text = _assert_answer_or_one_line(code, out, err)
         if text is not None:
             _strict_json(text)
-    code, out, err = _cli(capsys, "snapshot", path)
+    code, out, err = run_main(capsys, "snapshot", path)
     text = _assert_answer_or_one_line(code, out, err)
     if text is not None:
         assert "inf" not in text.split("[snapshot]")[-1] and "nan" not in text.split("[snapshot]")[-1]
-    code, out, err = _cli(capsys, "diff", path, path, "--json")
+    code, out, err = run_main(capsys, "diff", path, path, "--json")
     text = _assert_answer_or_one_line(code, out, err)
     if text is not None:
         _strict_json(text)

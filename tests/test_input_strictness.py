@@ -14,8 +14,6 @@ from __future__ import annotations
 
 import json
 import os
-import subprocess
-import sys
 import unicodedata
 from fractions import Fraction as F
 
@@ -27,15 +25,11 @@ from steelyard.core.errors import SteelyardError, UnitError, said
 from steelyard.core.physics.groups import MAX_GROUP_DEPTH, group_depth_problem, subtotals
 from steelyard.core.units import parse_number, parse_quantity, to_si, unit_factor
 from steelyard.io.ledger.file import open_ledger
+from support.cli import run_process
 
 LB, IN, FT = F("0.45359237"), F("0.0254"), 12 * F("0.0254")  # NIST SP 811, exact
 ARABIC_12 = unicodedata.lookup("ARABIC-INDIC DIGIT ONE") + unicodedata.lookup("ARABIC-INDIC DIGIT TWO")
 FULLWIDTH_12 = unicodedata.lookup("FULLWIDTH DIGIT ONE") + unicodedata.lookup("FULLWIDTH DIGIT TWO")
-
-
-def run(*args, env=None):
-    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True,
-                          env=env)
 
 
 # ---------------------------------------------------------------- A: one number, one unit
@@ -182,21 +176,21 @@ def test_negative_station_in_scientific_notation(solve_file, capsys):
 
 @pytest.mark.parametrize("extra", [[], ["--json"]])
 def test_an_answer_that_overflows_is_an_error_not_inf(solve_file, extra):
-    r = run("solve", "add", solve_file, "--mass", "1e308", "--station", "1e308", *extra)
+    r = run_process("solve", "add", solve_file, "--mass", "1e308", "--station", "1e308", *extra)
     assert r.returncode == 2, r.stdout
     assert r.stderr.startswith("steelyard: ") and r.stderr.count("\n") == 1, r.stderr
     assert "inf in" not in r.stdout and "Traceback" not in r.stderr
 
 
 def test_removing_too_much_is_said_in_the_files_units_as_typed(solve_file):
-    r = run("solve", "add", solve_file, "--mass", "-3500", "--station", "100")
+    r = run_process("solve", "add", solve_file, "--mass", "-3500", "--station", "100")
     assert r.returncode == 2
     assert "'-3500'" in r.stderr and "3,500.00 lb" in r.stderr and "3,000.00 lb" in r.stderr, r.stderr
 
 
 @pytest.mark.parametrize("value,words", [("41,5 lb", "decimal point"), ("1_5", "ASCII"), ("3 2 lb", "one number")])
 def test_solve_mass_is_parsed_strictly(solve_file, value, words):
-    r = run("solve", "add", solve_file, "--mass", value, "--station", "100")
+    r = run_process("solve", "add", solve_file, "--mass", value, "--station", "100")
     assert r.returncode == 2 and "--mass" in r.stderr and words in r.stderr, r.stderr
 
 
@@ -223,7 +217,7 @@ def test_no_warning_text_from_denormal_masses(tmp_path):
     for argv in (["export", led, "--json", "-"], ["export", led, "--csv", "-"],
                  ["import", csv_path, "-o", tmp_path / "new.toml"],
                  ["solve", "add", led, "--mass", "5e-324", "--station", "1"]):
-        r = run(*argv, env=env)
+        r = run_process(*argv, env=env)
         assert "Warning" not in r.stderr, (argv, r.stderr)
 
 

@@ -18,8 +18,6 @@ References:
 from __future__ import annotations
 
 import math
-import subprocess
-import sys
 import unicodedata
 import warnings
 from fractions import Fraction as F
@@ -35,16 +33,13 @@ from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.solvers import add_mass, ballast_for_limit, ballast_to_enter, weight_shift
 from steelyard.io.ledger.file import load_ledger
 from steelyard.tui.state.form_values import item_from_fields, quantity
+from support.cli import run_process
 
 ROOT = Path(__file__).resolve().parents[1]
 WEIGHING = ROOT / "fixtures" / "weighing-example.toml"  # a ledger in lb and in
 LB, IN, G_N = F("0.45359237"), F("0.0254"), F("9.80665")  # NIST SP 811, exact
 US = FileUnits("lb", "in", "lb*in**2")
 ARABIC_12 = unicodedata.lookup("ARABIC-INDIC DIGIT ONE") + unicodedata.lookup("ARABIC-INDIC DIGIT TWO")
-
-
-def run(*args):
-    return subprocess.run([sys.executable, "-m", "steelyard", *map(str, args)], capture_output=True, text=True)
 
 
 # --------------------------------------------------------------------------- weighing
@@ -125,7 +120,7 @@ def test_cli_weigh_message_quotes_the_file(tmp_path):
     assert "reading = -225.0" in text
     path = tmp_path / "w.toml"
     path.write_text(text)
-    out = run("weigh", path)
+    out = run_process("weigh", path)
     assert out.returncode == 2
     assert "weighing point 'nose': reading: must be >= 0, got -225.0" in out.stderr
     assert "np.float64" not in out.stderr and "102.058" not in out.stderr
@@ -195,7 +190,7 @@ def test_denormal_masses_give_no_runtime_warning(tmp_path, command):
     path = tmp_path / "speck.toml"
     path.write_text(DENORMAL)
     args = [command, path] + (["-o", tmp_path / "r.md"] if command == "report" else [])
-    out = run(*args)
+    out = run_process(*args)
     assert out.returncode == 0, out.stderr
     assert "RuntimeWarning" not in out.stderr and "Warning" not in out.stderr
     if command == "rollup":
@@ -259,9 +254,9 @@ def test_solver_messages_without_units_stay_in_si():
 
 
 def test_cli_solve_message_in_the_files_units():
-    out = run("solve", "shift", "--from", "100", "--to", "100", "--target-cg", "50", WEIGHING)
+    out = run_process("solve", "shift", "--from", "100", "--to", "100", "--target-cg", "50", WEIGHING)
     assert out.returncode == 2
     assert "station 100 in" in out.stderr and "2.54" not in out.stderr
-    out = run("solve", "ballast", "--limit", "44", "--station", "44", WEIGHING)
+    out = run_process("solve", "ballast", "--limit", "44", "--station", "44", WEIGHING)
     assert out.returncode == 2
     assert "limit station 44 in" in out.stderr and "1.1176" not in out.stderr

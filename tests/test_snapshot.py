@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from steelyard.cli.main import main
+from support.cli import one_line_error, run_main
 
 ROOT = Path(__file__).resolve().parents[1]
 TRAINER = ROOT / "fixtures" / "trainer.toml"
@@ -30,30 +30,16 @@ LB, IN = F("0.45359237"), F("0.0254")
 LOADOUTS = [lo["name"] for lo in tomllib.loads(TRAINER.read_text())["loadout"]]
 
 
-def cli(capsys, *args):
-    rc = main([str(a) for a in args])
-    out = capsys.readouterr()
-    return rc, out.out, out.err
-
-
-def one_line_error(rc, err, *parts):
-    assert rc == 2, err
-    lines = err.strip().splitlines()
-    assert len(lines) == 1 and "Traceback" not in err, err
-    for p in parts:
-        assert p in lines[0], (p, lines[0])
-
-
 def take(capsys, tmp_path, source=TRAINER, loadout="takeoff", name="snap.toml") -> Path:
     out = tmp_path / name
     args = ["snapshot", source, "-o", out] + (["--loadout", loadout] if loadout else [])
-    rc, _, err = cli(capsys, *args)
+    rc, _, err = run_main(capsys, *args)
     assert rc == 0, err
     return out
 
 
 def rollup_json(capsys, *args) -> dict:
-    rc, out, err = cli(capsys, "rollup", *args, "--json")
+    rc, out, err = run_main(capsys, "rollup", *args, "--json")
     assert rc == 0, err
     return json.loads(out)
 
@@ -152,10 +138,10 @@ def test_content_hash_is_the_text_before_the_snapshot_table(capsys, tmp_path):
 
 def test_verify_passes_on_a_fresh_snapshot_and_after_a_comment(capsys, tmp_path):
     snap = take(capsys, tmp_path)
-    rc, out, err = cli(capsys, "snapshot", "--verify", snap)
+    rc, out, err = run_main(capsys, "snapshot", "--verify", snap)
     assert rc == 0 and "verified" in out and len(out.strip().splitlines()) == 1, err
     snap.write_text("# reviewed by the weights group\n" + snap.read_text())
-    rc, out, err = cli(capsys, "snapshot", "--verify", snap)
+    rc, out, err = run_main(capsys, "snapshot", "--verify", snap)
     assert rc == 0, err  # comments are not content
 
 
@@ -169,13 +155,13 @@ def edit(path: Path, pattern: str, repl: str) -> None:
 def test_hand_edited_item_is_caught(capsys, tmp_path):
     snap = take(capsys, tmp_path)
     edit(snap, r'^(id = "battery"\n(?:.*\n)*?mass = )(\S+)$', r"\g<1>11.5")
-    rc, _, err = cli(capsys, "snapshot", "--verify", snap)
+    rc, _, err = run_main(capsys, "snapshot", "--verify", snap)
     one_line_error(rc, err, str(snap), "snapshot", "content_sha256", "edited")
-    rc, out, err = cli(capsys, "rollup", snap, "--json")  # still a readable ledger
+    rc, out, err = run_main(capsys, "rollup", snap, "--json")  # still a readable ledger
     assert rc == 0, err
-    rc, _, err = cli(capsys, "diff", f"{TRAINER}:takeoff", snap)
+    rc, _, err = run_main(capsys, "diff", f"{TRAINER}:takeoff", snap)
     one_line_error(rc, err, str(snap), "content_sha256", "--allow-mismatch")
-    rc, out, err = cli(capsys, "diff", f"{TRAINER}:takeoff", snap, "--allow-mismatch", "--json")
+    rc, out, err = run_main(capsys, "diff", f"{TRAINER}:takeoff", snap, "--allow-mismatch", "--json")
     assert rc == 1 and "warning" in err
     (ch,) = json.loads(out)["changed"]
     assert ch["id"] == "battery" and ch["fields"]["mass_kg"][1] == 11.5
@@ -185,28 +171,28 @@ def test_hand_edited_totals_and_status_are_caught(capsys, tmp_path):
     snap = take(capsys, tmp_path)
     original = snap.read_text()
     edit(snap, r"^(mass_kg = )(\S+)$", r"\g<1>700.0")
-    rc, _, err = cli(capsys, "snapshot", "--verify", snap)
+    rc, _, err = run_main(capsys, "snapshot", "--verify", snap)
     one_line_error(rc, err, str(snap), "snapshot", "totals.mass_kg", "700")
     snap.write_text(original)
     edit(snap, r'^(name = "normal"\naxis = "x"\ninside = )true$', r"\g<1>false")
-    rc, _, err = cli(capsys, "snapshot", "--verify", snap)
+    rc, _, err = run_main(capsys, "snapshot", "--verify", snap)
     one_line_error(rc, err, "envelopes.normal")
     snap.write_text(original)
     edit(snap, r'^content_sha256 = "(\w)', r'content_sha256 = "0\1')
-    rc, _, err = cli(capsys, "snapshot", "--verify", snap)
+    rc, _, err = run_main(capsys, "snapshot", "--verify", snap)
     one_line_error(rc, err, "content_sha256")
 
 
 def test_diff_against_a_baseline_snapshot(capsys, tmp_path):
     snap = take(capsys, tmp_path, loadout="takeoff")
-    rc, out, err = cli(capsys, "diff", f"{TRAINER}:takeoff", snap)
+    rc, out, err = run_main(capsys, "diff", f"{TRAINER}:takeoff", snap)
     assert rc == 0 and "no differences" in out and len(out.strip().splitlines()) == 1, err
     # the working ledger gains a 2.3 lb radio at FS 142 in
     work = tmp_path / "work.toml"
     work.write_text(TRAINER.read_text().replace(
         "[[item]]\nid = \"elt\"",
         '[[item]]\nid = "radio-2"\nname = "Second radio"\nmass = 2.3\ncg = [142.0, 0.0, 24.0]\n\n[[item]]\nid = "elt"'))
-    rc, out, err = cli(capsys, "diff", snap, f"{work}:takeoff", "--json")
+    rc, out, err = run_main(capsys, "diff", snap, f"{work}:takeoff", "--json")
     assert rc == 1, err
     rec = json.loads(out)
     assert rec["added"] == ["radio-2"] and rec["removed"] == [] and rec["changed"] == []
@@ -223,38 +209,38 @@ def test_diff_against_a_baseline_snapshot(capsys, tmp_path):
 def test_snapshot_of_a_snapshot_keeps_the_marker_and_verifies(capsys, tmp_path):
     first = take(capsys, tmp_path, loadout="trip")
     second = take(capsys, tmp_path, first, None, "second.toml")
-    rc, _, err = cli(capsys, "snapshot", "--verify", second)
+    rc, _, err = run_main(capsys, "snapshot", "--verify", second)
     assert rc == 0, err
     items = {it["id"]: it for it in tomllib.loads(second.read_text())["item"]}
     assert items["fuel-l"]["loaded"]["fill"] == pytest.approx(96 / 120, rel=1e-14)  # 16 gal × 6 lb/gal of 120 lb
-    rc, out, err = cli(capsys, "diff", first, second)
+    rc, out, err = run_main(capsys, "diff", first, second)
     assert rc == 0, out + err
 
 
 def test_snapshot_errors_exit_2_one_line(capsys, tmp_path):
-    rc, _, err = cli(capsys, "snapshot", TRAINER, "--loadout", "nope")
+    rc, _, err = run_main(capsys, "snapshot", TRAINER, "--loadout", "nope")
     one_line_error(rc, err, "--loadout", "nope")
-    rc, _, err = cli(capsys, "snapshot", TRAINER, "-o", TRAINER)
+    rc, _, err = run_main(capsys, "snapshot", TRAINER, "-o", TRAINER)
     one_line_error(rc, err, "--output", "source")
     out = tmp_path / "exists.toml"
     out.write_text("keep me")
-    rc, _, err = cli(capsys, "snapshot", TRAINER, "-o", out)
+    rc, _, err = run_main(capsys, "snapshot", TRAINER, "-o", out)
     one_line_error(rc, err, "--force")
     assert out.read_text() == "keep me"
-    rc, _, err = cli(capsys, "snapshot", TRAINER, "-o", out, "--force")
+    rc, _, err = run_main(capsys, "snapshot", TRAINER, "-o", out, "--force")
     assert rc == 0, err
-    rc, _, err = cli(capsys, "snapshot", "--verify", TRAINER)
+    rc, _, err = run_main(capsys, "snapshot", "--verify", TRAINER)
     one_line_error(rc, err, "not a snapshot")
-    rc, _, err = cli(capsys, "diff", f"{out}:takeoff", TRAINER)
+    rc, _, err = run_main(capsys, "diff", f"{out}:takeoff", TRAINER)
     one_line_error(rc, err, "loadout")
 
 
 def test_snapshot_to_stdout_reads_back(capsys, tmp_path):
-    rc, out, err = cli(capsys, "snapshot", TRAINER, "--loadout", "trip")
+    rc, out, err = run_main(capsys, "snapshot", TRAINER, "--loadout", "trip")
     assert rc == 0, err
     p = tmp_path / "piped.toml"
     p.write_text(out)
-    rc, _, err = cli(capsys, "snapshot", "--verify", p)
+    rc, _, err = run_main(capsys, "snapshot", "--verify", p)
     assert rc == 0, err
 
 
@@ -283,9 +269,9 @@ def test_snapshots_of_awkward_numbers_verify(capsys, tmp_path):
     src = tmp_path / "awkward.toml"
     src.write_text("\n".join(lines))
     snap = take(capsys, tmp_path, src, "odd", "awkward-snap.toml")
-    rc, _, err = cli(capsys, "snapshot", "--verify", snap)
+    rc, _, err = run_main(capsys, "snapshot", "--verify", snap)
     assert rc == 0, err
-    rc, out, err = cli(capsys, "diff", f"{src}:odd", snap)
+    rc, out, err = run_main(capsys, "diff", f"{src}:odd", snap)
     assert rc == 0, out + err
     items = {it["id"]: it for it in tomllib.loads(snap.read_text())["item"]}
     raw = {it["id"]: it for it in tomllib.loads(src.read_text())["item"]}
