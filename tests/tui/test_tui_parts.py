@@ -25,6 +25,13 @@ from support.paths import TRAINER
 US = Ledger(units=FileUnits("lb", "in", "lb*in**2"))
 
 
+def form_refusal(fields: dict, ledger: Ledger) -> SteelyardError:
+    """The error the item form's fields are refused with (a new item in `ledger`)."""
+    with pytest.raises(SteelyardError) as err:
+        item_from_fields(fields, None, ledger)
+    return err.value
+
+
 def test_field_values_take_units_and_bare_numbers_are_file_units():
     # 3 ft 2 in = 38 in = 0.9652 m exactly (NIST SP 811: 1 ft = 0.3048 m, 1 in = 0.0254 m)
     assert quantity("3 ft 2 in", "length", "in", "x")[0] == pytest.approx(float(38 * Fraction("0.0254")),
@@ -53,9 +60,8 @@ def test_impossible_inertia_is_refused_with_its_field():
     # diag(1, 3, 5) is positive definite yet no body has it: 5 > 1 + 3 (REFERENCES.md, realisability)
     fields = initial_fields(None, US.units) | {"id": "odd", "mass": "1", "x": "0", "y": "0", "z": "0",
                                                "kind": GIVEN_INERTIA, "i.xx": "1", "i.yy": "3", "i.zz": "5"}
-    with pytest.raises(SteelyardError) as err:
-        item_from_fields(fields, None, US)
-    assert err.value.field == "i.zz" and "not physically possible" in err.value.message
+    err = form_refusal(fields, US)
+    assert err.field == "i.zz" and "not physically possible" in err.message
 
 
 def test_shape_from_the_form_gives_the_handbook_inertia():
@@ -68,22 +74,16 @@ def test_shape_from_the_form_gives_the_handbook_inertia():
     assert t[2, 2] == pytest.approx(0.5 * 10 * 0.1 ** 2, rel=1e-12)
     assert t[0, 0] == pytest.approx(10 * (3 * 0.1 ** 2 + 0.5 ** 2) / 12, rel=1e-12)
     fields["dim.radius"] = "-1"
-    with pytest.raises(SteelyardError) as err:
-        item_from_fields(fields, None, US)
-    assert err.value.field == "dim.radius"
+    assert form_refusal(fields, US).field == "dim.radius"
 
 
 def test_duplicate_id_and_missing_fields_are_named():
     ledger = open_ledger(TRAINER).ledger
     fields = initial_fields(None, ledger.units) | {"id": "wing-l", "mass": "1", "x": "0", "y": "0", "z": "0"}
-    with pytest.raises(SteelyardError) as err:
-        item_from_fields(fields, None, ledger)
-    assert err.value.field == "id"
+    assert form_refusal(fields, ledger).field == "id"
     fields["id"] = "new"
     fields["z"] = ""
-    with pytest.raises(SteelyardError) as err:
-        item_from_fields(fields, None, ledger)
-    assert err.value.field == "z"
+    assert form_refusal(fields, ledger).field == "z"
 
 
 def test_edits_keep_columns_equal_to_a_fresh_build():
