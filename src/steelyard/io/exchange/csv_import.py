@@ -27,7 +27,7 @@ from steelyard.io.exchange.csv_check import CsvPlaces, check_ledger
 from steelyard.io.exchange.csv_model import file_units, item_more, make_item, more_problem
 from steelyard.io.exchange.csv_read import CsvTable
 from steelyard.io.ledger.file import read_bytes
-from steelyard.io.ledger.read import ITEM_KEYS
+from steelyard.io.ledger.read_items import ITEM_KEYS
 from steelyard.io.ledger.toml_read import decode
 
 #: an item whose inertia cells match its shape's inertia this closely keeps its shape
