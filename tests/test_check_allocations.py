@@ -12,16 +12,15 @@ from __future__ import annotations
 
 import json
 from fractions import Fraction as F
-from pathlib import Path
 
 import pytest
 
 from support.cli import run_main
 from support.ledgers import write_ledger
+from support.paths import ROOT
+from support.units import LB
 
-ROOT = Path(__file__).resolve().parents[1]
 OVER = ROOT / "fixtures" / "trainer-overweight.toml"
-LB = F("0.45359237")  # NIST SP 811, exact
 
 # Avionics: basic 1.2 + 2.5 + 0.8 = 4.5 kg (under 4.747); predicted
 # 1.2 × 1.15 + 2.5 × 1.10 + 0.8 × 1.25 = 1.38 + 2.75 + 1.00 = 5.13 kg: 0.383 kg (383 g) over.

@@ -19,11 +19,10 @@ import pytest
 
 from steelyard.core.caution import CAUTION
 from support.cli import process_one_line_error, run_process
+from support.paths import ROOT, TRAINER
+from support.units import IN, LB
 
-ROOT = Path(__file__).resolve().parents[1]
-TRAINER = ROOT / "fixtures" / "trainer.toml"
 OVER = ROOT / "fixtures" / "trainer-overweight.toml"
-LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact
 
 
 # --------------------------------------------------------------------------- exit codes

@@ -14,10 +14,10 @@ from pathlib import Path
 import pytest
 
 from support.cli import process_one_line_error, run_process
+from support.paths import ROOT
+from support.units import IN, LB
 
-ROOT = Path(__file__).resolve().parents[1]
 BAD = ROOT / "fixtures" / "bad"
-LB, IN = F("0.45359237"), F("0.0254")
 EXACT = {"kg": F(1), "g": F(1, 1000), "lb": LB, "m": F(1), "mm": F(1, 1000), "cm": F(1, 100), "in": IN,
          "ft": 12 * IN}  # NIST SP 811 exact definitions
 

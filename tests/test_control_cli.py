@@ -10,7 +10,6 @@ with the binomial standard error of a sampled probability.
 import json
 import math
 from fractions import Fraction as F
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -23,9 +22,9 @@ from steelyard.core.loading.loadout import resolve
 from steelyard.io.ledger.file import load_ledger
 from steelyard.io.report.control import control_record, uncertainty_region
 from support.cli import run_process
+from support.paths import ROOT
+from support.units import IN, LB
 
-ROOT = Path(__file__).resolve().parents[1]
-LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact
 
 GROWTH = """steelyard = 1
 [units]

@@ -29,8 +29,8 @@ from steelyard.io.exchange.csv_io import ledger_to_csv, protect, read_csv, unpro
 from steelyard.io.ledger.file import load_ledger
 from steelyard.io.ledger.toml_write import string
 from support.cli import run_process
+from support.units import LB
 
-LB = F("0.45359237")  # NIST SP 811, exact
 OWASP_LEAD = ("=", "+", "-", "@", "\t", "\r")  # OWASP CSV injection: characters that start a formula
 
 

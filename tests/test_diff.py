@@ -29,10 +29,9 @@ from shapely.geometry import LineString, Point, Polygon
 from steelyard.core.history.diff import ULPS, close, compare
 from steelyard.io.ledger.file import load_ledger
 from support.cli import one_line_error, run_main, run_process
+from support.paths import ROOT, TRAINER
+from support.units import IN, LB
 
-ROOT = Path(__file__).resolve().parents[1]
-TRAINER = ROOT / "fixtures" / "trainer.toml"
-LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact
 MASS = {"kg": F(1), "lb": LB}
 LENGTH = {"m": F(1), "in": IN, "ft": 12 * IN, "mm": F(1, 1000)}
 INERTIA = {"kg*m**2": F(1), "lb*in**2": LB * IN * IN}

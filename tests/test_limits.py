@@ -14,7 +14,6 @@ from __future__ import annotations
 import math
 import tomllib
 from fractions import Fraction as F
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -27,9 +26,9 @@ from steelyard.core.limits.status import envelope_results
 from steelyard.core.loading.loadout import resolve
 from steelyard.core.physics.rollup import rollup_state
 from steelyard.io.ledger.read import ledger_from_data
+from support.paths import ROOT
+from support.units import IN, LB
 
-ROOT = Path(__file__).resolve().parents[1]
-LB, IN = F("0.45359237"), F("0.0254")  # NIST SP 811, exact
 
 
 def ledger(text: str):

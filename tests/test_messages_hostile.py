@@ -21,7 +21,6 @@ import math
 import unicodedata
 import warnings
 from fractions import Fraction as F
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -34,8 +33,8 @@ from steelyard.core.limits.solvers import add_mass, ballast_for_limit, ballast_t
 from steelyard.io.ledger.file import load_ledger
 from steelyard.tui.state.form_values import item_from_fields, quantity
 from support.cli import run_process
+from support.paths import ROOT
 
-ROOT = Path(__file__).resolve().parents[1]
 WEIGHING = ROOT / "fixtures" / "weighing-example.toml"  # a ledger in lb and in
 LB, IN, G_N = F("0.45359237"), F("0.0254"), F("9.80665")  # NIST SP 811, exact
 US = FileUnits("lb", "in", "lb*in**2")

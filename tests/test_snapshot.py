@@ -22,11 +22,10 @@ import numpy as np
 import pytest
 
 from support.cli import one_line_error, run_main
+from support.paths import ROOT, TRAINER
+from support.units import IN, LB
 
-ROOT = Path(__file__).resolve().parents[1]
-TRAINER = ROOT / "fixtures" / "trainer.toml"
 DRONE = ROOT / "fixtures" / "cargo-drone.toml"
-LB, IN = F("0.45359237"), F("0.0254")
 LOADOUTS = [lo["name"] for lo in tomllib.loads(TRAINER.read_text())["loadout"]]
 
 
