@@ -81,6 +81,15 @@ _STEPS = [60 * m for m in (1, 5, 15, 30, 60, 180, 360, 720)]
 _STEPS += [86400 * d for d in (1, 2, 7, 14, 30, 61, 91, 182, 365, 730, 1826)]
 
 
+
+def mass_range(s) -> tuple[float, float]:
+    """The plotted mass axis: every finite mass, predicted and allocation value, padded 8 % (or a little)."""
+    values = np.concatenate([s.mass, s.predicted, s.allocation])
+    values = values[np.isfinite(values)]
+    lo, hi = float(values.min()), float(values.max())
+    pad = 0.08 * (hi - lo) if hi > lo else max(abs(hi) * 0.05, 1.0)
+    return lo - pad, hi + pad
+
 def date_ticks(t0: float, t1: float, count: int = 5) -> list[tuple[float, str]]:
     """About `count` round instants in [t0, t1] (UTC minutes, hours or midnights) with their labels.
 
@@ -161,11 +170,7 @@ def trend_svg(trend: Trend, du: DisplayUnits) -> str:
     mu = escape(pretty_unit(du.mass))
     if len(s) == 0:
         return ""
-    values = np.concatenate([s.mass, s.predicted, s.allocation])
-    values = values[np.isfinite(values)]
-    lo, hi = float(values.min()), float(values.max())
-    pad = 0.08 * (hi - lo) if hi > lo else max(abs(hi) * 0.05, 1.0)
-    lo, hi = lo - pad, hi + pad
+    lo, hi = mass_range(s)
     t0, t1 = float(s.t.min()), float(s.t.max())
     margin = 0.03 * (t1 - t0) if t1 > t0 else 86400.0  # the first and last points clear of the frame
     t0, t1 = t0 - margin, t1 + margin

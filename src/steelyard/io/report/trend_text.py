@@ -17,7 +17,7 @@ from rich.text import Text
 
 from steelyard.core.display import DisplayUnits, pretty_unit, visible
 from steelyard.core.history.trend import Trend
-from steelyard.io.report.trend import COLOURS, date_ticks, series, trend_table, what_of
+from steelyard.io.report.trend import COLOURS, date_ticks, mass_range, series, trend_table, what_of
 from steelyard.io.report.raster import braille, fmt_tick, line_dots, nice_ticks
 
 
@@ -42,11 +42,7 @@ def chart_lines(trend: Trend, du: DisplayUnits, width: int = 64, height: int = 1
     s = series(trend, du)
     if len(s) == 0:
         return []
-    values = np.concatenate([s.mass, s.predicted, s.allocation])
-    values = values[np.isfinite(values)]
-    lo, hi = float(values.min()), float(values.max())
-    pad = 0.08 * (hi - lo) if hi > lo else max(abs(hi) * 0.05, 1.0)
-    lo, hi = lo - pad, hi + pad
+    lo, hi = mass_range(s)
     t0, t1 = float(s.t.min()), float(s.t.max())
     if not t1 > t0:
         t0, t1 = t0 - 86400.0, t1 + 86400.0
