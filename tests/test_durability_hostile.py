@@ -270,7 +270,7 @@ def test_waiting_journal_edits_stop_a_command_writer(ledger, tmp_path):
 def test_file_changed_by_another_program_while_a_command_works_is_not_overwritten(ledger):
     with rewriting(ledger, source=ledger, force=True) as out:
         loaded = open_ledger(ledger)
-        out.replaces(loaded, allow_comment_loss=True)
+        out.replaces(loaded)
         text = ledger.read_text() + "\n# edited by hand meanwhile\n"
         ledger.write_text(text)  # a text editor ignores the lock (docs/durability.md)
         with pytest.raises(ChangedOnDisk):
@@ -393,7 +393,7 @@ def test_stdout_on_a_full_device_is_one_line_exit_2(tmp_path):
 def test_import_into_a_read_only_ledger_needs_force(ledger, tmp_path):
     csv = tmp_path / "part.csv"
     csv.write_text("id,mass [lb],x [in],y [in],z [in]\nwing-l,101.5,138,-84,50\n")
-    # the fixture has comments, which --force also allows dropping; strip them so only the mode matters
+    # comments stripped: the file differs from the fixture, and only its mode matters here
     text = "\n".join(line for line in ledger.read_text().splitlines() if not line.lstrip().startswith("#"))
     ledger.write_text(text + "\n")
     ledger.chmod(0o444)  # writable by nobody (stat(2) mode bits); root would pass access(2) anyway
@@ -489,7 +489,7 @@ def test_editor_save_through_a_symlink_keeps_the_link(ledger, tmp_path):
     link = tmp_path / "alias.toml"
     link.symlink_to(ledger)
     loaded = open_ledger(link)
-    save_ledger(link, loaded.ledger, loaded=loaded, allow_comment_loss=True)
+    save_ledger(link, loaded.ledger, loaded=loaded)
     assert link.is_symlink() and open_ledger(ledger).ledger.items == loaded.ledger.items
 
 

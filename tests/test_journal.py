@@ -239,8 +239,7 @@ def test_lock_of_the_journal_and_its_life_cycle(ledger_file):
     assert J.pending(ledger_file) is None  # header only: nothing to restore
     journal.append(J.item_record(first.evolve(mass=2.0)))
     assert J.pending(ledger_file).in_use
-    record = save_ledger(ledger_file, J.replay(loaded.ledger, J.pending(ledger_file).records), loaded=loaded,
-                         allow_comment_loss=True)
+    record = save_ledger(ledger_file, J.replay(loaded.ledger, J.pending(ledger_file).records), loaded=loaded)
     journal.saved(record.sha256)
     assert J.pending(ledger_file) is None and journal.base_sha256 == record.sha256
     journal.append(J.item_record(first.evolve(mass=3.0)))

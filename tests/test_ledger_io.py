@@ -12,7 +12,7 @@ from fractions import Fraction as F
 import pytest
 
 from steelyard.core.errors import SteelyardError
-from steelyard.io.ledger.file import ChangedOnDisk, CommentsWouldBeLost, has_comments, open_ledger, save_ledger
+from steelyard.io.ledger.file import ChangedOnDisk, has_comments, open_ledger, save_ledger
 from steelyard.io.ledger.read import ledger_from_data
 from steelyard.io.ledger.write import ledger_to_toml
 from steelyard.io.ledger.toml_read import parse_toml
@@ -86,17 +86,15 @@ def test_fast_parser_agrees_with_tomllib(path):
     assert parse_toml(text, source=str(path)) == tomllib.loads(text)
 
 
-def test_comments_detected_and_save_asks(tmp_path):
+def test_comments_detected_and_kept_by_a_save(tmp_path):
     assert has_comments('a = "x # not a comment"\n') is False
     assert has_comments('a = 1 # yes\n') is True
     p = tmp_path / "l.toml"
     p.write_text("# hand-edited\n" + LEDGER)
     loaded = open_ledger(p)
-    with pytest.raises(CommentsWouldBeLost):
-        save_ledger(p, loaded.ledger, loaded=loaded)
-    assert p.read_text().startswith("# hand-edited")
-    save_ledger(p, loaded.ledger, loaded=loaded, allow_comment_loss=True)
-    assert not p.read_text().startswith("#")
+    before = p.read_bytes()
+    record = save_ledger(p, loaded.ledger, loaded=loaded)  # nothing to ask: the comment stays
+    assert p.read_bytes() == before and record.had_comments
 
 
 def test_changed_on_disk_is_not_overwritten(tmp_path):

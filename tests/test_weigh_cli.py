@@ -103,14 +103,21 @@ def test_human_output_shows_the_handbook_figures():
     assert "full fuel" in out.stdout and "unusable fuel" in out.stdout
 
 
-def test_apply_refuses_to_drop_comments_in_place(tmp_path):
+def test_apply_in_place_keeps_comments_and_layout(tmp_path):
+    import difflib
+
     path = tmp_path / "w.toml"
     shutil.copy(FIXTURE, path)
-    before = digest(path)
-    out = run("weigh", path, "--apply")
-    assert out.returncode == 2
-    assert len(out.stderr.strip().splitlines()) == 1 and "comments" in out.stderr and "--force" in out.stderr
-    assert digest(path) == before
+    before = path.read_text()
+    out = run("weigh", path, "--apply")  # no --force needed: nothing is lost
+    assert out.returncode == 0, out.stderr
+    after = path.read_text()
+    # difflib (Python standard library) of the two texts: only the weighed item's mass, CG x and
+    # maturity lines change, and the change-log entry is added; every comment line is still there
+    removed = [line for line in difflib.ndiff(before.splitlines(), after.splitlines()) if line.startswith("- ")]
+    assert removed == ["- mass = 1310.0", "- cg = [49.0, 0.0, 28.0]", '- maturity = "estimated"']
+    assert [t for t in before.splitlines() if t.startswith("#")] == [t for t in after.splitlines() if t.startswith("#")]
+    assert "[[change]]" in after and load_ledger(path).item("empty-vehicle").maturity == "measured"
 
 
 def test_apply_to_other_file_replaces_item_and_logs_change(tmp_path):
@@ -135,21 +142,12 @@ def test_apply_to_other_file_replaces_item_and_logs_change(tmp_path):
     assert entry["before"]["mass_kg"] == pytest.approx(float(1310 * LB), rel=1e-15)
     assert entry["after"]["mass_kg"] == pytest.approx(float(empty * LB), rel=1e-15)
     assert entry["d_mass_kg"] == pytest.approx(float((empty - 1310) * LB), rel=1e-12)
-    # a second weighing in place (the written file has no comments) keeps the first entry
+    # a second weighing in place keeps the first entry
     again = run("weigh", dst, "--apply")
     assert again.returncode == 0, again.stderr
     log = load_ledger(dst).changes
     assert [e["action"] for e in log] == ["weighing", "weighing"]
     assert log[0]["author"] == "J. Tester"
-
-
-def test_apply_force_in_place_says_comments_dropped(tmp_path):
-    path = tmp_path / "w.toml"
-    shutil.copy(FIXTURE, path)
-    out = run("weigh", path, "--apply", "--force")
-    assert out.returncode == 0, out.stderr
-    assert "comments were dropped" in out.stdout
-    assert "#" not in path.read_text()
 
 
 def test_apply_will_not_replace_existing_output(tmp_path):

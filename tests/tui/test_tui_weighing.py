@@ -76,7 +76,7 @@ async def test_form_prefilled_from_the_file_reduces_live_and_replaces_the_empty_
         assert "weighing empty-vehicle" in screen_text(app)
         # saved with the weighing record; undo would bring the estimate back
         await pilot.press("1")
-        app.session.save(allow_comment_loss=True)
+        app.session.save()
         data = tomllib.loads(Path(path).read_text())
         item = next(it for it in data["item"] if it["id"] == "empty-vehicle")
         assert abs(Fraction(item["mass"]) - EMPTY) < Fraction(1, 10 ** 9)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import sys
 
 NAME = "import"
 HELP = "read items from CSV (units in the headers) into a new ledger or merged into an existing one"
@@ -20,8 +21,7 @@ def add_arguments(p) -> None:
     p.add_argument("--into", metavar="EXISTING", help="merge into this ledger (loadouts, envelopes, units kept)")
     p.add_argument("--decimal-comma", action="store_true", help="cells use a decimal comma ('1,5')")
     p.add_argument("--force", action="store_true",
-                   help="replace an existing LEDGER, or rewrite EXISTING in place although its comments "
-                        "will be lost; also replaces a ledger that has no write permission")
+                   help="replace an existing LEDGER; also rewrites a ledger that has no write permission")
     p.add_argument("--author", help="name for the change log when merging (default: $STEELYARD_AUTHOR or login)")
 
 
@@ -39,7 +39,7 @@ def run(args) -> int:
     from steelyard.core.errors import SteelyardError
     from steelyard.io.durability.atomic import same_file
     from steelyard.io.exchange.csv_io import check_ledger, read_csv_file
-    from steelyard.io.ledger.file import CommentsWouldBeLost, rewriting
+    from steelyard.io.ledger.file import rewriting
     from steelyard.cli.commands.cmd_weigh import _author
     from steelyard.cli.loading import load_for_cli
 
@@ -51,11 +51,7 @@ def run(args) -> int:
     with rewriting(target, source=args.into, force=args.force) as out:  # the editor's lock, held to the end
         loaded = load_for_cli(args.into) if args.into else None
         if loaded is not None:
-            try:
-                out.replaces(loaded, allow_comment_loss=args.force)
-            except CommentsWouldBeLost:
-                raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o, or "
-                                     "pass --force", file=target) from None
+            out.replaces(loaded)
         imp = read_csv_file(args.csv, decimal_comma=args.decimal_comma, into=loaded.ledger if loaded else None,
                             check=False)
         ledger = imp.ledger
@@ -66,7 +62,10 @@ def run(args) -> int:
             except SteelyardError as exc:
                 raise exc.located(file=args.csv)
         text = check_ledger(ledger, args.csv)  # everything read back before anything is written
-        out.write(text)
+        out.write(out.text_for(ledger, canonical=text))  # in place: the file's comments and layout kept
+    if out.not_kept:
+        print(f"steelyard: note: {target}: written in canonical form; its own layout could not be kept "
+              f"({out.not_kept})", file=sys.stderr)
     done = f"imported {len(imp.added) + len(imp.replaced) + len(imp.unchanged)} items from {args.csv} into {target}"
     if loaded is not None:
         done += (f" ({len(imp.replaced)} changed, {len(imp.added)} added, {len(imp.unchanged)} unchanged"

@@ -22,8 +22,8 @@ def add_arguments(p) -> None:
     p.add_argument("--apply", action="store_true", help="write the ledger with the weighed empty item")
     p.add_argument("-o", "--output", metavar="OUT", help="with --apply: write to OUT instead of FILE")
     p.add_argument("--force", action="store_true",
-                   help="with --apply: rewrite FILE even though its comments will be lost or it has no write "
-                        "permission, or replace an existing OUT")
+                   help="with --apply: rewrite FILE although it has no write permission, or replace an "
+                        "existing OUT")
     p.add_argument("--author", help="name for the change log (default: $STEELYARD_AUTHOR or the login name)")
     p.add_argument("--units", choices=("si", "us"), help="display units (default: the file's own)")
 
@@ -54,7 +54,6 @@ def _with_log(ledger, new, item_id: str, summary: str, author: str):
 
 def _apply(args, loaded, w, out) -> dict:
     """Write the ledger with the weighed item through `out` (a LedgerRewrite, its lock held)."""
-    from steelyard.io.ledger.write import ledger_to_toml
     from steelyard.cli.loading import located
     from steelyard.io.report.weighing import weighed_ledger, weighing_summary
 
@@ -62,26 +61,22 @@ def _apply(args, loaded, w, out) -> dict:
     with located(loaded):
         new = weighed_ledger(ledger, w)
         new, logged = _with_log(ledger, new, w.replaces, weighing_summary(ledger, w), _author(args))
-    out.write(ledger_to_toml(new))
-    return {"file": out.target, "item": w.replaces, "change_logged": logged,
-            "comments_dropped": bool(out.in_place and loaded.had_comments)}
+    out.write(out.text_for(new))  # in place: the file's comments and layout kept
+    if out.not_kept:
+        print(f"steelyard: note: {out.target}: written in canonical form; its own layout could not be kept "
+              f"({out.not_kept})", file=sys.stderr)
+    return {"file": out.target, "item": w.replaces, "change_logged": logged}
 
 
 def _load(args, out):
     """Load FILE and reduce its weighing; with `out`, FILE is what the write replaces."""
-    from steelyard.core.errors import SteelyardError
-    from steelyard.io.ledger.file import CommentsWouldBeLost
     from steelyard.io.report.weighing import weigh_ledger
     from steelyard.cli.loading import load_for_cli
 
     loaded = load_for_cli(args.file)
     w = weigh_ledger(loaded.ledger, source=loaded.path)
     if out is not None:
-        try:
-            out.replaces(loaded, allow_comment_loss=args.force)
-        except CommentsWouldBeLost:
-            raise SteelyardError("has comments that rewriting it would drop; write elsewhere with -o OUT, or "
-                                 "pass --force to rewrite it anyway", file=out.target) from None
+        out.replaces(loaded)
     return loaded, w
 
 
@@ -126,8 +121,6 @@ def _applied_text(applied: dict) -> str:
     text = f"Wrote {applied['file']}: item {applied['item']!r} replaced by the weighed empty vehicle"
     if applied["change_logged"]:
         text += "; change log updated"
-    if applied["comments_dropped"]:
-        text += "; the file's comments were dropped (--force)"
     return text + "."
 
 

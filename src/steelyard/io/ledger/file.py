@@ -1,15 +1,17 @@
 """Opening and saving ledger files on disk.
 
-`open_ledger` remembers what it read (hash, whether the text had comments)
-so that `save_ledger` can refuse to overwrite a file someone changed on disk,
-warn before dropping hand-written comments, and never write over a file
-that failed to load. `rewriting` is the one way a command (not the editor)
-writes a ledger: it holds the editor's lock while it works and checks the
-file's hash again just before the rename.
+`open_ledger` remembers what it read (its hash) so that `save_ledger` can
+refuse to overwrite a file someone changed on disk, never write over a file
+that failed to load, and write over the file it read keeping that file's
+layout (io.ledger.layout: comments, order, blank lines and the text of
+every value that did not change). `rewriting` is the one way a command (not
+the editor) writes a ledger: it holds the editor's lock while it works and
+checks the file's hash again just before the rename.
 """
 
 from __future__ import annotations
 
+import codecs
 import hashlib
 import os
 import re
@@ -27,6 +29,7 @@ from steelyard.io.durability.atomic import (  # noqa: F401 - ChangedOnDisk re-ex
 )
 from steelyard.io.durability import journal as _journal
 from steelyard.io.durability.lock import Lock, Locked, LockRefused, LockUnavailable, acquire, is_stale, take_over
+from steelyard.io.ledger.layout import preserve
 from steelyard.io.ledger.read import Progress, ledger_from_data
 from steelyard.io.ledger.write import ledger_to_toml
 from steelyard.io.ledger.toml_read import decode, parse_toml
@@ -47,12 +50,10 @@ class LoadedLedger:
     ledger: Ledger
     path: str
     sha256: str
-    had_comments: bool
+    had_comments: bool  # for information: a save keeps comments either way
     read_at: float
-
-
-class CommentsWouldBeLost(SteelyardError):
-    """Saving would replace a hand-edited file whose comments the writer cannot keep."""
+    #: after a save over the file it read: why its own layout could not be kept ("" when it was)
+    not_kept: str = ""
 
 
 def read_bytes(path: str | os.PathLike) -> bytes:
@@ -113,13 +114,31 @@ def disk_changed(loaded: LoadedLedger) -> bool:
     return hashlib.sha256(data).hexdigest() != loaded.sha256
 
 
+def _kept_layout(path: str, sha256: str, original: Ledger, ledger: Ledger,
+                 canonical: str | None = None) -> tuple[str, str]:
+    """(text, why not kept): `ledger` over the file at `path`, keeping its layout if it still holds the
+    bytes (`sha256`) that `original` was read from; else the canonical text (`canonical`, when given)."""
+    try:
+        data = Path(path).read_bytes()
+    except OSError:
+        data = b""
+    if not data or hashlib.sha256(data).hexdigest() != sha256:
+        why = "the file is not the one that was read" if data else "the file is gone"
+        return (canonical if canonical is not None else ledger_to_toml(ledger)), why
+    done = preserve(data.decode("utf-8-sig"), original, ledger, canonical=canonical)
+    text = "\ufeff" + done.text if data.startswith(codecs.BOM_UTF8) else done.text  # a byte-order mark stays
+    return text, done.why if done.how == "canonical" else ""
+
+
 def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger | None = None,
-                allow_comment_loss: bool = False, overwrite_changed: bool = False) -> LoadedLedger:
-    """Write the ledger canonically and atomically; returns the new on-disk record.
+                overwrite_changed: bool = False) -> LoadedLedger:
+    """Write the ledger atomically; returns the new on-disk record.
 
     With `loaded` (what this session read from the same path) the save stops
-    with `ChangedOnDisk` if the file changed meanwhile, and with
-    `CommentsWouldBeLost` if the file had comments, unless told otherwise.
+    with `ChangedOnDisk` if the file changed meanwhile (unless
+    `overwrite_changed`), and what did not change keeps its bytes: comments,
+    order, blank lines, number text (io.ledger.layout). Otherwise, and over a
+    file changed on disk, the canonical text is written.
     """
     target = str(path)
     same = loaded is not None and os.path.realpath(loaded.path) == os.path.realpath(target)
@@ -129,13 +148,14 @@ def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger
         if now not in (loaded.sha256, ABSENT):  # a deleted file may be written again
             raise ChangedOnDisk("changed on disk since it was opened; reload or save elsewhere", file=target)
         expect = now  # checked again just before the rename: the text below takes a while on a big ledger
-    if same and loaded.had_comments and not allow_comment_loss:
-        raise CommentsWouldBeLost("saving rewrites the file in canonical form and drops its comments",
-                                  file=target)
-    text = ledger_to_toml(ledger)
+    why = ""
+    if same:
+        text, why = _kept_layout(os.path.realpath(target), loaded.sha256, loaded.ledger, ledger)
+    else:
+        text = ledger_to_toml(ledger)
     data = text.encode("utf-8")
     write_atomic(target, data, through_symlink=True, expect_sha256=expect)
-    return LoadedLedger(ledger, target, hashlib.sha256(data).hexdigest(), False, time.time())
+    return LoadedLedger(ledger, target, hashlib.sha256(data).hexdigest(), has_comments(text), time.time(), why)
 
 
 # ------------------------------------------------------------ command writers
@@ -146,19 +166,28 @@ class LedgerRewrite:
         self.target = target
         self.in_place = in_place
         self._expect = expect  # the target's hash when the lock was taken (ABSENT: no file)
+        self._original: Ledger | None = None  # what the target's text reads as, when it is rewritten in place
+        self.not_kept = ""  # after `text_for` in place: why the file's own layout could not be kept
 
-    def replaces(self, loaded: LoadedLedger, *, allow_comment_loss: bool = False) -> None:
+    def replaces(self, loaded: LoadedLedger) -> None:
         """Say that what is written replaces `loaded`: call right after loading, before the slow work.
 
         If `loaded` is the target itself, the write will go ahead only if the
-        file still has the bytes that were read, and a file with comments is
-        refused (`CommentsWouldBeLost`) unless `allow_comment_loss`.
+        file still has the bytes that were read, and `text_for` keeps its layout.
         """
         if not (self.in_place and same_file(loaded.path, self.target)):
             return
-        if loaded.had_comments and not allow_comment_loss:
-            raise CommentsWouldBeLost("rewriting it in canonical form would drop its comments", file=self.target)
         self._expect = loaded.sha256
+        self._original = loaded.ledger
+
+    def text_for(self, ledger: Ledger, *, canonical: str | None = None) -> str:
+        """The text to write for `ledger`: over the file it replaces, that file's layout kept (comments,
+        order, the text of unchanged values); otherwise canonical (`canonical`, if already made)."""
+        if self._original is None:
+            return canonical if canonical is not None else ledger_to_toml(ledger)
+        text, self.not_kept = _kept_layout(os.path.realpath(self.target), self._expect, self._original, ledger,
+                                           canonical)
+        return text
 
     def write(self, text: str) -> str:
         """Write `text` atomically; refuses (`ChangedOnDisk`) if the file changed since it was read."""

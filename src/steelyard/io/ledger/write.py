@@ -16,7 +16,7 @@ from __future__ import annotations
 import math
 
 from steelyard.core.physics.inertia import COMPONENTS
-from steelyard.core.document.model import Envelope, FileUnits, Item, Ledger, Loadout
+from steelyard.core.document.model import Amount, Envelope, FileUnits, Frame, Item, Ledger, Loadout
 from steelyard.core.errors import UnitError
 from steelyard.core.units import parse_quantity, unit_factor
 from steelyard.io.ledger.toml_write import key, number, string, tables, value
@@ -51,22 +51,23 @@ def _with_unit(x: float, dimension: str, unit: str) -> str:
     return f"{number(x, _factor(unit, dimension))} {unit}"
 
 
-def _item(it: Item, u: FileUnits) -> list[str]:
+def item_fields(it: Item, u: FileUnits) -> list[tuple[str, str]]:
+    """(key, value text) of one `[[item]]`, in the order they are written."""
     g = it.given_units
-    out = ["[[item]]", f"id = {string(it.id)}"]
+    out = [("id", string(it.id))]
     if it.name:
-        out.append(f"name = {string(it.name)}")
+        out.append(("name", string(it.name)))
     if it.group:
-        out.append(f"group = {string(it.group)}")
-    out.append(f"mass = {_qty(it.mass, 'mass', u.mass, g.get('mass'))}")
-    out.append("cg = [" + ", ".join(_qty(c, "length", u.length, g.get(f"cg.{k}"))
-                                    for k, c in enumerate(it.cg)) + "]")
+        out.append(("group", string(it.group)))
+    out.append(("mass", _qty(it.mass, "mass", u.mass, g.get("mass"))))
+    out.append(("cg", "[" + ", ".join(_qty(c, "length", u.length, g.get(f"cg.{k}"))
+                                      for k, c in enumerate(it.cg)) + "]"))
     if it.quantity != 1:
-        out.append(f"quantity = {it.quantity}")
+        out.append(("quantity", str(it.quantity)))
     if it.inertia is not None:
         parts = [f"{k} = {_qty(v, 'inertia', u.inertia, g.get('inertia.' + k))}"
                  for k, v in zip(COMPONENTS, it.inertia)]
-        out.append("inertia = { " + ", ".join(parts) + " }")
+        out.append(("inertia", "{ " + ", ".join(parts) + " }"))
     if it.shape is not None:
         parts = [f"kind = {string(it.shape.kind)}"]
         for k, v in it.shape.params.items():
@@ -76,44 +77,78 @@ def _item(it: Item, u: FileUnits) -> list[str]:
                 parts.append(f"{key(k)} = {_qty(v, 'length', u.length, None)}")
         if it.shape.axis != "z":
             parts.append(f"axis = {string(it.shape.axis)}")
-        out.append("shape = { " + ", ".join(parts) + " }")
+        out.append(("shape", "{ " + ", ".join(parts) + " }"))
     if it.rotate:
-        out.append("rotate = [" + ", ".join(f"[{string(a)}, {number(d)}]" for a, d in it.rotate) + "]")
+        out.append(("rotate", "[" + ", ".join(f"[{string(a)}, {number(d)}]" for a, d in it.rotate) + "]"))
     if it.variable:
-        out.append("variable = true")
+        out.append(("variable", "true"))
     if it.density is not None:
-        out.append(f"density = {_qty(it.density, 'density', u.density_unit, g.get('density'))}")
+        out.append(("density", _qty(it.density, "density", u.density_unit, g.get("density"))))
     more = {"cg_table": it.cg_table, "growth": it.growth, "loaded": it.loaded, "maturity": it.maturity,
             "removable": it.removable or None, "tolerance": it.tolerance, "user": it.user}
-    out.extend(f"{k} = {value(v)}" for k, v in more.items() if v is not None)
+    out.extend((k, value(v)) for k, v in more.items() if v is not None)
     return out
 
 
-def _loadout(lo: Loadout) -> list[str]:
-    out = ["[[loadout]]", f"name = {string(lo.name)}"]
+def item_lines(it: Item, u: FileUnits) -> list[str]:
+    return ["[[item]]"] + [f"{k} = {t}" for k, t in item_fields(it, u)]
+
+
+def amount_text(amount: Amount) -> str:
+    """A loadout amount as written: a fraction as a number, a mass or volume as its own text."""
+    if amount.kind == "fraction":
+        return number(amount.value)
+    if not amount.given:
+        unit = "kg" if amount.kind == "mass" else "m**3"
+        return string(f"{number(amount.value)} {unit}")
+    return string(amount.given)
+
+
+def loadout_fields(lo: Loadout) -> list[tuple[str, str]]:
+    """(key, value text) of a `[[loadout]]`'s own keys; its amounts are `amount_text` under `[loadout.set]`."""
+    out = [("name", string(lo.name))]
     if lo.base is not None:
-        out.append(f"base = {string(lo.base)}")
+        out.append(("base", string(lo.base)))
     more = {"condition": lo.condition, "off": lo.off, "on": lo.on, "user": lo.user}
-    out.extend(f"{k} = {value(v)}" for k, v in more.items() if v is not None)
+    out.extend((k, value(v)) for k, v in more.items() if v is not None)
+    return out
+
+
+def loadout_lines(lo: Loadout) -> list[str]:
+    out = ["[[loadout]]"] + [f"{k} = {t}" for k, t in loadout_fields(lo)]
     if lo.set:
         out.append("[loadout.set]")
-        for item_id, amount in lo.set.items():
-            text = number(amount.value) if amount.kind == "fraction" else string(amount.given or "")
-            if amount.kind != "fraction" and not amount.given:
-                unit = "kg" if amount.kind == "mass" else "m**3"
-                text = string(f"{number(amount.value)} {unit}")
-            out.append(f"{key(item_id)} = {text}")
+        out.extend(f"{key(item_id)} = {amount_text(amount)}" for item_id, amount in lo.set.items())
     return out
 
 
-def _envelope(env: Envelope, u: FileUnits) -> list[str]:
+def envelope_fields(env: Envelope, u: FileUnits) -> list[tuple[str, str]]:
     lf, mf = _factor(u.length, "length"), _factor(u.mass, "mass")
     pts = ", ".join(f"[{number(c, lf)}, {number(m, mf)}]" for c, m in env.points)
-    out = ["[[envelope]]", f"name = {string(env.name)}", f"axis = {string(env.axis)}", f"points = [{pts}]"]
+    out = [("name", string(env.name)), ("axis", string(env.axis)), ("points", f"[{pts}]")]
     more = {"conditions": env.conditions, "loadouts": env.loadouts, "sequences": env.sequences,
             "units": env.units, "user": env.user}
-    out.extend(f"{k} = {value(v)}" for k, v in more.items() if v is not None)
+    out.extend((k, value(v)) for k, v in more.items() if v is not None)
     return out
+
+
+def envelope_lines(env: Envelope, u: FileUnits) -> list[str]:
+    return ["[[envelope]]"] + [f"{k} = {t}" for k, t in envelope_fields(env, u)]
+
+
+def units_fields(u: FileUnits) -> list[tuple[str, str]]:
+    """mass, length and inertia always; volume and density when given."""
+    units = {"mass": u.mass, "length": u.length, "inertia": u.inertia}
+    units.update((k, v) for k, v in (("density", u.density), ("volume", u.volume)) if v is not None)
+    return [(key(k), string(v)) for k, v in units.items()]
+
+
+def frame_fields(f: Frame) -> list[tuple[str, str]]:
+    return [("x", string(f.x)), ("y", string(f.y)), ("z", string(f.z))]
+
+
+def table_lines(name: str, fields: list[tuple[str, str]]) -> list[str]:
+    return [f"[{name}]"] + [f"{k} = {t}" for k, t in fields]
 
 
 def other_tables(ledger: Ledger, *, snapshot: bool = True) -> dict:
@@ -137,15 +172,11 @@ def other_tables(ledger: Ledger, *, snapshot: bool = True) -> dict:
 def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True) -> str:
     """The whole file; `snapshot=False` leaves out the [snapshot] record (what its hash covers)."""
     u = ledger.units
-    blocks: list[list[str]] = [["steelyard = 1"]]
-    units = {"mass": u.mass, "length": u.length, "inertia": u.inertia}
-    units.update((k, v) for k, v in (("density", u.density), ("volume", u.volume)) if v is not None)
-    blocks.append(["[units]"] + [f"{key(k)} = {string(v)}" for k, v in units.items()])
-    f = ledger.frame
-    blocks.append(["[frame]", f"x = {string(f.x)}", f"y = {string(f.y)}", f"z = {string(f.z)}"])
-    blocks.extend(_item(it, u) for it in ledger.items)
-    blocks.extend(_loadout(lo) for lo in ledger.loadouts)
-    blocks.extend(_envelope(env, u) for env in ledger.envelopes)
+    blocks: list[list[str]] = [["steelyard = 1"], table_lines("units", units_fields(u)),
+                               table_lines("frame", frame_fields(ledger.frame))]
+    blocks.extend(item_lines(it, u) for it in ledger.items)
+    blocks.extend(loadout_lines(lo) for lo in ledger.loadouts)
+    blocks.extend(envelope_lines(env, u) for env in ledger.envelopes)
     text = "\n\n".join("\n".join(b) for b in blocks) + "\n"
     rest = tables(other_tables(ledger, snapshot=snapshot))
     if rest:

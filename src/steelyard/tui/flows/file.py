@@ -1,9 +1,9 @@
 """The App's file actions: load (in a thread, with progress), save, save as, open, quit.
 
-Saving asks instead of overwriting: when the file changed on disk, when the
-rewrite would drop hand-written comments, when Save as would replace another
-file, and when there is no file yet (the demo copy, a new ledger). Quitting
-with unsaved work asks too. The lock is taken on open and released on quit.
+Saving asks instead of overwriting: when the file changed on disk, when Save
+as would replace another file, and when there is no file yet (the demo copy,
+a new ledger). A save over the opened file keeps its comments and layout, so
+there is nothing to ask about them. Quitting with unsaved work asks too. The lock is taken on open and released on quit.
 """
 
 from __future__ import annotations
@@ -19,7 +19,7 @@ from steelyard.core.physics.groups import subtotals
 from steelyard.core.loading.loadout import resolve
 from steelyard.core.document.model import Ledger
 from steelyard.io.ledger.demo import demo_path
-from steelyard.io.ledger.file import ChangedOnDisk, CommentsWouldBeLost, open_ledger
+from steelyard.io.ledger.file import ChangedOnDisk, open_ledger
 from steelyard.tui.screens.confirm import ConfirmScreen
 from steelyard.tui.screens.loading_screen import LoadingScreen
 from steelyard.tui.widgets.log_view import when
@@ -179,15 +179,6 @@ class FileFlows:
                     flags["overwrite_changed"] = True
                     continue
                 return await self.save_steps("ask") if choice == "save_as" else False
-            except CommentsWouldBeLost:
-                choice = await self._ask(
-                    "This file has hand-written comments. Saving rewrites it in canonical form and drops "
-                    "them. Save anyway?", [("save", "Save, drop comments"), ("save_as", "Save as…"),
-                                           ("cancel", "Cancel")], "Comments")
-                if choice == "save":
-                    flags["allow_comment_loss"] = True
-                    continue
-                return await self.save_steps("ask") if choice == "save_as" else False
             except SteelyardError as exc:
                 self.notify(str(exc), title="Not saved", severity="error", markup=False, timeout=8)
                 return False
@@ -199,7 +190,12 @@ class FileFlows:
         moved = old_path is None or os.path.realpath(old_path) != os.path.realpath(written)
         s.journal_saved(snap[0], moved=moved)
         self._journal_warning()
-        self.notify(f"saved {written}", markup=False, timeout=3)
+        why = s.loaded.not_kept if s.loaded is not None else ""
+        if why:  # rare: a layout the in-place writer does not edit; the meaning is saved all the same
+            self.notify(f"saved {written} in canonical form; its own layout could not be kept ({why})",
+                        severity="warning", markup=False, timeout=8)
+        else:
+            self.notify(f"saved {written}", markup=False, timeout=3)
         self.update_title()
         self.refresh_views()
         return True

@@ -295,12 +295,13 @@ class Session:
         self.flush()
         return self.ledger, self.history.log
 
-    def save(self, path: str | None = None, *, allow_comment_loss: bool = False,
-             overwrite_changed: bool = False, snapshot: tuple[Ledger, tuple] | None = None) -> str:
+    def save(self, path: str | None = None, *, overwrite_changed: bool = False,
+             snapshot: tuple[Ledger, tuple] | None = None) -> str:
         """Write the ledger and its change log atomically; returns the path written.
 
-        `snapshot` (from `snapshot()`) lets the write run in a worker thread
-        while edits go on. Raises ChangedOnDisk / CommentsWouldBeLost (from io)
+        Saving over the file that was opened keeps its layout and comments
+        (io.ledger.layout). `snapshot` (from `snapshot()`) lets the write run
+        in a worker thread while edits go on. Raises ChangedOnDisk (from io)
         for the caller to ask about, and SteelyardError when there is nowhere
         to save yet.
         """
@@ -323,8 +324,7 @@ class Session:
         ledger, log = snapshot if snapshot is not None else self.snapshot()
         try:
             record = save_ledger(target, ledger_with_log(ledger, log),
-                                 loaded=self.loaded if same else None,
-                                 allow_comment_loss=allow_comment_loss, overwrite_changed=overwrite_changed)
+                                 loaded=self.loaded if same else None, overwrite_changed=overwrite_changed)
         except BaseException:
             if new_lock is not None:
                 new_lock.release()
