@@ -195,7 +195,7 @@ class FileFlows:
             self.notify(f"saved {written} in canonical form; its own layout could not be kept ({why})",
                         severity="warning", markup=False, timeout=8)
         else:
-            self.notify(f"saved {written}", markup=False, timeout=3)
+            self.notify(f"saved {written}", markup=False, timeout=5)
         self.update_title()
         self.refresh_views()
         return True
