@@ -185,6 +185,15 @@ class _State:
     rows: np.ndarray | None = None  # each row's mass as carried (loadout states only)
 
 
+def _frozen_loadout(ledger: Ledger) -> tuple[str | None, str | None] | None:
+    """(loadout, condition) a snapshot froze, as its [snapshot] record names them; None for a ledger."""
+    record = ledger.snapshot
+    if not isinstance(record, dict):
+        return None
+    lo, cond = record.get("loadout"), record.get("condition")
+    return (lo if isinstance(lo, str) else None, cond if cond in ("ramp", "takeoff", "landing") else None)
+
+
 def _loadout_states(ledger: Ledger, names: list[str | None]) -> list[_State]:
     out = []
     for name in names:
@@ -198,7 +207,11 @@ def _loadout_states(ledger: Ledger, names: list[str | None]) -> list[_State]:
         state = state_from_fill(ledger, fill, name)
         mp = rollup_state(state)
         check_finite_rollup(mp, ledger.items)
-        tags = frozenset([("condition", cond)] + ([("loadout", name)] if name is not None else []))
+        frozen = _frozen_loadout(ledger) if name is None else None
+        if frozen is not None:  # a snapshot is its loadout's state: scopes apply as they did in the source
+            cond = frozen[1] or cond
+        as_loadout = name if frozen is None else frozen[0]
+        tags = frozenset([("condition", cond)] + ([("loadout", as_loadout)] if as_loadout is not None else []))
         out.append(_State(label, name, "loadout", cond, tags, mp.mass, mp.cg, mp.inertia_cg, state.mass))
         zf = zero_fuel_fill(ledger, fill)
         if zf is not None:
