@@ -318,7 +318,6 @@ def test_the_change_logs_are_joined(tmp_path):
 
 
 def test_comments_of_ours_are_kept_where_nothing_changed(tmp_path):
-    pytest.importorskip("steelyard.io.ledger.layout", reason="layout-keeping writer not present yet")
     ours = HEAD + ITEMS.replace('[[item]]\nid = "radio"', '# bought 2024\n[[item]]\nid = "radio"')
     theirs = HEAD + ITEMS.replace("mass = 41.5", "mass = 40.0")
     rc, text = _merge(tmp_path, HEAD + ITEMS, ours, theirs)

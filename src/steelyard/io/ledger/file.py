@@ -70,6 +70,21 @@ def read_bytes(path: str | os.PathLike) -> bytes:
         raise SteelyardError(f"cannot read ({exc.strerror})", file=str(path)) from None
 
 
+def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = None,
+                      fast: bool = True) -> tuple[Ledger, str]:
+    """(ledger, text) of a ledger file's bytes, checked as strictly as a file on disk."""
+    try:
+        if not data.strip():
+            raise FormatError("empty file (a ledger starts with 'steelyard = 1')", file=source)
+        text = decode(data, source=source)
+        if progress is not None:
+            progress("parsing", 0.0)
+        parsed = parse_toml(text, source=source, fast=fast)
+        return ledger_from_data(parsed, source=source, progress=progress), text
+    except (RecursionError, MemoryError):
+        raise FormatError("too deeply nested or too large to read", file=source) from None
+
+
 def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
                 fast: bool = True) -> LoadedLedger:
     """Read and check a ledger file. On any error the file is marked never to be overwritten.
@@ -84,20 +99,11 @@ def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
     source = str(path)
     try:
         data = read_bytes(path)
-        if not data.strip():
-            raise FormatError("empty file (a ledger starts with 'steelyard = 1')", file=source)
-        text = decode(data, source=source)
-        if progress is not None:
-            progress("parsing", 0.0)
-        parsed = parse_toml(text, source=source, fast=fast)
-        ledger = ledger_from_data(parsed, source=source, progress=progress)
+        ledger, text = ledger_from_bytes(data, source=source, progress=progress, fast=fast)
     except SteelyardError:
         if os.path.isfile(source):
             mark_failed(source)
         raise
-    except (RecursionError, MemoryError):
-        mark_failed(source)
-        raise FormatError("too deeply nested or too large to read", file=source) from None
     mark_loaded(source)
     return LoadedLedger(ledger, source, hashlib.sha256(data).hexdigest(), has_comments(text), time.time())
 

@@ -2,8 +2,8 @@
 
 The merge (core.history.merge) decides by meaning; this module writes the
 result. The merged ledger is written over OURS's text so that what neither
-side changed keeps its bytes (io.ledger.layout, when present; otherwise the
-one canonical writer). Each conflict then becomes
+side changed keeps its bytes (io.ledger.layout, which falls back to the one
+canonical writer where it cannot). Each conflict then becomes
 
     <<<<<<< ours
     [[item]]            <- the entry as ours has it (its own text)
@@ -28,6 +28,7 @@ from steelyard.core.document.model import Ledger
 from steelyard.core.history.merge import Conflict, MergeResult
 from steelyard.io.ledger.conflicts import inside, string_spans
 from steelyard.io.ledger.write import ledger_to_toml
+from steelyard.io.ledger.layout import preserving_text
 
 #: arrays of tables merged by key: file name -> (Ledger field, key field)
 ARRAYS = {"item": ("items", "id"), "loadout": ("loadouts", "name"), "envelope": ("envelopes", "name"),
@@ -175,10 +176,6 @@ def with_markers(text: str, conflicts: tuple[Conflict, ...], theirs_text: str | 
 
 def layout_text(ours_text: str, ours: Ledger, merged: Ledger) -> str:
     """The merged ledger written over ours' text (its comments, order and layout kept where unchanged)."""
-    try:
-        from steelyard.io.ledger.layout import preserving_text
-    except ImportError:  # until the layout-keeping writer exists: the canonical text
-        return ledger_to_toml(merged)
     return preserving_text(ours_text, ours, merged)
 
 
