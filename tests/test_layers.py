@@ -18,7 +18,7 @@ from support.cli import run_headless, run_python
 
 SRC = pathlib.Path(steelyard.__file__).resolve().parent
 
-CORE_SUBPACKAGES = ["document", "physics", "loading", "limits", "control", "history"]
+CORE_SUBPACKAGES = ["document", "physics", "loading", "limits", "control", "history", "assembly"]
 IO_SUBPACKAGES = ["ledger", "durability", "exchange", "report", "vcs"]
 
 # Prints how many steelyard modules it imported, then the terminal-stack modules sys.modules holds.

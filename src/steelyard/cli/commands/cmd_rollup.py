@@ -27,7 +27,7 @@ def run(args) -> int:
         from steelyard.io.exchange.rollup_json import record_from
 
         with located(loaded):  # a roll-up beyond a float names the file and the item
-            record = record_from(loaded.ledger, mp, args.loadout)
+            record = record_from(loaded.ledger, mp, args.loadout, state)
         json.dump(record, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
         return 0

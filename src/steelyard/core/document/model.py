@@ -79,6 +79,9 @@ class Item:
     loaded: Mapping[str, object] | None = None
     #: the user's own data, never interpreted, kept verbatim
     user: Mapping[str, object] | None = None
+    #: full id of the assembly placement this item comes from (None: the file's own item).
+    #: Placed items are read-only copies in the parent's frame; the writer never writes them.
+    source: str | None = None
 
     @property
     def label(self) -> str:
@@ -221,6 +224,9 @@ class Ledger:
     snapshot: Mapping[str, object] | None = None  # [snapshot] (io.ledger.snapshot)
     #: [user]: the user's own data, never interpreted, kept verbatim
     user: Mapping[str, object] | None = None
+    assemblies: tuple[Mapping[str, object], ...] = ()  # [[assembly]] as written (core.assembly)
+    #: resolved placements (core.assembly.flatten.Placed), nested ones included; never written
+    placed: tuple = ()
 
     @cached_property
     def arrays(self) -> ItemArrays:
@@ -260,6 +266,23 @@ class Ledger:
     def without_item(self, item_id: str) -> "Ledger":
         i = self.index[item_id]
         return self.evolve(items=self.items[:i] + self.items[i + 1:])
+
+    @property
+    def own_items(self) -> tuple[Item, ...]:
+        """The items this file itself holds (placed items left out)."""
+        if not self.placed:
+            return self.items
+        return tuple(it for it in self.items if it.source is None)
+
+
+def document_of(ledger: Ledger) -> Ledger:
+    """The file as written: own items and the [[assembly]] table, no placed items.
+
+    What every writer writes; the same object when nothing is placed.
+    """
+    if not ledger.placed:
+        return ledger
+    return replace(ledger, items=ledger.own_items, placed=())
 
 
 #: keys beyond v1 of each table, as written: what diffs compare and displays list by name

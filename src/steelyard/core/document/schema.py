@@ -50,12 +50,14 @@ SNAPSHOT = {"format": VALUE, "taken": VALUE, "author": VALUE, "source": VALUE, "
             "loadout": VALUE, "condition": VALUE, "names": OPEN, "steelyard_version": VALUE, "caution": VALUE, "content_sha256": VALUE, "totals": OPEN,
             "envelopes": OPEN}
 
+ASSEMBLY = {"id": VALUE, "file": VALUE, "group": VALUE, "at": VALUE, "mirror": VALUE, "rotate": VALUE, USER: OPEN}
+
 TOP = {"steelyard": VALUE, "units": UNITS, "frame": FRAME, "item": ITEM, "loadout": LOADOUT, "envelope": ENVELOPE,
        "limit": LIMIT, "mac": MAC, "fuel": FUEL, "growth": OPEN, "allocation": ALLOCATION, "weighing": WEIGHING,
-       "sequence": SEQUENCE, "change": CHANGE, "snapshot": SNAPSHOT, USER: OPEN}
+       "sequence": SEQUENCE, "change": CHANGE, "snapshot": SNAPSHOT, "assembly": ASSEMBLY, USER: OPEN}
 
 #: keys written as arrays of tables ([[name]]); the rest of the nested schemas are single tables
-ARRAYS = frozenset({"item", "loadout", "envelope", "limit", "allocation", "sequence", "change",
+ARRAYS = frozenset({"assembly", "item", "loadout", "envelope", "limit", "allocation", "sequence", "change",
                     "point", "on_board", "missing", "step"})
 
 

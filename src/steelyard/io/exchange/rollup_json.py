@@ -5,7 +5,8 @@ from __future__ import annotations
 import math
 
 from steelyard.core.limits.rules import mac_reference
-from steelyard.core.loading.loadout import resolve
+from steelyard.core.assembly.flatten import placed_totals
+from steelyard.core.loading.loadout import State, resolve
 from steelyard.core.document.model import Ledger
 from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
 from steelyard.core.limits.status import envelope_results
@@ -25,12 +26,24 @@ def _mat(m) -> list:
 
 
 def rollup_record(ledger: Ledger, loadout: str | None = None) -> dict:
-    mp = rollup_state(resolve(ledger, loadout))
-    return record_from(ledger, mp, loadout)
+    state = resolve(ledger, loadout)
+    return record_from(ledger, rollup_state(state), loadout, state)
 
 
-def record_from(ledger: Ledger, mp: MassProperties, loadout: str | None) -> dict:
-    """The record of roll-up `mp` of `ledger`; a roll-up beyond a float is refused, naming the item."""
+def assemblies_record(ledger: Ledger, state: State) -> list[dict]:
+    """`assemblies` (contract v1.1): each placement's mass and CG as loaded, parent frame, SI."""
+    out = []
+    for p in ledger.placed:
+        mass, cg = placed_totals(p, state.mass, state.cg)
+        out.append({"id": p.id, "file": p.file, "mass_kg": _num(mass), "cg_m": _vec(cg)})
+    return out
+
+
+def record_from(ledger: Ledger, mp: MassProperties, loadout: str | None, state: State | None = None) -> dict:
+    """The record of roll-up `mp` of `ledger`; a roll-up beyond a float is refused, naming the item.
+
+    `state` is the loaded state `mp` rolls up (made again when not given and the ledger has assemblies).
+    """
     check_finite_rollup(mp, ledger.items)
     zero = mp.mass <= 0
     moments, axes = (None, None) if zero else mp.principal
@@ -53,4 +66,6 @@ def record_from(ledger: Ledger, mp: MassProperties, loadout: str | None) -> dict
     }
     if mac is not None and not zero:
         record["cg_percent_mac"] = _num(mac.percent(float(mp.cg[0])))
+    if ledger.placed:
+        record["assemblies"] = assemblies_record(ledger, state if state is not None else resolve(ledger, loadout))
     return record

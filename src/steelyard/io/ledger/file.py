@@ -71,8 +71,11 @@ def read_bytes(path: str | os.PathLike) -> bytes:
 
 
 def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = None,
-                      fast: bool = True) -> tuple[Ledger, str]:
-    """(ledger, text) of a ledger file's bytes, checked as strictly as a file on disk."""
+                      fast: bool = True, tree=None, tree_source=None) -> tuple[Ledger, str]:
+    """(ledger, text) of a ledger file's bytes, checked as strictly as a file on disk.
+
+    Assemblies are read from `tree_source`'s folder (default: the file `source` names).
+    """
     try:
         if not data.strip():
             raise FormatError("empty file (a ledger starts with 'steelyard = 1')", file=source)
@@ -80,7 +83,8 @@ def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = N
         if progress is not None:
             progress("parsing", 0.0)
         parsed = parse_toml(text, source=source, fast=fast)
-        return ledger_from_data(parsed, source=source, progress=progress), text
+        return ledger_from_data(parsed, source=source, progress=progress, tree=tree,
+                                tree_source=tree_source), text
     except (RecursionError, MemoryError):
         raise FormatError("too deeply nested or too large to read", file=source) from None
 

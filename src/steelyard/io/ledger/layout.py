@@ -30,11 +30,11 @@ from __future__ import annotations
 import time
 from dataclasses import dataclass, field
 
-from steelyard.core.document.model import Ledger
+from steelyard.core.document.model import Ledger, document_of
 from steelyard.io.ledger.layout_fields import (ARRAYS, ORDER, SINGLES, UNIT_BOUND, entries, entry_text, fields,
                                                keys, render, same_entry, same_ledger)
 from steelyard.io.ledger.layout_scan import Statement, Unsupported, pieces, statements
-from steelyard.io.ledger.read import ledger_from_data
+from steelyard.io.ledger.read import DOCUMENT, ledger_from_data
 from steelyard.io.ledger.toml_read import parse_toml
 from steelyard.io.ledger.toml_write import key
 from steelyard.io.ledger.write import ledger_to_toml
@@ -69,7 +69,8 @@ def preserve(original_text: str, original: Ledger, new: Ledger, *, canonical: st
         return Preserved(text, "unchanged")  # it reads as `original`, which equals `new` entry by entry
     t0 = time.perf_counter()
     try:
-        ok = same_ledger(ledger_from_data(parse_toml(text, source=SOURCE), source=SOURCE), new)
+        ok = same_ledger(ledger_from_data(parse_toml(text, source=SOURCE), source=SOURCE, tree=DOCUMENT),
+                         document_of(new))
         why = "" if ok else "the edited text read back differently"
     except Exception as exc:  # noqa: BLE001 - whatever it is, the edited text is not used
         ok, why = False, f"the edited text did not read back: {exc}"
@@ -107,6 +108,7 @@ class _Section:
 
 class _Plan:
     def __init__(self, text: str, original: Ledger, new: Ledger):
+        original, new = document_of(original), document_of(new)  # placed items are never written
         self.text, self.old, self.new = text, original, new
         first = text.find("\n")
         self.nl = "\r\n" if first > 0 and text[first - 1] == "\r" else "\n"

@@ -25,16 +25,16 @@ from steelyard.io.ledger.write import (amount_text, envelope_fields, envelope_li
 
 #: arrays of tables: file name -> Ledger field
 ARRAYS = {"item": "items", "loadout": "loadouts", "envelope": "envelopes", "limit": "limits",
-          "allocation": "allocations", "sequence": "sequences", "change": "changes"}
+          "allocation": "allocations", "sequence": "sequences", "change": "changes", "assembly": "assemblies"}
 #: single tables: file name -> Ledger field
 SINGLES = {"units": "units", "frame": "frame", "mac": "mac", "fuel": "fuel", "growth": "growth",
            "weighing": "weighing", "user": "user", "snapshot": "snapshot"}
 #: where the canonical writer puts each table; a table new to a file goes after the nearest one before it
-ORDER = ("units", "frame", "item", "loadout", "envelope", "allocation", "change", "fuel", "growth", "limit",
+ORDER = ("units", "frame", "item", "loadout", "envelope", "allocation", "assembly", "change", "fuel", "growth", "limit",
          "mac", "sequence", "user", "weighing", "snapshot")
 #: tables whose text depends on the file's [units]
 UNIT_BOUND = frozenset({"item", "envelope"})
-_KEY_FIELD = {"limit": "name", "sequence": "name", "allocation": "group"}
+_KEY_FIELD = {"limit": "name", "sequence": "name", "allocation": "group", "assembly": "id"}
 
 
 def entries(ledger: Ledger, kind: str) -> list:

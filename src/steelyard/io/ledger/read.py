@@ -142,7 +142,8 @@ def _named_tables(raw: object, table: str, source: str) -> Iterator[tuple[dict, 
         yield entry, name, subject
 
 
-def read_loadouts(raw: object, ledger_index: dict[str, int], variable: np.ndarray, source: str) -> tuple:
+def read_loadouts(raw: object, ledger_index: dict[str, int], variable: np.ndarray, source: str,
+                  foreign: tuple[str, ...] = ()) -> tuple:
     out = []
     for lo, name, subject in _named_tables(raw, "loadout", source):
         base = lo.get("base")
@@ -154,6 +155,9 @@ def read_loadouts(raw: object, ledger_index: dict[str, int], variable: np.ndarra
         amounts = {}
         for item_id, value in settings.items():
             field = f"set.{item_id}"
+            if foreign and item_id not in ledger_index and item_id.startswith(foreign):
+                amounts[item_id] = read_amount(value, source, subject, field)  # inside an assembly not read
+                continue
             if item_id not in ledger_index:
                 raise SteelyardError(f"names unknown item {item_id!r}", file=source, subject=subject, field=field)
             if not variable[ledger_index[item_id]]:
@@ -270,19 +274,56 @@ def _envelope_problem(points: list) -> str | None:
     return envelope_problem(np.asarray(points, dtype=float).reshape(-1, 2))
 
 
-def ledger_from_data(data: object, *, source: str, progress: Progress | None = None) -> Ledger:
-    """Build a ledger from parsed TOML, or raise a located SteelyardError."""
+def ledger_from_data(data: object, *, source: str, progress: Progress | None = None, tree=None,
+                     tree_source=None) -> Ledger:
+    """Build a ledger from parsed TOML, or raise a located SteelyardError.
+
+    A file that places other ledgers ([[assembly]]) is read as a tree: `tree`
+    (io.ledger.tree.TreeReader) reads the placed files from `tree_source`'s
+    folder (default: the file `source` names, on disk). `tree=DOCUMENT` reads
+    the file alone, as written (a merge, a layout check): its placements are
+    checked but not read, and ids inside them are taken on trust.
+    """
     try:
-        return _ledger_from_data(data, source=source, progress=progress)
+        return _ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source)
     except OverflowError:  # an integer beyond the float range somewhere: find it properly
         try:
             tamed = _tame_big_ints(data)
         except RecursionError:
             raise FormatError("nested too deeply", file=source) from None
-        return _ledger_from_data(tamed, source=source, progress=progress)
+        return _ledger_from_data(tamed, source=source, progress=progress, tree=tree, tree_source=tree_source)
 
 
-def _ledger_from_data(data: object, *, source: str, progress: Progress | None = None) -> Ledger:
+#: `tree=DOCUMENT`: read a file with assemblies as the document it is, without its placed files
+DOCUMENT = "document"
+
+
+def _assemblies(data: dict, source: str) -> tuple:
+    raw = data.get("assembly")
+    if raw is None:
+        return ()
+    if type(raw) is not list or not all(type(x) is dict for x in raw):
+        raise SteelyardError("must be an array of tables [[assembly]]", file=source, subject="assembly")
+    if too_deep(raw):
+        raise SteelyardError(f"nested more than {MAX_DEPTH} levels deep", file=source, subject="assembly")
+    return tuple(raw)
+
+
+def _placed(assemblies: tuple, items: list, arrays, units: FileUnits, frame: Frame, source: str, tree,
+            tree_source):
+    """(items, arrays, placed) with every assembly's items placed after the file's own."""
+    from steelyard.io.ledger.tree import DiskSource, tree_for
+
+    if tree_source is None:
+        tree_source = DiskSource(source)
+    if tree is None:
+        tree = tree_for(tree_source)
+    document = Ledger(tuple(items), units, frame, assemblies=assemblies)
+    return tree.resolve(document, tree_source, items, arrays)
+
+
+def _ledger_from_data(data: object, *, source: str, progress: Progress | None = None, tree=None,
+                      tree_source=None) -> Ledger:
     if not isinstance(data, dict):
         raise FormatError("not a steelyard ledger", file=source)
     version = data.get("steelyard")
@@ -305,15 +346,31 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
     if type(raw_items) is not list:
         raise SteelyardError("must be an array of tables [[item]]", file=source, subject="item")
     items, arrays = ItemsReader(raw_items, units, source, progress).read()
+    assemblies = _assemblies(data, source)
+    placed = ()
+    foreign: tuple[str, ...] = ()
+    if assemblies and tree == DOCUMENT:
+        from steelyard.core.assembly.placement import read_placements
+
+        try:
+            foreign = tuple(f"{p.id}/" for p in read_placements(Ledger(units=units, assemblies=assemblies),
+                                                                 {it.id for it in items}))
+        except SteelyardError as exc:
+            raise exc.located(file=source)
+    elif assemblies:
+        items, arrays, placed = _placed(assemblies, items, arrays, units, frame, source, tree, tree_source)
     index = {it.id: i for i, it in enumerate(items)}
-    loadouts = read_loadouts(data.get("loadout"), index, arrays.variable, source)
+    loadouts = read_loadouts(data.get("loadout"), index, arrays.variable, source, foreign)
     envelopes = read_envelopes(data.get("envelope"), units, source)
-    ledger = Ledger(tuple(items), units, frame, loadouts, envelopes, **_other_tables(data, source))
+    ledger = Ledger(tuple(items), units, frame, loadouts, envelopes, **_other_tables(data, source),
+                    assemblies=assemblies, placed=placed)
     ledger.__dict__["index"] = index
     ledger = with_arrays(ledger, arrays)
     notes = _unit_notes(data, units)
     if notes:
         ledger.__dict__["_read_notes"] = notes
+    if foreign:  # read alone: what refers into its assemblies is checked when the tree is read
+        return ledger
     try:
         validate_document(ledger)
     except SteelyardError as exc:

@@ -16,7 +16,7 @@ from __future__ import annotations
 import math
 
 from steelyard.core.physics.inertia import COMPONENTS
-from steelyard.core.document.model import Amount, Envelope, FileUnits, Frame, Item, Ledger, Loadout
+from steelyard.core.document.model import Amount, Envelope, FileUnits, Frame, Item, Ledger, Loadout, document_of
 from steelyard.core.errors import UnitError
 from steelyard.core.units import parse_quantity, unit_factor
 from steelyard.io.ledger.toml_write import key, number, string, tables, value
@@ -158,7 +158,8 @@ def other_tables(ledger: Ledger, *, snapshot: bool = True) -> dict:
     `[snapshot]` is always last: its hash covers the text before it.
     """
     out: dict = {}
-    for name, v in (("allocation", list(ledger.allocations)), ("change", list(ledger.changes)),
+    for name, v in (("allocation", list(ledger.allocations)), ("assembly", list(ledger.assemblies)),
+                    ("change", list(ledger.changes)),
                     ("fuel", ledger.fuel), ("growth", ledger.growth), ("limit", list(ledger.limits)),
                     ("mac", ledger.mac), ("sequence", list(ledger.sequences)), ("user", ledger.user),
                     ("weighing", ledger.weighing)):
@@ -170,7 +171,11 @@ def other_tables(ledger: Ledger, *, snapshot: bool = True) -> dict:
 
 
 def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True) -> str:
-    """The whole file; `snapshot=False` leaves out the [snapshot] record (what its hash covers)."""
+    """The whole file; `snapshot=False` leaves out the [snapshot] record (what its hash covers).
+
+    Items placed from assemblies are never written: a file holds its own items and [[assembly]] tables.
+    """
+    ledger = document_of(ledger)
     u = ledger.units
     blocks: list[list[str]] = [["steelyard = 1"], table_lines("units", units_fields(u)),
                                table_lines("frame", frame_fields(ledger.frame))]
