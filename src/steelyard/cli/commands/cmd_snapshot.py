@@ -50,6 +50,10 @@ def _verify(args) -> int:
 
     print(safe(f"{loaded.path}: snapshot verified ({what}, taken {info.taken} by {info.author or 'unknown'}, "
                f"content sha256 {info.content_sha256[:12]}…)"))
+    from steelyard.io.ledger.snapshot_sources import source_changes
+
+    for line in source_changes(loaded.ledger, loaded.path):  # the files it was taken from, as they are now
+        print(safe(f"{loaded.path}: {line}"))
     return 0
 
 

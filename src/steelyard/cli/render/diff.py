@@ -65,14 +65,16 @@ def _changed_table(console, diff: LedgerDiff, du, max_items) -> None:
     if not diff.changed:
         return
     t = Table(title="Changed items (A → B)", title_justify="left")
-    for col in ("id", "field", "A", "B"):
-        t.add_column(col, justify="left" if col in ("id", "field") else "right", overflow="fold")
+    files = any(c.file for c in diff.changed)  # a tree: say which file each item comes from
+    for col in ("id", *(("file",) if files else ()), "field", "A", "B"):
+        t.add_column(col, justify="left" if col in ("id", "file", "field") else "right", overflow="fold")
     shown = _limit(len(diff.changed), max_items)
     for c in diff.changed[:shown]:
         first = True
         for name, (old, new) in c.fields.items():
             for label, a_text, b_text in change_rows(name, old, new, du):
-                t.add_row(T(c.id if first else ""), T(label), T(a_text), T(b_text))
+                lead = [T(c.id if first else "")] + ([T((c.file or "(this file)") if first else "")] if files else [])
+                t.add_row(*lead, T(label), T(a_text), T(b_text))
                 first = False
     console.print(t)
     _more(console, len(diff.changed), shown)
@@ -148,6 +150,26 @@ def _definitions(console, diff: LedgerDiff, du) -> None:
             console.print(T(line))
 
 
+def _placements(console, diff: LedgerDiff, du) -> None:
+    """Assemblies placed, moved or removed, each with what it carries and how far it alone moves A's CG."""
+    if not diff.placements:
+        return
+    lu, mu = pretty_unit(du.length), pretty_unit(du.mass)
+    console.print(T("Assembly placements (A → B):"))
+    for c in diff.placements:
+        console.print(T(f"  {c.kind} {c.id} ({c.file})"))
+        for key, (old, new) in c.fields.items():
+            if key == "at":
+                old = None if old is None else "[" + ", ".join(fmt(du.l(v)) for v in old) + f"] {lu}"
+                new = None if new is None else "[" + ", ".join(fmt(du.l(v)) for v in new) + f"] {lu}"
+            console.print(T(f"    {key}: {'—' if old is None else old} → {'—' if new is None else new}"))
+        ma, mb = c.mass
+        console.print(T(f"    carries {'—' if ma is None else fmt(du.m(ma))} → {'—' if mb is None else fmt(du.m(mb))}"
+                        f" {mu}; moves A's CG by [" + ", ".join(_signed(du.l(v)) for v in c.cg_shift) + f"] {lu}"))
+        if c.folded:
+            console.print(T(f"    ({c.folded:,} items of it moved with it; the file itself is unchanged)"))
+
+
 def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None, max_items: int,
                file_units: FileUnits | None, console: Console | None = None) -> None:
     console = console or Console(highlight=False, markup=False)
@@ -162,6 +184,7 @@ def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None,
                            style="bold"))
     _item_table(console, "Added items (in B, not in A)", list(diff.added), diff.b, du, max_items)
     _item_table(console, "Removed items (in A, not in B)", list(diff.removed), diff.a, du, max_items)
+    _placements(console, diff, du)
     _changed_table(console, diff, du, max_items)
     _ranked_table(console, diff, du, max_items)
     _totals(console, diff, du)

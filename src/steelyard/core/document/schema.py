@@ -47,7 +47,7 @@ SEQUENCE = {"name": VALUE, "loadout": VALUE, "end_condition": VALUE, "samples": 
 CHANGE = {"time": VALUE, "author": VALUE, "action": VALUE, "item": VALUE, "summary": VALUE, "reason": VALUE,
           "d_mass_kg": VALUE, "d_cg_m": VALUE, "d_margin_m": OPEN, "before": OPEN, "after": OPEN}
 SNAPSHOT = {"format": VALUE, "taken": VALUE, "author": VALUE, "source": VALUE, "source_sha256": VALUE,
-            "loadout": VALUE, "condition": VALUE, "names": OPEN, "steelyard_version": VALUE, "caution": VALUE, "content_sha256": VALUE, "totals": OPEN,
+            "loadout": VALUE, "condition": VALUE, "names": OPEN, "sources": VALUE, "steelyard_version": VALUE, "caution": VALUE, "content_sha256": VALUE, "totals": OPEN,
             "envelopes": OPEN}
 
 ASSEMBLY = {"id": VALUE, "file": VALUE, "group": VALUE, "at": VALUE, "mirror": VALUE, "rotate": VALUE, USER: OPEN}

@@ -29,6 +29,7 @@ from itertools import repeat
 import numpy as np
 
 from steelyard.core.errors import SteelyardError, item_subject
+from steelyard.core.history.diff_assembly import PlacementChange, file_of, placement_changes
 from steelyard.core.history.diff_equal import ULPS, close, same
 from steelyard.core.history.diff_tables import (DefinitionChanges, TableChanges, envelope_definitions,
                                                 item_extra_changes, loadout_definitions, table_changes)
@@ -76,6 +77,7 @@ class Carried:
     row_mass: np.ndarray  # (n,) total carried mass of each row
     geometry: np.ndarray  # (n,) bool: the item has a shape or turns (compared in Python)
     has_extra: np.ndarray  # (n,) bool: extras[i] is not empty
+    cg_rows: np.ndarray | None = None  # (n, 3) each row's CG as loaded (a tank's CG table applied)
 
     @property
     def is_snapshot(self) -> bool:
@@ -135,7 +137,7 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     check_finite_rollup(mp, items)  # a side beyond a float is refused naming the item, before any arithmetic
     return Carried(ledger, loadout, ids, labels, list(map(operator.attrgetter("group"), items)), a.quantity,
                    a.unit_mass * fill, a.cg, six, variable, capacity, density, extras, mp,
-                   state.mass, geometry, has_extra)
+                   state.mass, geometry, has_extra, state.cg)
 
 
 # --------------------------------------------------------------------------- results
@@ -147,6 +149,8 @@ class ItemChange:
 
     id: str
     fields: Mapping[str, tuple[object, object]]
+    #: the file the item comes from when it is placed from an assembly (None: the compared file's own)
+    file: str | None = None
 
 
 @dataclass(frozen=True)
@@ -194,11 +198,16 @@ class LedgerDiff:
     envelope_definitions: DefinitionChanges = DefinitionChanges()
     loadout_definitions: DefinitionChanges | None = None  # None: not compared
     tables: TableChanges = TableChanges()  # limits, allocations, sequences, [mac], [fuel], [growth], ...
+    placements: tuple[PlacementChange, ...] = ()  # assemblies placed, moved or removed
+
+    def file_of(self, item_id: str) -> str | None:
+        """The file an added, removed or changed item comes from (None: the compared file's own item)."""
+        return file_of(self.b.ledger, item_id) or file_of(self.a.ledger, item_id)
 
     @property
     def identical(self) -> bool:
         return not (self.added or self.removed or self.changed or self.frame or self.envelope_definitions
-                    or self.loadout_definitions or self.tables)
+                    or self.loadout_definitions or self.tables or self.placements)
 
     @property
     def delta_mass(self) -> float:
@@ -366,6 +375,14 @@ def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> 
         fields = {name: (_value(a, i, name), _value(b, j, name)) for name in FIELDS if masks[name][k]}
         fields.update(extra_fields.get(k, {}))
         changed.append(ItemChange(a.ids[i], fields))
+    placements: list[PlacementChange] = []
+    if a.ledger.placed or b.ledger.placed:
+        placements, folded = placement_changes(a.ledger, a.row_mass, a.cg_rows, a.mp.mass, a.mp.cg, b.ledger,
+                                               b.row_mass, b.cg_rows, {c.id for c in changed})
+        changed = [ItemChange(c.id, c.fields, file_of(b.ledger, c.id) or file_of(a.ledger, c.id))
+                   for c in changed if c.id not in folded]
+    elif a.is_snapshot or b.is_snapshot:
+        changed = [ItemChange(c.id, c.fields, file_of(b.ledger, c.id) or file_of(a.ledger, c.id)) for c in changed]
     removed_rows = np.flatnonzero(ib_all < 0)
     added_rows = np.flatnonzero(ia_all < 0)
     removed = tuple(a.ids[i] for i in removed_rows.tolist())
@@ -385,7 +402,8 @@ def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> 
     return LedgerDiff(a, b, added, removed, tuple(changed), ranked, _envelope_changes(a, b), frame,
                       envelope_definitions(a.ledger, b.ledger),
                       loadout_definitions(a.ledger, b.ledger) if loadouts else None,
-                      table_changes(a.ledger, b.ledger, loading=not (a.is_snapshot or b.is_snapshot)))
+                      table_changes(a.ledger, b.ledger, loading=not (a.is_snapshot or b.is_snapshot)),
+                      tuple(placements))
 
 
 def compare(a: Ledger, a_loadout: str | None, b: Ledger, b_loadout: str | None, *,

@@ -83,7 +83,8 @@ def diff_record(diff: LedgerDiff, a_source: dict | None = None, b_source: dict |
         "b_source": b_source,
         "added": list(diff.added),
         "removed": list(diff.removed),
-        "changed": [{"id": c.id, "fields": _fields(c.fields)} for c in diff.changed],
+        "changed": [{"id": c.id, "fields": _fields(c.fields), **({"file": c.file} if c.file else {})}
+                    for c in diff.changed],
         "a": record_from(a.ledger, a.mp, a_name),
         "b": record_from(b.ledger, b.mp, b_name),
         "delta": {
@@ -112,4 +113,14 @@ def diff_record(diff: LedgerDiff, a_source: dict | None = None, b_source: dict |
         "loadout_definitions": _definitions(diff.loadout_definitions),
         "definitions": _tables(diff.tables),
     }
+    if a.ledger.placed or b.ledger.placed:
+        out["placements"] = [
+            {"id": c.id, "kind": c.kind, "file": c.file,
+             "fields": {k: {"a": x, "b": y} for k, (x, y) in c.fields.items()},
+             "a_mass_kg": None if c.mass[0] is None else _num(c.mass[0]),
+             "b_mass_kg": None if c.mass[1] is None else _num(c.mass[1]),
+             "a_cg_m": None if c.cg[0] is None else _vec(c.cg[0]),
+             "b_cg_m": None if c.cg[1] is None else _vec(c.cg[1]),
+             "cg_shift_m": _vec(c.cg_shift), "items_moved_with_it": c.folded}
+            for c in diff.placements]
     return out

@@ -39,6 +39,7 @@ from steelyard.core.physics.rollup import MassProperties, rollup_state
 from steelyard.core.limits.status import envelope_results
 from steelyard.io.ledger.write import ledger_to_toml
 from steelyard.io.ledger.toml_write import tables
+from steelyard.io.ledger.snapshot_sources import placed_sources
 
 SNAPSHOT_FORMAT = 1
 #: Stored totals must match the recomputed ones to this fraction of each quantity's size.
@@ -84,7 +85,7 @@ def as_carried(ledger: Ledger, loadout: str | None) -> Ledger:
     units = ledger.units
     items = []
     for i, it in enumerate(ledger.items):
-        changes: dict = {}
+        changes: dict = {"source": None} if it.source is not None else {}  # a placed item becomes the file's own
         if it.given_units:
             changes["given_units"] = {}
         if it.tolerance is not None:
@@ -116,7 +117,7 @@ def as_carried(ledger: Ledger, loadout: str | None) -> Ledger:
         mac=None if ledger.mac is None else pin_units(ledger.mac, "mac", units), fuel=None, sequences=(),
         allocations=tuple(pin_units(a, "allocation", units) for a in ledger.allocations),
         weighing=None if ledger.weighing is None else pin_units(ledger.weighing, "weighing", units),
-        snapshot=record)
+        snapshot=record, assemblies=(), placed=())
     a = ledger.arrays
     arrays = ItemArrays(a.unit_mass * fill, a.quantity, np.asfortranarray(cg_rows), a.own * fill[:, None, None],
                         np.zeros(len(items), bool))
@@ -164,6 +165,9 @@ def snapshot_text(ledger: Ledger, loadout: str | None, *, source: str, author: s
         table["loadout"] = loadout
     table["condition"] = snap.snapshot["condition"]
     table["names"] = snap.snapshot["names"]
+    sources = placed_sources(ledger)
+    if sources:
+        table["sources"] = sources
     table["steelyard_version"] = __version__
     table["content_sha256"] = hashlib.sha256(content.encode("utf-8")).hexdigest()
     table["caution"] = CAUTION
