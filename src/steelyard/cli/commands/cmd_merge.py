@@ -66,7 +66,7 @@ def run(args) -> int:
     from steelyard.io.ledger.conflicts import opening_lines
     from steelyard.io.ledger.file import read_bytes, rewriting
     from steelyard.io.ledger.merge_text import merged_text
-    from steelyard.io.ledger.read import ledger_from_data
+    from steelyard.io.ledger.read import DOCUMENT, ledger_from_data
     from steelyard.io.ledger.toml_read import parse_toml
 
     label = args.path or args.ours
@@ -82,14 +82,16 @@ def run(args) -> int:
         if any(d is not None and "steelyard" not in d for d in data.values()):
             return _line_merge(args, label)
         if raw["ours"] == raw["base"]:
-            ledger_from_data(data["theirs"], source=names["theirs"])  # refuse a broken side before writing
+            # refuse a broken side before writing (read alone: a merge never reads the files placed)
+            ledger_from_data(data["theirs"], source=names["theirs"], tree=DOCUMENT)
             out.write(texts["theirs"])
             return 0
         ledgers = {}
         for side in ("base", "ours", "theirs"):
             if data[side] is None and side != "base":
                 raise SteelyardError("empty file (a ledger starts with 'steelyard = 1')", file=names[side])
-            ledgers[side] = Ledger() if data[side] is None else ledger_from_data(data[side], source=names[side])
+            ledgers[side] = (Ledger() if data[side] is None
+                             else ledger_from_data(data[side], source=names[side], tree=DOCUMENT))
         try:
             result = merge_ledgers(ledgers["base"], ledgers["ours"], ledgers["theirs"])
         except SteelyardError as exc:
@@ -98,7 +100,7 @@ def run(args) -> int:
         problem = None
         if result.clean:
             try:
-                ledger_from_data(parse_toml(text, source=label), source=label)
+                ledger_from_data(parse_toml(text, source=label), source=label, tree=DOCUMENT)
             except SteelyardError as exc:
                 problem = exc
         out.write(text)

@@ -23,6 +23,7 @@ DIMENSIONS: dict[str, dict[str, str]] = {
     "weighing": {"at": "length", "reading": "mass", "tare": "mass", "vertical_cg": "length", "mass": "mass",
                  "volume": "volume", "density": "density"},
     "tolerance": {"mass": "mass", "cg": "length"},
+    "assembly": {"at": "length"},
 }
 
 

@@ -32,7 +32,7 @@ from steelyard.core.document.model import FileUnits, Ledger
 from steelyard.core.document.pinning import pin_units
 from steelyard.core.errors import SteelyardError
 from steelyard.core.history.diff_equal import same
-from steelyard.core.history.merge_fields import (ALLOCATION, ENVELOPE, ITEM, LIMIT, LOADOUT, SEQUENCE,
+from steelyard.core.history.merge_fields import (ALLOCATION, ASSEMBLY, ENVELOPE, ITEM, LIMIT, LOADOUT, SEQUENCE,
                                                  table_meaning)
 
 #: why an entry conflicts
@@ -235,7 +235,7 @@ def merge_ledgers(base: Ledger, ours: Ledger, theirs: Ledger) -> MergeResult:
     conflicts: list[Conflict] = [unit_conflict] if unit_conflict else []
     out: dict = {"units": units}
     for attr, kind in (("items", ITEM), ("loadouts", LOADOUT), ("envelopes", ENVELOPE), ("limits", LIMIT),
-                       ("allocations", ALLOCATION), ("sequences", SEQUENCE)):
+                       ("allocations", ALLOCATION), ("sequences", SEQUENCE), ("assemblies", ASSEMBLY)):
         entries, found = _merge_entries(kind, getattr(base, attr), getattr(ours, attr), getattr(theirs, attr), u)
         out[attr] = tuple(entries)
         conflicts.extend(found)

@@ -32,7 +32,8 @@ from steelyard.io.ledger.layout import preserving_text
 
 #: arrays of tables merged by key: file name -> (Ledger field, key field)
 ARRAYS = {"item": ("items", "id"), "loadout": ("loadouts", "name"), "envelope": ("envelopes", "name"),
-          "limit": ("limits", "name"), "allocation": ("allocations", "group"), "sequence": ("sequences", "name")}
+          "limit": ("limits", "name"), "allocation": ("allocations", "group"), "sequence": ("sequences", "name"),
+          "assembly": ("assemblies", "id")}
 _KEY = r"""(?:[A-Za-z0-9_-]+|"(?:[^"\\\n]|\\.)*"|'[^'\n]*')"""
 _HEADER = re.compile(rf"^[ \t]*\[(\[?)[ \t]*({_KEY}(?:[ \t]*\.[ \t]*{_KEY})*)[ \t]*\]\]?[ \t]*(?:#[^\n]*)?$", re.M)
 _QUOTED_FIRST = re.compile(r'^("(?:[^"\\]|\\.)*"|\'[^\']*\')')

@@ -39,8 +39,11 @@ class RevisionLedger(LoadedLedger):
 
 def open_at(revision: Revision, *, progress: Progress | None = None, fast: bool = True) -> RevisionLedger:
     """Read and check the ledger `revision` names."""
+    from steelyard.io.ledger.tree import RevisionSource
+
     data = revision.read()
-    ledger, text = ledger_from_bytes(data, source=revision.spec, progress=progress, fast=fast)
+    ledger, text = ledger_from_bytes(data, source=revision.spec, progress=progress, fast=fast,
+                                     tree_source=RevisionSource(revision))  # its assemblies at the same commit
     return RevisionLedger(ledger, revision.spec, hashlib.sha256(data).hexdigest(), has_comments(text),
                           time.time(), revision=revision)
 
@@ -81,11 +84,29 @@ def committed(commit: Commit) -> dt.datetime | None:
         return None
 
 
+def placed_names(history: FileHistory) -> list[str]:
+    """The file and every file it places (at the newest commit looked at), as names in the repository."""
+    import posixpath
+
+    names = [history.name]
+    try:
+        top = open_at(Revision(history.spec, history.path, history.start, history.start, history.root,
+                               history.name))
+    except SteelyardError:
+        return names  # unreadable there: follow the file alone (each version says why it cannot be read)
+    folder = posixpath.dirname(history.name)
+    for p in top.ledger.placed:
+        name = posixpath.normpath(posixpath.join(folder, p.file))
+        if name not in names:
+            names.append(name)
+    return names
+
+
 def commits_of(history: FileHistory, *, since: dt.datetime | None = None,
                until: dt.datetime | None = None) -> list[Commit]:
-    """Commits that changed the file, oldest first, committed in [since, until) (aware times)."""
+    """Commits that changed the file or a file it places, oldest first, committed in [since, until)."""
     out = []
-    for c in commits_touching(history.root, [history.name], start=history.start, file=history.spec):
+    for c in commits_touching(history.root, placed_names(history), start=history.start, file=history.spec):
         when = committed(c)
         if when is not None and ((since is not None and when < since) or (until is not None and when >= until)):
             continue
@@ -107,7 +128,10 @@ def versions(history: FileHistory, commits: list[Commit]) -> Iterator[Version]:
                    else f"{history.name!r} is {blob.missing}")
             yield Version(commit.rev, commit.date, commit.subject, None, _failing(label, why))
         else:
-            yield Version(commit.rev, commit.date, commit.subject, blob.oid, _reader(blob.data, label))
+            at = Revision(label, history.path, commit.rev, commit.rev, history.root, history.name)
+            # a tree's figures also depend on the files it places: its text alone is no key to reuse them by
+            key = f"{blob.oid}@{commit.rev}" if b"assembly" in blob.data else blob.oid
+            yield Version(commit.rev, commit.date, commit.subject, key, _reader(blob.data, label, at))
 
 
 def _failing(label: str, why: str):
@@ -116,9 +140,11 @@ def _failing(label: str, why: str):
     return load
 
 
-def _reader(data: bytes, label: str):
+def _reader(data: bytes, label: str, at: Revision):
     def load() -> Ledger:
-        return ledger_from_bytes(data, source=label)[0]
+        from steelyard.io.ledger.tree import RevisionSource
+
+        return ledger_from_bytes(data, source=label, tree_source=RevisionSource(at))[0]
     return load
 
 
