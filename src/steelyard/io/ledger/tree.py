@@ -84,7 +84,7 @@ class RevisionSource:
 
 def tree_for(source) -> "TreeReader":
     """A reader for the tree whose top file is `source` (a DiskSource or RevisionSource)."""
-    return TreeReader(chain=[source.label], keys=[source.key])
+    return TreeReader(chain=[source.shown], keys=[source.key])
 
 
 @dataclass
@@ -142,7 +142,7 @@ class TreeReader:
     def _read(self, child_source, p, parent_source) -> tuple[Ledger, str]:
         key = child_source.key
         if key in self.keys:
-            chain = " -> ".join([*self.chain, child_source.label])
+            chain = " -> ".join([*self.chain, child_source.shown])
             raise SteelyardError(f"assemblies form a cycle: {chain}", file=parent_source.label,
                                  subject=f"assembly {said(p.id)}", field="file")
         hit = self.cache.get(key)
@@ -158,7 +158,7 @@ class TreeReader:
                                  subject=f"assembly {said(p.id)}", field="file") from None
         from steelyard.io.ledger.file import ledger_from_bytes
 
-        self.chain.append(child_source.label)
+        self.chain.append(child_source.shown)
         self.keys.append(key)
         try:
             ledger, _ = ledger_from_bytes(data, source=child_source.label, fast=self.fast,
