@@ -10,11 +10,13 @@ editor has it, from io.ledger.tree); nothing here reads a file.
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import replace
 
 from steelyard.core.assembly.flatten import Placed, concatenate, nested_records, place
 from steelyard.core.assembly.placement import read_placement, read_placements
 from steelyard.core.document.model import ItemArrays, Ledger
 from steelyard.core.errors import SteelyardError, said
+from steelyard.core.loading.tank import read_table
 
 
 def top_placements(ledger: Ledger) -> list[Placed]:
@@ -44,8 +46,16 @@ def _splice(ledger: Ledger, start: int, stop: int, items: list, arrays: ItemArra
     new_items = old[:start] + tuple(items) + old[stop:]
     new = ledger.evolve(items=new_items, placed=tuple(placed), assemblies=assemblies)
     a = ledger.arrays
-    parts = [_slice(a, 0, start)] + ([arrays] if arrays is not None else []) + [_slice(a, stop, len(old))]
-    new.__dict__["arrays"] = concatenate(parts)
+    if shift == 0 and arrays is not None:  # the same number of rows (a placed file saved): copy, then overwrite
+        cols = ItemArrays(a.unit_mass.copy(), a.quantity.copy(), a.cg.copy(order="F"), a.own.copy(),
+                          a.variable.copy())
+        for name in ("unit_mass", "quantity", "cg", "own", "variable"):
+            getattr(cols, name)[start:stop] = getattr(arrays, name)
+        new.__dict__["arrays"] = cols
+    else:
+        parts = [_slice(a, 0, start)] + ([arrays] if arrays is not None else []) + [_slice(a, stop, len(old))]
+        new.__dict__["arrays"] = concatenate(parts)
+    _carry_tanks(ledger, new, start, stop, shift)
     if shift == 0 and all(o.id == n.id for o, n in zip(old[start:stop], items)):
         new.__dict__["index"] = ledger.index  # same ids in the same rows
     else:
@@ -55,6 +65,23 @@ def _splice(ledger: Ledger, start: int, stop: int, items: list, arrays: ItemArra
             raise SteelyardError(f"id {said(clash)} would be used twice", subject="assembly", field="id")
         new.__dict__["index"] = index
     return new
+
+
+def _carry_tanks(old: Ledger, new: Ledger, start: int, stop: int, shift: int) -> None:
+    """Tank CG tables outside the spliced rows follow their rows; those inside are read again."""
+    cached = old.__dict__.get("_tank_tables")
+    if cached is None:
+        return
+    tables = {}
+    for i, tt in cached.items():
+        if i < start:
+            tables[i] = tt
+        elif i >= stop:
+            tables[i + shift] = replace(tt, row=i + shift)
+    for i in range(start, stop + shift):
+        if new.items[i].cg_table is not None:
+            tables[i] = read_table(new, i)
+    new.__dict__["_tank_tables"] = tables
 
 
 def _placed_rows(ledger: Ledger, assembly_id: str) -> Placed:

@@ -51,12 +51,16 @@ def group_prefix(p: Placement) -> str:
     return f"{p.group}/{p.id}" if p.group else p.id
 
 
-def _clone(item: Item, changes: dict) -> Item:
-    new = object.__new__(Item)
-    d = dict(item.__dict__)
-    d.update(changes)
-    new.__dict__.update(d)
-    return new
+_EMPTY: dict = {}
+_new = object.__new__
+_set = object.__setattr__
+
+
+def _clean(six: np.ndarray) -> np.ndarray:
+    """Rounding noise of a turn (1e-21 products beside 1e-4 moments, -0.0) set to exact zero."""
+    scale = np.abs(six[:, :3]).max(axis=1, keepdims=True)
+    out = np.where(np.abs(six) <= 1e-14 * scale, 0.0, six)
+    return out + 0.0
 
 
 def transform_columns(arrays: ItemArrays, t: np.ndarray, at: np.ndarray) -> ItemArrays:
@@ -74,30 +78,32 @@ def place(child: Ledger, p: Placement, parent_units: FileUnits, parent_frame: Fr
     prefix = group_prefix(p)
     has_own = np.fromiter((it.inertia is not None or it.shape is not None for it in child.items), bool,
                           len(child.items))
-    six = six_from_tensor(arrays.own).tolist() if has_own.any() else None
+    six = _clean(six_from_tensor(arrays.own)).tolist() if has_own.any() else None
     cgs = arrays.cg.tolist()
     tanks = tank_tables(child)
     tolerances = parse_tolerances(child) if any(it.tolerance is not None for it in child.items) else None
     length_f = unit_factor(parent_units.length, "length")
     out = []
+    pid = p.id
     for i, it in enumerate(child.items):
-        changes = {
-            "id": f"{p.id}/{it.id}",
-            "group": f"{prefix}/{it.group}" if it.group else prefix,
-            "cg": tuple(cgs[i]),
-            "inertia": tuple(six[i]) if has_own[i] else None,
-            "shape": None,
-            "rotate": (),
-            "given_units": {},
-            "source": f"{p.id}/{it.source}" if it.source else p.id,
-        }
+        d = it.__dict__.copy()
+        d["id"] = f"{pid}/{it.id}"
+        d["group"] = f"{prefix}/{it.group}" if it.group else prefix
+        d["cg"] = tuple(cgs[i])
+        d["inertia"] = tuple(six[i]) if has_own[i] else None
+        d["shape"] = None
+        d["rotate"] = ()
+        d["given_units"] = _EMPTY
+        d["source"] = f"{pid}/{it.source}" if it.source else pid
         if i in tanks:
             pos = tanks[i].cg @ t.T + p.at
-            changes["cg_table"] = [[float(f), *(float(x) / length_f for x in row)]
-                                   for f, row in zip(tanks[i].fraction, pos)]
+            d["cg_table"] = [[float(f), *(float(x) / length_f for x in row)]
+                             for f, row in zip(tanks[i].fraction, pos)]
         if it.tolerance is not None:
-            changes["tolerance"] = _placed_tolerance(it.tolerance, i, tolerances, t, child.units, length_f)
-        out.append(_clone(it, changes))
+            d["tolerance"] = _placed_tolerance(it.tolerance, i, tolerances, t, child.units, length_f)
+        new = _new(Item)
+        _set(new, "__dict__", d)
+        out.append(new)
     return out, arrays
 
 
