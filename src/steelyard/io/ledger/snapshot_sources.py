@@ -47,6 +47,8 @@ def _sha(path: str) -> str | None:
 def source_changes(ledger: Ledger, snapshot_path: str) -> list[str]:
     """One line per file the snapshot was taken from: unchanged, changed since, or not found.
 
+    A snapshot of one file says something only when that file changed since.
+
     The top file is looked for where the record says (relative paths: from
     the current folder, else from the snapshot's folder); placed files from
     the top file's folder.
@@ -60,8 +62,11 @@ def source_changes(ledger: Ledger, snapshot_path: str) -> list[str]:
         top = near if os.path.exists(near) else top
     lines = []
     want = record.get("source_sha256")
+    tree = bool(record.get("sources"))
     if isinstance(want, str):
-        lines.append(_state(top, _sha(top), want, ""))
+        now = _sha(top)
+        if tree or (now is not None and now != want):  # one file: said only when it changed since
+            lines.append(_state(top, now, want, ""))
     by_file: dict[tuple[str, str], list[str]] = {}
     for s in record.get("sources") or ():
         if isinstance(s, Mapping) and all(isinstance(s.get(k), str) for k in ("assembly", "file", "sha256")):
