@@ -276,3 +276,25 @@ def test_file_at_revision_reads_its_assemblies_at_that_revision(tmp_path, capsys
     assert code == 0, err
     masses = [p["mass_kg"] for p in json.loads(out)["points"]]
     assert masses == [pytest.approx(3.0, rel=1e-15), pytest.approx(5.0, rel=1e-15)]
+
+
+def test_placed_items_cannot_be_edited_in_the_parent(tmp_path):
+    # no writer keeps an edit of a placed item, so the edit itself is refused (the file owning it is the place)
+    from steelyard.core.errors import SteelyardError
+
+    top = tree(tmp_path, parent(ONE_POD, items='[[item]]\nid = "frame"\nmass = 7.0\ncg = [0, 0, 0]\n'),
+               {"pods/pod.toml": POD})
+    led = open_ledger(top).ledger
+    with pytest.raises(SteelyardError, match="edit it in that assembly's own file"):
+        led.with_item(led.item("pod/motor").evolve(mass=9.0))
+    with pytest.raises(SteelyardError, match="pod/motor"):
+        led.without_item("pod/motor")
+    assert led.with_item(led.item("frame").evolve(mass=8.0)).item("frame").mass == 8.0
+
+
+def test_weighing_cannot_replace_a_placed_item(tmp_path, capsys):
+    weighing = ('[weighing]\nreplaces = "pod/arm"\n[[weighing.point]]\nname = "nose"\nat = [0, 0, 0]\n'
+                'reading = 10.0\ntare = 0.0\n')
+    top = tree(tmp_path, parent(ONE_POD, items=weighing), {"pods/pod.toml": POD})
+    code, _, err = run_main(capsys, "rollup", top)
+    one_line_error(code, err, "weighing", "replaces", "pod/arm")

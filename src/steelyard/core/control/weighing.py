@@ -318,6 +318,10 @@ def parse_weighing(table: Mapping, units: FileUnits, ledger: Ledger | None = Non
     if replaces is not None:
         if not isinstance(replaces, str) or (ledger is not None and replaces not in ledger.index):
             raise SteelyardError(f"no ledger item {said(replaces)} to replace", subject="weighing", field="replaces")
+        if ledger is not None and ledger.item(replaces).source is not None:
+            raise SteelyardError(f"{said(replaces)} is placed from assembly {said(ledger.item(replaces).source)}; "
+                                 "a weighing replaces one of this file's own items", subject="weighing",
+                                 field="replaces")
         if ledger is not None and ledger.item(replaces).variable:
             raise SteelyardError(f"{said(replaces)} is a load item; the empty vehicle is not variable",
                                  subject="weighing", field="replaces")

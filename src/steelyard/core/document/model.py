@@ -252,6 +252,8 @@ class Ledger:
     def with_item(self, item: Item) -> "Ledger":
         """Replace the item with the same id, or append it; columns updated in place of a rebuild."""
         i = self.index.get(item.id)
+        if i is not None and self.items[i].source is not None:
+            _placed_refusal(self.items[i])
         if i is None:
             return self.evolve(items=self.items + (item,))
         items = self.items[:i] + (item,) + self.items[i + 1:]
@@ -265,6 +267,8 @@ class Ledger:
 
     def without_item(self, item_id: str) -> "Ledger":
         i = self.index[item_id]
+        if self.items[i].source is not None:
+            _placed_refusal(self.items[i])
         return self.evolve(items=self.items[:i] + self.items[i + 1:])
 
     @property
@@ -273,6 +277,14 @@ class Ledger:
         if not self.placed:
             return self.items
         return tuple(it for it in self.items if it.source is None)
+
+
+def _placed_refusal(item: Item) -> None:
+    """An item placed from an assembly is never edited in the parent: no writer would keep the edit."""
+    from steelyard.core.errors import SteelyardError
+
+    raise SteelyardError(f"comes from assembly {item.source!r}: edit it in that assembly's own file",
+                         subject=f"item {item.id!r}")
 
 
 def document_of(ledger: Ledger) -> Ledger:
