@@ -58,11 +58,11 @@ class SetupForm(ModalScreen[SetupDone | None]):
                  padding: 0 1; }
     #setup-body { height: 1fr; }
     #setup-fields { height: 1fr; }
-    #setup-grid { grid-size: 2; grid-columns: 14 1fr; grid-rows: 1; grid-gutter: 0 1; height: auto; }
+    #setup-grid { grid-size: 2; grid-columns: 17 1fr; grid-rows: 1; grid-gutter: 0 1; height: auto; }
     #setup-grid Label { color: $text-muted; }
     #setup-rows { height: 1fr; min-height: 4; }
     #setup-chart { width: 1fr; min-width: 30; }
-    SetupForm.narrow-chart #setup-fields { width: 44; }
+    SetupForm.narrow-chart #setup-fields { width: 46; }
     #setup-hint { height: 1; color: $text-muted; }
     #setup-message { height: auto; max-height: 2; }
     #setup-preview { height: auto; max-height: 5; border-top: solid $primary; }
