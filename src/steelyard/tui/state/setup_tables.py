@@ -72,6 +72,8 @@ def entry_name(kind: str, raw: dict) -> str:
 def with_entries(ledger: Ledger, kind: str, tables: list[dict]) -> Ledger:
     """`ledger` with the entries of `kind` replaced by `tables`, checked as the reader checks a file."""
     value: object = tables if kind not in SINGLE else (tables[0] if tables else None)
+    if kind == "growth" and value == {}:
+        value, tables = None, []  # an empty [growth] changes nothing, and the writer leaves it out
     if value is not None and value != []:
         try:
             check_document({kind: value})
