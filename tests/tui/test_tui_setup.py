@@ -241,3 +241,34 @@ async def test_new_ledger_dialog_units_and_frame(tmp_path):
     assert data["units"] == {"mass": "g", "length": "mm", "inertia": "g*mm**2"}
     assert data["frame"] == {"x": "fwd", "y": "left", "z": "up"}
     assert open_ledger(path).ledger.units.mass == "g"
+
+
+async def test_large_ledger_checks_on_pause_and_apply_still_refuses(tmp_path, monkeypatch):
+    import steelyard.tui.screens.setup_form as setup_form
+
+    monkeypatch.setattr(setup_form, "BIG_LEDGER", 0)  # every ledger counts as large: checks wait for a pause
+    path = copy_fixture(tmp_path)
+    before = path.read_bytes()
+    async with editor(path) as (app, pilot):
+        await open_entry(app, pilot, "limit:new")
+        await pilot.press(*"mtow", "tab", "tab", "tab", "tab", *"heavy", "ctrl+s")  # no pause before Apply
+        await pilot.pause(0.1)
+        assert isinstance(app.screen, SetupForm)
+        assert "max_mass" in app.screen.query_one("#setup-message").render().plain
+        await pilot.press("escape", "escape")
+        await settle(pilot, app)
+        assert not app.session.dirty
+    assert path.read_bytes() == before
+
+
+async def test_keys_typed_as_the_form_opens_land_in_its_first_field(tmp_path):
+    path = copy_fixture(tmp_path)
+    async with editor(path) as (app, pilot):
+        await pilot.press("T")
+        await wait_for_screen(app, pilot, SetupScreen)
+        ol = app.screen.query_one("OptionList")
+        ids = [ol.get_option_at_index(i).id for i in range(ol.option_count)]
+        ol.highlighted = ids.index("allocation:new")
+        await pilot.press("enter", *"avionics", "tab", *"60", "ctrl+s")  # no pause after Enter
+        await settle(pilot, app)
+        assert app.session.ledger.allocations == ({"group": "avionics", "mass": 60},)

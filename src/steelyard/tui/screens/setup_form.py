@@ -33,6 +33,10 @@ from steelyard.tui.text import clean, literal
 from steelyard.tui.widgets.chart import EnvelopeChart
 
 
+#: items from which a form checks once typing pauses instead of on every keystroke
+BIG_LEDGER = 5_000
+
+
 @dataclass(frozen=True)
 class SetupDone:
     ledger: Ledger
@@ -84,6 +88,7 @@ class SetupForm(ModalScreen[SetupDone | None]):
         self.rows = next((f for f in self.fields if f.kind == "rows"), None)
         self.result: Ledger | None = None
         self.raw: dict | None = None
+        self._pending = None  # the timer of a check waiting for typing to pause (large ledgers)
 
     # ----------------------------------------------------------------- build
     def compose(self):
@@ -222,7 +227,15 @@ class SetupForm(ModalScreen[SetupDone | None]):
     @on(Input.Changed)
     @on(TextArea.Changed)
     def _changed(self) -> None:
-        self.check()
+        """Check at once on a small ledger; on a large one (the reader's checks and the preview cost
+        a few hundred ms at 100,000 items, tests/perf/bench_setup.py) once typing pauses. Apply
+        always checks first, so a check skipped here never lets a bad table through."""
+        if len(self.ledger.items) < BIG_LEDGER:
+            self.check()
+            return
+        if self._pending is not None:
+            self._pending.stop()
+        self._pending = self.set_timer(0.25, self.check)
 
     @on(Input.Submitted)
     def _next_field(self) -> None:
