@@ -24,6 +24,7 @@ from steelyard.tui.flows.edit import EditFlows
 from steelyard.tui.flows.file import FileFlows, groups_of
 from steelyard.tui.flows.journal import JournalFlows
 from steelyard.tui.flows.revision import RevisionFlows
+from steelyard.tui.flows.setup import SetupFlows
 from steelyard.tui.screens.main_screen import MainScreen
 from steelyard.tui.messages import ExtrasReady, SubtotalsReady
 from steelyard.tui.state.session import Session
@@ -42,6 +43,8 @@ PALETTE = (
     ("Open ledger", "open another ledger file", "open"),
     ("Loadout", "choose the loadout, edit amounts", "loadout"),
     ("Compare…", "with another loadout, the saved ledger, a file or a snapshot", "compare"),
+    ("Set-up tables", "loadouts, envelopes, limits, allocations, MAC, fuel, growth", "setup"),
+    ("Units and frame", "the file's units and body axes (a ledger without entries)", "units_frame"),
     ("Weighing form", "scale readings and tares → empty mass and CG", "weighing"),
     ("Mass history", "mass, predicted mass and allocation at each commit (git)", "trend"),
     ("Switch units", "file units, SI, US customary", "units"),
@@ -56,7 +59,7 @@ PALETTE = (
 )
 
 
-class SteelyardApp(RevisionFlows, FileFlows, EditFlows, JournalFlows, CompareFlows, App[int]):
+class SteelyardApp(SetupFlows, RevisionFlows, FileFlows, EditFlows, JournalFlows, CompareFlows, App[int]):
     CSS_PATH = "app.tcss"
     TITLE = "steelyard"
     SUB_TITLE = "steelyard"
@@ -111,6 +114,7 @@ class SteelyardApp(RevisionFlows, FileFlows, EditFlows, JournalFlows, CompareFlo
             self._focus(focus_item)
         self.update_title()
         self.after_refresh_loadout()
+        self.after_refresh_setup()
 
     def _refresh_table(self, ledger, focus_item: str | None) -> None:
         """After an edit's totals are on screen: enter it in the change log, redraw the table, and

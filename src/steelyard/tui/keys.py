@@ -24,6 +24,9 @@ MAIN_KEYS: tuple[tuple[str, str, str, bool, str], ...] = (
     ("ctrl+z,u", "undo", "Undo", True, "undo the last change (any number of steps)"),
     ("ctrl+y,U", "redo", "Redo", False, "redo the change undone last"),
     ("L", "loadout", "Loadout", True, "choose the loadout and edit its amounts"),
+    ("T", "setup", "Set-up", False,
+     "set-up: loadouts, envelopes, limits, allocations, [mac], [fuel], [growth] (create, edit, copy, delete)"),
+    ("N", "units_frame", "Units/frame", False, "the file's units and body frame (while the ledger holds no entries)"),
     ("c", "compare", "Compare", False,
      "compare with another loadout, the ledger as saved, or another file or snapshot"),
     ("w", "weighing", "Weighing", False,
@@ -78,6 +81,13 @@ WEIGHING_KEYS = (
     ("enter on + point / + on board / + missing", "add a row; a row left empty is ignored"),
     ("enter on Apply", "replace the empty-vehicle item (action 'weighing' in the change log; undo works)"),
     ("escape", "cancel: nothing is changed"),
+)
+SETUP_KEYS = (
+    ("T (main screen)", "the set-up list: units and frame, loadouts, envelopes, limits, allocations, MAC, fuel, growth"),
+    ("enter", "edit the entry, or add one on a '+ new' line"),
+    ("c / x, Del", "copy the entry / delete it (asks first; refused while another table names it)"),
+    ("in a form", "fields are the file's keys; bare numbers in the file's units; ctrl+s or Apply applies"),
+    ("escape", "back; a form left with escape changes nothing"),
 )
 RESTORE_KEYS = (
     ("on opening", "unsaved edits left by a crash or a dropped connection are offered, with what they are"),

@@ -107,6 +107,7 @@ class FileFlows:
                         timeout=6, markup=False)
         elif message.loaded is None:
             self.notify(f"New ledger: {message.path} is written on the first save.", markup=False)
+            self.new_ledger_setup()
         if holder is not None:
             self._locked(holder)
 

@@ -10,7 +10,8 @@ from textual.containers import VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
-from steelyard.tui.keys import (COMPARE_KEYS, FORM_KEYS, LOADOUT_KEYS, MAIN_KEYS, OTHER_KEYS, RESTORE_KEYS, TABLE_KEYS,
+from steelyard.tui.keys import (COMPARE_KEYS, FORM_KEYS, LOADOUT_KEYS, MAIN_KEYS, OTHER_KEYS, RESTORE_KEYS, SETUP_KEYS,
+                   TABLE_KEYS,
                    WEIGHING_KEYS, pretty_keys)
 
 
@@ -38,7 +39,8 @@ def help_text(width: int = 76) -> Text:
         _row(t, pretty_keys(keys), text, width)
     for title, rows in (("Ledger table", TABLE_KEYS), ("Item form", FORM_KEYS),
                         ("Loadout screen", LOADOUT_KEYS), ("Compare screen", COMPARE_KEYS),
-                        ("Weighing form", WEIGHING_KEYS), ("Unsaved edits found (journal)", RESTORE_KEYS),
+                        ("Weighing form", WEIGHING_KEYS),
+                        ("Set-up list and forms", SETUP_KEYS), ("Unsaved edits found (journal)", RESTORE_KEYS),
                         ("Anywhere", OTHER_KEYS)):
         t.append(f"\n{title}\n", style="bold underline")
         for keys, text in rows:
