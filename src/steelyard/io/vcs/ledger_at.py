@@ -90,6 +90,12 @@ def placed_names(history: FileHistory) -> list[str]:
 
     names = [history.name]
     try:
+        with open(history.path, "rb") as f:
+            if b"assembly" not in f.read():  # the checked-out file places nothing: no need to ask git
+                return names
+    except OSError:
+        pass
+    try:
         top = open_at(Revision(history.spec, history.path, history.start, history.start, history.root,
                                history.name))
     except SteelyardError:
