@@ -319,15 +319,7 @@ def _placed(assemblies: tuple, items: list, arrays, units: FileUnits, frame: Fra
     if tree is None:
         tree = tree_for(tree_source)
     document = Ledger(tuple(items), units, frame, assemblies=assemblies)
-    import gc
-
-    collecting = gc.isenabled()
-    gc.disable()  # 100k new items, no cycles among them: a collection pass per 700 objects is pure cost
-    try:
-        return tree.resolve(document, tree_source, items, arrays)
-    finally:
-        if collecting:
-            gc.enable()
+    return tree.resolve(document, tree_source, items, arrays)
 
 
 def _ledger_from_data(data: object, *, source: str, progress: Progress | None = None, tree=None,
