@@ -13,6 +13,7 @@ made one by one.
 
 from __future__ import annotations
 
+import operator
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 
@@ -52,6 +53,11 @@ def group_prefix(p: Placement) -> str:
 
 
 _EMPTY: dict = {}
+_ID, _GROUP, _SOURCE = (operator.attrgetter(k) for k in ("id", "group", "source"))
+
+
+def _TOLERANCE(item: Item) -> bool:  # noqa: N802 - used like the attrgetters beside it
+    return item.tolerance is not None
 _new = object.__new__
 _set = object.__setattr__
 
@@ -81,29 +87,32 @@ def place(child: Ledger, p: Placement, parent_units: FileUnits, parent_frame: Fr
     six = _clean(six_from_tensor(arrays.own)).tolist() if has_own.any() else None
     cgs = arrays.cg.tolist()
     tanks = tank_tables(child)
-    tolerances = parse_tolerances(child) if any(it.tolerance is not None for it in child.items) else None
+    tolerances = parse_tolerances(child) if any(map(_TOLERANCE, child.items)) else None
     length_f = unit_factor(parent_units.length, "length")
-    out = []
     pid = p.id
-    for i, it in enumerate(child.items):
+    items = child.items
+    ids = [f"{pid}/{i}" for i in map(_ID, items)]
+    prefixed: dict[str, str] = {}
+    groups = [prefixed.get(g) or prefixed.setdefault(g, f"{prefix}/{g}" if g else prefix)
+              for g in map(_GROUP, items)]
+    sources = [f"{pid}/{s}" if s else pid for s in map(_SOURCE, items)]
+    inertia = [tuple(x) for x in six] if six is not None else [None] * len(items)
+    if six is not None and not has_own.all():
+        inertia = [x if h else None for x, h in zip(inertia, has_own.tolist())]
+    out = []
+    for it, ident, group, cg, own, src in zip(items, ids, groups, map(tuple, cgs), inertia, sources):
         d = it.__dict__.copy()
-        d["id"] = f"{pid}/{it.id}"
-        d["group"] = f"{prefix}/{it.group}" if it.group else prefix
-        d["cg"] = tuple(cgs[i])
-        d["inertia"] = tuple(six[i]) if has_own[i] else None
-        d["shape"] = None
-        d["rotate"] = ()
-        d["given_units"] = _EMPTY
-        d["source"] = f"{pid}/{it.source}" if it.source else pid
-        if i in tanks:
-            pos = tanks[i].cg @ t.T + p.at
-            d["cg_table"] = [[float(f), *(float(x) / length_f for x in row)]
-                             for f, row in zip(tanks[i].fraction, pos)]
-        if it.tolerance is not None:
-            d["tolerance"] = _placed_tolerance(it.tolerance, i, tolerances, t, child.units, length_f)
+        d.update(id=ident, group=group, cg=cg, inertia=own, shape=None, rotate=(), given_units=_EMPTY, source=src)
         new = _new(Item)
         _set(new, "__dict__", d)
         out.append(new)
+    for i in tanks:
+        pos = tanks[i].cg @ t.T + p.at
+        out[i].__dict__["cg_table"] = [[float(f), *(float(x) / length_f for x in row)]
+                                       for f, row in zip(tanks[i].fraction, pos)]
+    for i, it in enumerate(items):
+        if it.tolerance is not None:
+            out[i].__dict__["tolerance"] = _placed_tolerance(it.tolerance, i, tolerances, t, child.units, length_f)
     return out, arrays
 
 
