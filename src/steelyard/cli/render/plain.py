@@ -98,7 +98,7 @@ class Out:
         if self._console is None:
             from rich.console import Console
 
-            self._console = Console(file=self.stream, highlight=False, markup=False)
+            self._console = Console(file=self.stream, highlight=False, markup=False, width=self.width)
         return self._console
 
     # -- text ---------------------------------------------------------------------------------
