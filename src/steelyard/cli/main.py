@@ -15,7 +15,6 @@ from __future__ import annotations
 import argparse
 import importlib
 import os
-import pkgutil
 import signal
 import sys
 
@@ -35,6 +34,8 @@ class _Parser(argparse.ArgumentParser):
 def _commands(only: str | None = None):
     """The command modules; with `only` (a command's name), that one module alone, so that running
     one command never imports what the other commands import at their top."""
+    import pkgutil
+
     import steelyard.cli.commands as pkg
 
     if only is not None:
@@ -130,6 +131,8 @@ def _names() -> set[str]:
     try:
         files = [f for folder in pkg.__path__ for f in os.listdir(folder)]
     except OSError:  # not a folder (a zip import): ask pkgutil
+        import pkgutil
+
         files = [f"{m.name}.py" for m in pkgutil.iter_modules(pkg.__path__)]
     stems = {os.path.splitext(f)[0] for f in files if f.endswith((".py", ".pyc"))}
     return {f[4:].replace("_", "-") for f in stems if f.startswith("cmd_")}
