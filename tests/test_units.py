@@ -95,3 +95,35 @@ def test_fast_string_path_matches_pint():
                       ("6 lb/gal", "density"), ("30 gal", "volume"), ("0.8 slug*ft**2", "inertia")]:
         q = registry().parse_expression(text)
         assert parse_quantity(text, dim) == float(Fraction(q.to(si[dim]).magnitude)), text
+
+
+def test_exact_table_agrees_with_nist_sp811():
+    # Every entry of the fast table (what a file naming a common unit uses instead of pint), rebuilt
+    # from NIST SP 811 Appendix B's exact definitions (tests/support/units.py) by reading the unit text here.
+    import re
+
+    from support.units import FT, GAL, IN, LB, OZ, PREFIXED, SLUG
+
+    from steelyard.core.units import EXACT
+
+    atoms = {"kg": F(1), "m": F(1), "lb": LB, "oz": OZ, "slug": SLUG, "in": IN, "ft": FT, "gal": GAL, **PREFIXED}
+
+    def factor(text: str) -> F:
+        num, _, den = text.partition("/")
+        out = F(1)
+        for part, sign in ((num, 1), (den, -1)):
+            for name, power in re.findall(r"([A-Za-z]+)(?:\*\*(\d+))?", part):
+                out *= atoms[name] ** (sign * int(power or 1))
+        return out
+
+    for unit, (_, exact) in EXACT.items():
+        assert factor(unit) == exact, unit
+    # the table covers every mass unit times every length unit (squared: inertia; once: moment)
+    for mass in ("kg", "g", "t", "lb", "oz", "slug"):
+        for length in ("m", "mm", "cm", "in", "ft"):
+            assert EXACT[f"{mass}*{length}**2"][0] == "inertia"
+            assert EXACT[f"{mass}*{length}"][0] == "moment"
+    # SP 811 Appendix B's printed values (7 significant figures) for a few derived entries
+    assert float(EXACT["slug"][1]) == pytest.approx(1.459390e1, rel=5e-7)
+    assert float(EXACT["lb*in**2"][1]) == pytest.approx(2.926397e-4, rel=5e-7)
+    assert float(EXACT["gal"][1]) == pytest.approx(3.785412e-3, rel=5e-7)

@@ -15,7 +15,6 @@ from __future__ import annotations
 import argparse
 import importlib
 import os
-import pkgutil
 import signal
 import sys
 
@@ -32,21 +31,30 @@ class _Parser(argparse.ArgumentParser):
         self.exit(EXIT_INPUT, f"steelyard: {message} (see 'steelyard --help')\n")
 
 
-def _commands():
+def _commands(only: str | None = None):
+    """The command modules; with `only` (a command's name), that one module alone, so that running
+    one command never imports what the other commands import at their top."""
+    import pkgutil
+
     import steelyard.cli.commands as pkg
 
+    if only is not None:
+        yield importlib.import_module(f"steelyard.cli.commands.cmd_{only.replace('-', '_')}")
+        return
     for info in sorted(pkgutil.iter_modules(pkg.__path__), key=lambda m: m.name):
         if info.name.startswith("cmd_"):
             yield importlib.import_module(f"steelyard.cli.commands.{info.name}")
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The whole command line; with `only`, the sub-command of that name alone (enough to parse a
+    command line that starts with it: its usage, help and errors are the same)."""
     parser = _Parser(prog="steelyard", description=(
         "Weight and mass-properties ledger: roll-ups, loadouts, CG envelopes. "
         "Run with no command to open the full-screen editor."))
     parser.add_argument("--version", action="version", version=f"steelyard {__version__}")
     subs = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    for mod in _commands():
+    for mod in _commands(only):
         p = subs.add_parser(mod.NAME, help=mod.HELP, description=getattr(mod, "DESCRIPTION", mod.HELP))
         mod.add_arguments(p)
         p.set_defaults(run=mod.run)
@@ -84,11 +92,12 @@ def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     _ignore_file_size_signal()
     try:
-        if not argv or (len(argv) == 1 and not argv[0].startswith("-") and argv[0] not in _names()):
+        names = _names() if argv else set()
+        if not argv or (len(argv) == 1 and not argv[0].startswith("-") and argv[0] not in names):
             from steelyard.cli.open_default import run_default
 
             return run_default(argv[0] if argv else None)
-        parser = build_parser()
+        parser = build_parser(argv[0] if argv[0] in names else None)
         args = parser.parse_args(argv)
         if getattr(args, "run", None) is None:
             parser.print_help()
@@ -116,9 +125,17 @@ def main(argv: list[str] | None = None) -> int:
 
 
 def _names() -> set[str]:
+    """Every command's name, from the file names alone (pkgutil would import inspect: 5 ms)."""
     import steelyard.cli.commands as pkg
 
-    return {m.name[4:].replace("_", "-") for m in pkgutil.iter_modules(pkg.__path__) if m.name.startswith("cmd_")}
+    try:
+        files = [f for folder in pkg.__path__ for f in os.listdir(folder)]
+    except OSError:  # not a folder (a zip import): ask pkgutil
+        import pkgutil
+
+        files = [f"{m.name}.py" for m in pkgutil.iter_modules(pkg.__path__)]
+    stems = {os.path.splitext(f)[0] for f in files if f.endswith((".py", ".pyc"))}
+    return {f[4:].replace("_", "-") for f in stems if f.startswith("cmd_")}
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -21,10 +21,12 @@ import math
 import re
 from fractions import Fraction
 from functools import lru_cache
-
-import pint
+from typing import TYPE_CHECKING
 
 from steelyard.core.errors import SteelyardError, UnitError, said
+
+if TYPE_CHECKING:  # pint itself costs a third of a second to import: only when a unit is off the table
+    import pint
 
 _REGISTRY: pint.UnitRegistry | None = None
 
@@ -35,6 +37,8 @@ def registry() -> pint.UnitRegistry:
     until the final rounding to float."""
     global _REGISTRY
     if _REGISTRY is None:
+        import pint
+
         _REGISTRY = pint.UnitRegistry(non_int_type=Fraction)
     return _REGISTRY
 
@@ -52,15 +56,16 @@ _IN = Fraction("0.0254")  # NIST SP 811, exact
 _FT = 12 * _IN
 _SLUG = _LB * Fraction("9.80665") / _FT  # lbf·s²/ft
 _GAL = 231 * _IN**3  # US gallon
-#: unit text -> (dimension, exact SI factor); each entry is checked against pint in the tests
+_MASSES = {"kg": Fraction(1), "g": Fraction(1, 1000), "t": Fraction(1000), "lb": _LB, "oz": _LB / 16,
+           "slug": _SLUG}
+_LENGTHS = {"m": Fraction(1), "mm": Fraction(1, 1000), "cm": Fraction(1, 100), "in": _IN, "ft": _FT}
+#: unit text -> (dimension, exact SI factor): the common units, so that a file naming them (and every
+#: bare number in it) never needs pint; each entry is checked against pint and NIST SP 811 in the tests
 EXACT: dict[str, tuple[str, Fraction]] = {
-    "kg": ("mass", Fraction(1)), "g": ("mass", Fraction(1, 1000)), "t": ("mass", Fraction(1000)),
-    "lb": ("mass", _LB), "oz": ("mass", _LB / 16), "slug": ("mass", _SLUG),
-    "m": ("length", Fraction(1)), "mm": ("length", Fraction(1, 1000)), "cm": ("length", Fraction(1, 100)),
-    "in": ("length", _IN), "ft": ("length", _FT),
-    "kg*m**2": ("inertia", Fraction(1)), "kg*mm**2": ("inertia", Fraction(1, 10**6)),
-    "g*cm**2": ("inertia", Fraction(1, 10**7)), "lb*in**2": ("inertia", _LB * _IN**2),
-    "lb*ft**2": ("inertia", _LB * _FT**2), "slug*ft**2": ("inertia", _SLUG * _FT**2),
+    **{m: ("mass", f) for m, f in _MASSES.items()},
+    **{n: ("length", f) for n, f in _LENGTHS.items()},
+    **{f"{m}*{n}**2": ("inertia", fm * fl**2) for m, fm in _MASSES.items() for n, fl in _LENGTHS.items()},
+    **{f"{m}*{n}": ("moment", fm * fl) for m, fm in _MASSES.items() for n, fl in _LENGTHS.items()},
     "m**3": ("volume", Fraction(1)), "L": ("volume", Fraction(1, 1000)), "gal": ("volume", _GAL),
     "kg/m**3": ("density", Fraction(1)), "kg/L": ("density", Fraction(1000)), "lb/gal": ("density", _LB / _GAL),
 }
@@ -127,8 +132,11 @@ def exact_factor(unit: str, dimension: str) -> Fraction:
         return known[1]
     if _DIGIT.search(_EXPONENT.sub("", unit)):
         raise UnitError(f"unit {said(unit)} has a number in it; write one number, then its unit")
+    ureg = registry()
+    import pint
+
     try:
-        q = registry().Quantity(Fraction(1), unit)
+        q = ureg.Quantity(Fraction(1), unit)
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError) as exc:
         raise UnitError(f"unknown unit {said(unit)}") from exc
     except Exception as exc:  # pint raises assorted errors on odd strings

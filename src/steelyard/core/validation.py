@@ -12,12 +12,9 @@ from __future__ import annotations
 
 from steelyard.core.control.growth import allocations, growth_fractions
 from steelyard.core.control.uncertainty import parse_tolerances
-from steelyard.core.control.weighing import parse_weighing
 from steelyard.core.document.model import Ledger
-from steelyard.core.history.changes import log_from_ledger
 from steelyard.core.limits.rules import envelope_specs, fuel_rows, limit_specs, mac_reference
 from steelyard.core.loading.loadout import fill_fractions, is_removable, loadout_condition
-from steelyard.core.loading.sequence import sequence_specs
 from steelyard.core.loading.tank import tank_tables
 
 
@@ -33,11 +30,19 @@ def validate_document(ledger: Ledger) -> None:
         loadout_condition(ledger, lo.name)
     envelope_specs(ledger)
     limit_specs(ledger)
-    sequence_specs(ledger)
+    if ledger.sequences:  # the weighing, sequence and change-log modules only for a file with such tables
+        from steelyard.core.loading.sequence import sequence_specs
+
+        sequence_specs(ledger)
     tank_tables(ledger)
     growth_fractions(ledger)
     allocations(ledger)
     parse_tolerances(ledger)
     if ledger.weighing is not None:
+        from steelyard.core.control.weighing import parse_weighing
+
         parse_weighing(ledger.weighing, ledger.units, ledger)
-    log_from_ledger(ledger)
+    if ledger.changes:
+        from steelyard.core.history.changes import log_from_ledger
+
+        log_from_ledger(ledger)

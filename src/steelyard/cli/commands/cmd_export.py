@@ -46,7 +46,7 @@ def _for_terminal(csv_text: str) -> str:
 def run(args) -> int:
     from steelyard.core.errors import SteelyardError
     from steelyard.io.durability.atomic import check_output, same_file
-    from steelyard.cli.loading import load_for_cli, located
+    from steelyard.cli.loading import gc_paused, load_for_cli, located
 
     if not args.csv and not args.json:
         raise SteelyardError("say what to write: --csv OUT and/or --json OUT", field="--csv")
@@ -60,7 +60,7 @@ def run(args) -> int:
         if out and out != "-":
             check_output(out, inputs=(args.file,))  # a symlink, a directory, a read-only file: before the work
     loaded = load_for_cli(args.file)
-    with located(loaded):
+    with located(loaded), gc_paused():
         texts = []
         if args.csv:
             from steelyard.io.exchange.csv_io import ledger_to_csv

@@ -19,7 +19,7 @@ def add_arguments(p) -> None:
 def run(args) -> int:
     from steelyard.core.loading.loadout import resolve
     from steelyard.core.physics.rollup import rollup_state
-    from steelyard.cli.loading import located, prepare
+    from steelyard.cli.loading import gc_paused, located, prepare
 
     loaded, state = prepare(args.file, args.loadout, resolve)
     mp = rollup_state(state)
@@ -33,6 +33,6 @@ def run(args) -> int:
         return 0
     from steelyard.cli.render.rollup import print_rollup
 
-    with located(loaded):
+    with located(loaded), gc_paused():
         print_rollup(loaded, state, mp, args.units)
     return 0

@@ -15,7 +15,6 @@ growth categories or item ids in `[loadout.set]`).
 
 from __future__ import annotations
 
-import difflib
 from collections.abc import Mapping
 
 from steelyard.core.errors import SteelyardError, said
@@ -63,6 +62,8 @@ ARRAYS = frozenset({"assembly", "item", "loadout", "envelope", "limit", "allocat
 
 def did_you_mean(word: str, known) -> str:
     """' (did you mean "limit"?)' for a near miss, else the list of known names."""
+    import difflib  # only when a name is wrong: 7 ms of start-up otherwise
+
     near = difflib.get_close_matches(str(word), [str(k) for k in known], n=1, cutoff=0.7)
     if near:
         return f" (did you mean {said(near[0])}?)"

@@ -67,6 +67,11 @@ def _needs_quotes(cell: str, sep: str) -> bool:
             or (cell != "" and (cell[0].isspace() or cell[-1].isspace())))
 
 
+def quoted(cell: str, sep: str) -> str:
+    """One cell as written: quoted (quotes doubled) where RFC 4180 needs it."""
+    return '"' + cell.replace('"', '""') + '"' if _needs_quotes(cell, sep) else cell
+
+
 def row_text(cells: list[str], sep: str) -> str:
     """One CSV record (RFC 4180): quoted where needed, quotes doubled, "\\n" at the end."""
     return sep.join('"' + c.replace('"', '""') + '"' if _needs_quotes(c, sep) else c for c in cells) + "\n"
@@ -92,6 +97,18 @@ def number_text(si: float, factor: float, decimal_comma: bool = False) -> str:
                 text = repr(hit)
                 break
     return text.replace(".", ",") if decimal_comma else text
+
+
+def number_column(si: np.ndarray, factor: float, decimal_comma: bool = False) -> list[str]:
+    """`number_text` of every value of `si`, the same texts: the common case (12 significant
+    digits multiply back exactly) in one pass; the rest one by one."""
+    si = np.asarray(si, dtype=float)
+    v = si / factor + 0.0
+    texts = [f"{x:.12g}" for x in v.tolist()]
+    back = np.fromiter(map(float, texts), float, len(texts))
+    for i in np.flatnonzero(back * factor != si).tolist():
+        texts[i] = number_text(float(si[i]), factor)
+    return [t.replace(".", ",") for t in texts] if decimal_comma else texts
 
 
 _CELL = re.compile(NUMBER)

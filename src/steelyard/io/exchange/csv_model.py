@@ -7,15 +7,24 @@ holds each as a named field (core.document.model.ITEM_MORE).
 
 from __future__ import annotations
 
+from operator import attrgetter
+
 from steelyard.core.document.model import ITEM_MORE, FileUnits, Item, more_keys
 from steelyard.core.errors import SteelyardError, said
 
 #: the item keys beyond v1 a CSV row may carry (in their own columns or under "other")
 NAMED_KEYS = frozenset(ITEM_MORE)
+_MORE = attrgetter(*ITEM_MORE)
+#: what an item without any key beyond v1 holds in them (`removable` may be False or None)
+_NONE = tuple(None for _ in ITEM_MORE)
+_NONE_REMOVABLE = tuple(False if k == "removable" else None for k in ITEM_MORE)
 
 
 def item_more(item: Item) -> dict[str, object]:
     """The item's keys beyond v1 as written in the file, by key."""
+    held = _MORE(item)
+    if held == _NONE or held == _NONE_REMOVABLE:  # most items: one comparison instead of seven look-ups
+        return {}
     return {k: list(v) if isinstance(v, tuple) else v for k, v in sorted(more_keys(item).items())}
 
 

@@ -7,6 +7,8 @@ at all (NUL: import refuses the file) stops the export with the item and field.
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 
 from steelyard.core.control.growth import growth_fractions
@@ -16,7 +18,8 @@ from steelyard.core.document.model import Ledger
 from steelyard.core.errors import SteelyardError, item_subject
 from steelyard.core.physics.inertia import COMPONENTS, six_from_tensor
 from steelyard.core.units import SYSTEMS, unit_factor
-from steelyard.io.exchange.csv_cells import COLUMNS, CONTROL_KEYS, TOL_COLUMNS, number_text, protect, row_text
+from steelyard.io.exchange.csv_cells import (COLUMNS, CONTROL_KEYS, TOL_COLUMNS, number_column, number_text, protect,
+                                            quoted, row_text)
 from steelyard.io.exchange.csv_model import density_unit, item_more
 from steelyard.io.ledger.toml_write import value as toml_value
 from steelyard.io.report.control import growth_value, tolerance_si
@@ -36,6 +39,30 @@ def _text(value: object, ident: str, key: str) -> str:
         raise SteelyardError("contains a NUL character, which a CSV file cannot carry (import refuses NUL "
                              "bytes); rename it, or use export --json", subject=item_subject(ident), field=key)
     return protect(text)
+
+
+_LEADS = frozenset("'=+-@\t\r")  # a first character that may need `protect`
+
+
+def _cells(values: list[str], sep: str) -> list[str]:
+    """`quoted(protect(v))` of every text of a column, skipping the work where a look at the ends says so."""
+    needs_quotes = re.compile(rf'[{re.escape(sep)}"\n\r]|\A\s|\s\Z').search  # csv_cells._needs_quotes
+    out = []
+    for v in values:
+        if v and v[0] in _LEADS:
+            v = protect(v)
+        out.append(quoted(v, sep) if needs_quotes(v) else v)
+    return out
+
+
+def _text_columns(items, sep: str) -> list[list[str]] | None:
+    """The id, name and group cells of every item; None when one holds a NUL (the row-by-row
+    path then names the first, as it meets it)."""
+    columns = [["" if v is None else str(v) for v in (getattr(it, key) for it in items)]
+               for key in ("id", "name", "group")]
+    if any("\x00" in "".join(c) for c in columns):
+        return None
+    return [_cells(c, sep) for c in columns]
 
 
 def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: bool = False) -> str:
@@ -64,27 +91,44 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
     def num(k: str, si: float | None) -> str:
         return "" if si is None else number_text(si, f[k], decimal_comma)
 
+    # the number columns a whole column at a time (numbers never need quotes: no separator in them)
+    n = len(items)
+    a = ledger.arrays
+    numbers = [number_column(a.unit_mass, f["mass"], decimal_comma),
+               *(number_column(a.cg[:, k], f[c], decimal_comma) for k, c in enumerate("xyz"))]
+    own_rows = np.flatnonzero(np.fromiter((it.inertia is not None or it.shape is not None for it in items),
+                                          bool, n))
+    for j, c in enumerate(COMPONENTS):
+        column = [""] * n
+        for r, text in zip(own_rows.tolist(), number_column(six[own_rows, j], f[c], decimal_comma)):
+            column[r] = text
+        numbers.append(column)
+    tail = keys[len(COMPONENTS) + 9:]  # density, maturity, growth, tolerance, other: as each item has them
+
+    texts = _text_columns(items, sep)
+
     out = [row_text(header, sep)]
     for i, it in enumerate(items):
-        e = extras[i]
-        cells = {"id": _text(it.id, it.id, "id"), "name": _text(it.name, it.id, "name"),
-                 "group": _text(it.group, it.id, "group"), "mass": num("mass", it.mass),
-                 "quantity": str(it.quantity), "variable": "true" if it.variable else "false"}
-        for k, c in zip("xyz", it.cg):
-            cells[k] = num(k, c)
-        has_own = it.inertia is not None or it.shape is not None
-        for k, v in zip(COMPONENTS, six[i]):
-            cells[k] = num(k, float(v)) if has_own else ""
-        if "density" in keys:
-            cells["density"] = num("density", it.density)
-        cells["maturity"] = _text(e.get("maturity", ""), it.id, "maturity")
-        cells["growth"] = number_text(growth_value(e["growth"]), 1.0, decimal_comma) if "growth" in e else ""
-        if "tolerance" in e:
-            kind, m, cg = tolerance_si(it, ledger.units)
-            cells["tol kind"], cells["tol mass"] = kind, num("tol mass", m)
-            for k, c in zip(("tol x", "tol y", "tol z"), cg or (None, None, None)):
-                cells[k] = num(k, c)
-        rest = {k: v for k, v in e.items() if k not in CONTROL_KEYS}
-        cells["other"] = toml_value(rest) if rest else ""
-        out.append(row_text([cells.get(k, "") for k in keys], sep))
+        row = [*((quoted(_text(it.id, it.id, "id"), sep), quoted(_text(it.name, it.id, "name"), sep),
+                  quoted(_text(it.group, it.id, "group"), sep)) if texts is None else
+                 (texts[0][i], texts[1][i], texts[2][i])),
+               numbers[0][i], numbers[1][i], numbers[2][i],
+               numbers[3][i], str(it.quantity), "true" if it.variable else "false",
+               *(col[i] for col in numbers[4:])]
+        if tail:
+            e = extras[i]
+            cells = {}
+            if "density" in keys:
+                cells["density"] = num("density", it.density)
+            cells["maturity"] = _text(e.get("maturity", ""), it.id, "maturity")
+            cells["growth"] = number_text(growth_value(e["growth"]), 1.0, decimal_comma) if "growth" in e else ""
+            if "tolerance" in e:
+                kind, m, cg = tolerance_si(it, ledger.units)
+                cells["tol kind"], cells["tol mass"] = kind, num("tol mass", m)
+                for k, c in zip(("tol x", "tol y", "tol z"), cg or (None, None, None)):
+                    cells[k] = num(k, c)
+            rest = {k: v for k, v in e.items() if k not in CONTROL_KEYS}
+            cells["other"] = toml_value(rest) if rest else ""
+            row += [quoted(cells.get(k, ""), sep) for k in tail]
+        out.append(sep.join(row) + "\n")
     return "".join(out)

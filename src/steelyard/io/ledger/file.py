@@ -20,7 +20,7 @@ import time
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Iterator
+from typing import TYPE_CHECKING, Iterator
 
 from steelyard.core.errors import FormatError, SteelyardError
 from steelyard.core.document.model import Ledger
@@ -28,12 +28,14 @@ from steelyard.io.durability.atomic import (  # noqa: F401 - ChangedOnDisk re-ex
     ABSENT, ChangedOnDisk, check_output, file_sha256, mark_failed, mark_loaded, same_file, writable_check,
     write_atomic,
 )
-from steelyard.io.durability import journal as _journal
-from steelyard.io.durability.lock import Lock, Locked, LockRefused, LockUnavailable, acquire, is_stale, take_over
-from steelyard.io.ledger.layout import preserve
 from steelyard.io.ledger.read import Progress, ledger_from_data
-from steelyard.io.ledger.write import ledger_to_toml
 from steelyard.io.ledger.toml_read import decode, parse_toml
+
+if TYPE_CHECKING:
+    from steelyard.io.durability.lock import Lock
+
+# The writers' modules (layout, the TOML writer, the lock, the journal) are imported where a
+# write needs them: a command that only reads starts without them.
 
 # A TOML comment is a '#' outside any string; strings are matched first so a
 # '#' inside "..." or '''...''' is skipped.
@@ -101,11 +103,13 @@ def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
 
     FILE@REV reads the file as committed at a git revision (`io.vcs`); nothing is marked then.
     """
-    from steelyard.io.vcs.ledger_at import open_spec  # here: io.vcs reads ledgers through this module
+    spec = os.fspath(path)
+    if isinstance(spec, str) and "@" in spec and not os.path.lexists(spec):  # maybe FILE@REV (revision.py)
+        from steelyard.io.vcs.ledger_at import open_spec  # here: io.vcs reads ledgers through this module
 
-    at = open_spec(path, progress=progress, fast=fast)
-    if at is not None:
-        return at
+        at = open_spec(path, progress=progress, fast=fast)
+        if at is not None:
+            return at
     source = str(path)
     try:
         data = read_bytes(path)
@@ -134,6 +138,9 @@ def _kept_layout(path: str, sha256: str, original: Ledger, ledger: Ledger,
                  canonical: str | None = None) -> tuple[str, str]:
     """(text, why not kept): `ledger` over the file at `path`, keeping its layout if it still holds the
     bytes (`sha256`) that `original` was read from; else the canonical text (`canonical`, when given)."""
+    from steelyard.io.ledger.layout import preserve
+    from steelyard.io.ledger.write import ledger_to_toml
+
     try:
         data = Path(path).read_bytes()
     except OSError:
@@ -156,6 +163,8 @@ def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger
     order, blank lines, number text (io.ledger.layout). Otherwise, and over a
     file changed on disk, the canonical text is written.
     """
+    from steelyard.io.ledger.write import ledger_to_toml
+
     target = str(path)
     same = loaded is not None and os.path.realpath(loaded.path) == os.path.realpath(target)
     expect = None
@@ -200,6 +209,8 @@ class LedgerRewrite:
         """The text to write for `ledger`: over the file it replaces, that file's layout kept (comments,
         order, the text of unchanged values); otherwise canonical (`canonical`, if already made)."""
         if self._original is None:
+            from steelyard.io.ledger.write import ledger_to_toml
+
             return canonical if canonical is not None else ledger_to_toml(ledger)
         text, self.not_kept = _kept_layout(os.path.realpath(self.target), self._expect, self._original, ledger,
                                            canonical)
@@ -219,6 +230,9 @@ class LedgerRewrite:
 
 def _lock_for_command(target: str) -> Lock:
     """The editor's lock on `target`, or a one-line refusal naming who holds it."""
+    from steelyard.io.durability import journal as _journal
+    from steelyard.io.durability.lock import Locked, LockRefused, LockUnavailable, acquire, is_stale, take_over
+
     try:
         return acquire(target)
     except Locked as exc:
@@ -266,6 +280,8 @@ def rewriting(target: str | os.PathLike, *, source: str | os.PathLike | None = N
         check_output(target, inputs=(source,), force=force, hint="pass --force to replace it anyway")
     lock = _lock_for_command(target)
     try:
+        from steelyard.io.durability import journal as _journal
+
         state = _journal.pending(target)
         if state is not None:
             n = len(state.records)
