@@ -136,6 +136,8 @@ def test_a_value_typed_in_a_unit_is_written_back_as_typed(t, factor):
 @settings(**SETTINGS)
 @given(st.one_of(finite, subnormal), st.sampled_from(FACTORS))
 @example(-0.0, float(LB))
+@example(0.0, float(IN))
+@example(-0.0, 1000.0)
 @example(5e-324, float(IN))
 @example(1.7976931348623157e308, 1000.0)
 @example(1e-3 * 0.45359237, float(LB))

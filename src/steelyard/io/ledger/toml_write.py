@@ -80,6 +80,8 @@ def number(x: float, factor: float = 1.0) -> str:
         c = float(f"{v:.14g}")
         if c * factor == x:
             return repr(c)
+    elif x == 0.0:
+        return repr(v)  # the search's answer: "0.0" or "-0.0" beats any subnormal's text
     return _search(x, v, factor)
 
 
