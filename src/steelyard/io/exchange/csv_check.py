@@ -10,6 +10,7 @@ on an item that came from the CSV is reported at that CSV line and column.
 from __future__ import annotations
 
 import re
+import weakref
 from dataclasses import dataclass, field
 
 from steelyard.core.control.growth import growth_fractions
@@ -60,12 +61,20 @@ def _placed(exc: SteelyardError, source: str, places: CsvPlaces | None) -> Steel
     return SteelyardError(exc.message, file=source, subject=f"line {line} (item {said(ident)})", field=where)
 
 
+#: (the ledger last checked, its text): `import` checks the ledger `read_csv` built and checked
+_last: tuple[weakref.ref, str] | None = None
+
+
 def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None) -> str:
     """Write the ledger to text and read it back with the full loader: what is saved will open.
 
     Returns the text, ready to write. With `places`, a problem on an item from
-    the CSV names its CSV line and column.
+    the CSV names its CSV line and column. The same ledger object (immutable)
+    checked again gets the text of its first check, without a second pass.
     """
+    global _last
+    if _last is not None and _last[0]() is ledger:
+        return _last[1]
     try:
         text = ledger_to_toml(ledger)
         final = ledger_from_data(parse_toml(text, source=source), source=source)
@@ -74,4 +83,8 @@ def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None) -
         validate(final)
     except SteelyardError as exc:
         raise _placed(exc, source, places) from None
+    try:
+        _last = (weakref.ref(ledger), text)
+    except TypeError:  # a ledger type without weak references: no memo
+        _last = None
     return text

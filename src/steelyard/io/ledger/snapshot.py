@@ -37,7 +37,7 @@ from steelyard.core.loading.tank import cg_for_fill
 from steelyard.core.document.model import Envelope, FileUnits, ItemArrays, Ledger, with_arrays
 from steelyard.core.physics.rollup import MassProperties, rollup_state
 from steelyard.core.limits.status import envelope_results
-from steelyard.io.ledger.write import ledger_to_toml
+from steelyard.io.ledger.snapshot_content import content_text as fast_content_text
 from steelyard.io.ledger.toml_write import tables
 from steelyard.io.ledger.snapshot_sources import placed_sources
 
@@ -61,8 +61,10 @@ class SnapshotInfo:
 
 
 def content_text(ledger: Ledger) -> str:
-    """Canonical text of the ledger without its [snapshot] table: what the hash covers."""
-    return ledger_to_toml(ledger, snapshot=False)
+    """Canonical text of the ledger without its [snapshot] table: what the hash covers.
+
+    Exactly `ledger_to_toml(ledger, snapshot=False)`, written by the snapshot's quick path."""
+    return fast_content_text(ledger)
 
 
 def content_hash(ledger: Ledger) -> str:
@@ -155,7 +157,7 @@ def snapshot_text(ledger: Ledger, loadout: str | None, *, source: str, author: s
                   taken: _dt.datetime | None = None, source_sha256: str | None = None) -> str:
     """The whole snapshot file: canonical content, a blank line, the [snapshot] table."""
     snap = as_carried(ledger, loadout)
-    content = ledger_to_toml(snap, snapshot=False)
+    content = content_text(snap)
     mp = rollup_state(resolve(snap, None))
     taken = taken or _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0)
     table: dict = {"format": SNAPSHOT_FORMAT, "taken": taken, "author": author, "source": source}

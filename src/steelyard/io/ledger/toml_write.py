@@ -23,16 +23,25 @@ def key(k: str) -> str:
     return k if _BARE_KEY.match(k) else string(k)
 
 
+#: characters a TOML basic string cannot hold as themselves (TOML v1.0.0, "String"): the quote, the
+#: backslash and the control characters U+0000-U+001F and U+007F (tab too: escaped, though it may stay)
+_NEEDS_ESCAPE = re.compile(r'["\\\x00-\x1f\x7f]')
+
+
+def _escape(m: re.Match) -> str:
+    ch = m.group()
+    return _ESCAPES.get(ch) or f"\\u{ord(ch):04x}"
+
+
 def string(s: str) -> str:
-    out = []
-    for ch in s:
-        if ch in _ESCAPES:
-            out.append(_ESCAPES[ch])
-        elif ord(ch) < 0x20 or ord(ch) == 0x7F:
-            out.append(f"\\u{ord(ch):04x}")
-        else:
-            out.append(ch)
-    return '"' + "".join(out) + '"'
+    """A TOML basic string. One regex pass finds what needs escaping; most text needs none."""
+    if _NEEDS_ESCAPE.search(s) is None:
+        return '"' + s + '"'
+    return '"' + _NEEDS_ESCAPE.sub(_escape, s) + '"'
+
+
+#: `number` skips the full search for |x / factor| in this range (positional notation, see `_short`)
+_SHORT_LO, _SHORT_HI = 1e-3, 1e13
 
 
 def number(x: float, factor: float = 1.0) -> str:
@@ -44,15 +53,39 @@ def number(x: float, factor: float = 1.0) -> str:
     one unit in the last place of x, else the nearest; the shortest text wins
     within each rank. A value that came from the file in this unit is always
     written back as it was read.
+
+    In the file's own SI unit (factor 1) that is Python's repr, the shortest
+    text that reads back to the same float. Otherwise `_short` answers the
+    usual case (a value typed in this unit) with one rounding; the full
+    search (`_search`) runs only when it cannot.
     """
     if isinstance(x, int) and not isinstance(x, bool) and factor == 1.0:
         return str(x)
     x = float(x)
+    if factor == 1.0:
+        return repr(x)  # finite: always has '.' or 'e'; nan, inf, -inf as TOML spells them
     if not math.isfinite(x):
         return "nan" if math.isnan(x) else ("inf" if x > 0 else "-inf")
-    if factor == 1.0:
-        return _float_text(x)
     v = x / factor
+    # Why one rounding gives the search's answer: every float c that reads back exactly
+    # (c * factor == x) lies within about two units in the last place (ulp) of v. Two floats
+    # whose shortest texts have <= 14 significant digits are >= 1e-14 of their size apart, far
+    # more than four ulps (2.2e-16 of it each): so at most one exact candidate has a text of
+    # <= 14 digits, and its decimal is the 14-digit rounding of v (within a few ulps of v; the
+    # 14-digit spacing is far wider). When that rounding reads back exactly it is a candidate
+    # of the search (v rounded to its own number of digits) and every other exact candidate
+    # has 15 digits or more: in positional notation (1e-3 <= |v| < 1e13, at most 13 integer
+    # digits), a longer text. tests/test_toml_write_fast.py compares the two on random values.
+    if _SHORT_LO <= abs(v) < _SHORT_HI:
+        c = float(f"{v:.14g}")
+        if c * factor == x:
+            return repr(c)
+    elif x == 0.0:
+        return repr(v)  # the search's answer: "0.0" or "-0.0" beats any subnormal's text
+    return _search(x, v, factor)
+
+
+def _search(x: float, v: float, factor: float) -> str:
     candidates = {float(f"{v:.{d}g}") for d in range(6, 18)}
     up = down = v
     candidates.add(v)
