@@ -17,6 +17,8 @@ DESCRIPTION = (
 
 
 def add_arguments(p) -> None:
+    from steelyard.cli.unit_options import add_unit_options
+
     p.add_argument("file", help="ledger file (TOML) with a [weighing] table")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
     p.add_argument("--apply", action="store_true", help="write the ledger with the weighed empty item")
@@ -25,7 +27,7 @@ def add_arguments(p) -> None:
                    help="with --apply: rewrite FILE although it has no write permission, or replace an "
                         "existing OUT")
     p.add_argument("--author", help="name for the change log (default: $STEELYARD_AUTHOR or the login name)")
-    p.add_argument("--units", choices=("si", "us"), help="display units (default: the file's own)")
+    add_unit_options(p)
 
 
 def _author(args) -> str:
