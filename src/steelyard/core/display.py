@@ -123,6 +123,11 @@ class DisplayUnits:
         f = self.factor(dimension)
         return f"{number(None if si is None else si / f, dimension, f)} {pretty_unit(unit)}"
 
+    def num(self, si: float | None, dimension: str) -> str:
+        """A lone value of `dimension` in these units, without its unit (the one rule)."""
+        f = self.factor(dimension)
+        return number(None if si is None else si / f, dimension, f)
+
     def factor(self, dimension: str) -> float:
         """SI per display unit of `dimension`."""
         if dimension == "moment":

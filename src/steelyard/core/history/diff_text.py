@@ -183,7 +183,7 @@ def field_rows(key: str, kind: str, old: object, new: object, du: DisplayUnits) 
 def _six_text(t: dict | None, du: DisplayUnits) -> str:
     if t is None:
         return "—"
-    return ", ".join(f"{k} {fmt(du.i(v))}" for k, v in t.items()) + f" {pretty_unit(du.inertia)}"
+    return ", ".join(f"{k} {du.num(v, 'inertia')}" for k, v in t.items()) + f" {pretty_unit(du.inertia)}"
 
 
 def _shape_text(s: dict | None, du: DisplayUnits) -> str:
@@ -193,7 +193,7 @@ def _shape_text(s: dict | None, du: DisplayUnits) -> str:
     parts = [s["kind"], f"axis {s['axis']}"]
     for k, v in s.items():
         if k not in ("kind", "axis"):
-            size = "×".join(fmt(du.l(x)) for x in v) if isinstance(v, list) else fmt(du.l(v))
+            size = "×".join(du.num(x, 'length') for x in v) if isinstance(v, list) else du.num(v, 'length')
             parts.append(f"{k} {size} {lu}")
     return ", ".join(parts)
 

@@ -1,0 +1,19 @@
+"""Significant figures written independently of the program (Python's decimal module), for
+expected texts: round half even to `sig` figures, thousands separated, trailing zeros dropped.
+The rule itself is stated in docs/numbers.md."""
+
+from decimal import ROUND_HALF_EVEN, Decimal
+from fractions import Fraction
+
+
+def sig_text(x, sig: int = 5) -> str:
+    d = Decimal(x.numerator) / Decimal(x.denominator) if isinstance(x, Fraction) else Decimal(repr(float(x)))
+    if d == 0:
+        return "0"
+    exp = d.adjusted()  # power of ten of the leading digit
+    places = max(0, sig - 1 - exp)
+    q = d.quantize(Decimal(1).scaleb(-places), rounding=ROUND_HALF_EVEN)
+    text = f"{q:,f}"
+    if "." in text:
+        text = text.rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text
