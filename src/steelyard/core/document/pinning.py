@@ -71,8 +71,8 @@ def convert_number(x: float, dimension: str, old: str, new: str) -> float:
     """A bare number in `old` rewritten in `new` so that a reader gets the same SI value.
 
     The reader computes float(text) * factor; among short decimal roundings of the
-    exact quotient and its neighbouring floats, the shortest that reads back to the
-    same SI float wins, else the nearest (within an ulp or two: 1e-15 relative)."""
+    quotient and its neighbouring floats, the shortest that reads back within one ulp
+    of the same SI float wins (so converting back restores the text), else the nearest."""
     import math
 
     fo, fn = _unit_factor(old, dimension), _unit_factor(new, dimension)
@@ -83,9 +83,11 @@ def convert_number(x: float, dimension: str, old: str, new: str) -> float:
     for _ in range(3):
         up, down = math.nextafter(up, math.inf), math.nextafter(down, -math.inf)
         candidates += [up, down]
-    exact = [c for c in candidates if c * fn == si]
-    if exact:
-        return min(exact, key=lambda c: (len(repr(c)), abs(c - v)))
+    # the shortest text that reads back within one ulp of the SI value: a factor such as 1e-9 is not
+    # exact in binary, so insisting on the identical float would write 0.6000000000000001 for 0.6
+    near = [c for c in candidates if abs(c * fn - si) <= math.ulp(si)]
+    if near:
+        return min(near, key=lambda c: (len(repr(c)), abs(c * fn - si)))
     return min(candidates, key=lambda c: abs(c * fn - si))
 
 
