@@ -17,3 +17,17 @@ def sig_text(x, sig: int = 5) -> str:
     if "." in text:
         text = text.rstrip("0").rstrip(".")
     return "0" if text in ("-0", "") else text
+
+
+def length_text(x, ref, sig: int = 5) -> str:
+    """A lone length as docs/numbers.md states it: `sig` significant figures of the larger of |x|
+    and `ref` (1 m in the display unit: 1000 mm, 39.37 in), trailing zeros dropped."""
+    d = Decimal(x.numerator) / Decimal(x.denominator) if isinstance(x, Fraction) else Decimal(repr(float(x)))
+    r = Decimal(ref.numerator) / Decimal(ref.denominator) if isinstance(ref, Fraction) else Decimal(repr(ref))
+    big = max(abs(d), r)
+    places = max(0, sig - 1 - big.adjusted())
+    q = d.quantize(Decimal(1).scaleb(-places), rounding=ROUND_HALF_EVEN)
+    text = f"{q:,f}"
+    if "." in text:
+        text = text.rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text

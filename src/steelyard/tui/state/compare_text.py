@@ -16,6 +16,7 @@ from rich.text import Text
 from steelyard.core.caution import CAUTION
 from steelyard.core.history.diff import ItemEffect, LedgerDiff, change_rows
 from steelyard.core.history.diff_text import definition_sections
+from steelyard.core.numbers import number
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.rules import mac_reference
@@ -124,7 +125,8 @@ def envelopes_text(diff: LedgerDiff, du: DisplayUnits) -> Text:
         ma = None if e.a is None or e.a.margin is None else du.l(e.a.margin)
         mb = None if e.b is None or e.b.margin is None else du.l(e.b.margin)
         d = None if e.margin_delta is None else du.l(e.margin_delta)
-        t.append(f"  margin {fmt(ma)} → {fmt(mb)} {lu} (Δ {signed(d)})\n")
+        f = du.factor("length")
+        t.append(f"  margin {number(ma, 'length', f)} → {number(mb, 'length', f)} {lu} (Δ {signed(d)})\n")
     if diff.envelope_definitions:
         d = diff.envelope_definitions
         parts = [f"added {', '.join(map(clean, d.added))}" if d.added else "",
