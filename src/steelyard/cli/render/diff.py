@@ -15,6 +15,7 @@ from rich.text import Text
 from steelyard.core.caution import CAUTION
 from steelyard.core.history.diff import LedgerDiff, change_rows
 from steelyard.core.history.diff_text import definition_sections
+from steelyard.core.numbers import number
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit, visible
 from steelyard.core.document.model import FileUnits
 
@@ -134,7 +135,7 @@ def _envelopes(console, diff: LedgerDiff, du) -> None:
     for e in diff.envelopes:
         margin = [None if r is None or r.margin is None else du.l(r.margin) for r in (e.a, e.b)]
         delta = None if e.margin_delta is None else du.l(e.margin_delta)
-        t.add_row(T(e.name), _status(e.a), _status(e.b), fmt(margin[0]), fmt(margin[1]), _signed(delta),
+        t.add_row(T(e.name), _status(e.a), _status(e.b), number(margin[0], 'length', du.factor('length')), number(margin[1], 'length', du.factor('length')), _signed(delta),
                   "status changed" if e.status_changed else "")
     console.print(t)
     console.print(T(CAUTION, style="italic"))
