@@ -131,18 +131,23 @@ def print_weighing(console, loaded, record: dict, system: str | None) -> None:
     from rich.table import Table
     from rich.text import Text
 
-    from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+    from steelyard.core.display import AXIS_NAMES, DisplayUnits, pretty_unit
+    from steelyard.core.numbers import cell
     from steelyard.io.report.text import clean
 
     du = DisplayUnits.choose(loaded.ledger.units, system)
     mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
-    dm, dl = du.decimals("mass"), du.decimals("length") + 1
+    # one count of decimals per dimension (docs/numbers.md): 5 significant figures at the
+    # weighed mass and the farthest support point or CG
+    dm = du.column_decimals([record["weighed_mass_kg"], *(p["reading_kg"] for p in record["points"])], "mass")
+    dl = du.column_decimals([c for p in record["points"] for c in p["at_m"] if c is not None]
+                            + [c for c in record["weighed_cg_m"] if c is not None], "length")
 
     def m(x):
-        return fmt(None if x is None else du.m(x), dm)
+        return cell(None if x is None else du.m(x), dm)
 
     def xyz(v):
-        return [fmt(None if c is None else du.l(c), dl) for c in v]
+        return [cell(None if c is None else du.l(c), dl) for c in v]
 
     console.print(Text(f"Weighing of {clean(loaded.path)}", style="bold"))
     t = Table(title="Support points (net = reading - tare)", title_justify="left")
