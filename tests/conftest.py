@@ -11,6 +11,10 @@ import pytest
 
 from support.paths import FIXTURES
 
+# The person's saved display units (io/user_settings.py) never reach the suite: a file that does
+# not exist means the defaults. A test that wants settings points STEELYARD_SETTINGS at its own file.
+os.environ["STEELYARD_SETTINGS"] = os.path.join(os.path.dirname(__file__), "support", "no-such-settings.toml")
+
 # hypothesis: a fixed, CI-affordable profile; STEELYARD_FUZZ=release for long runs
 try:
     from hypothesis import HealthCheck, settings

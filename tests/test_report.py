@@ -165,8 +165,10 @@ def test_weight_statement_by_hand(ledger_path, tmp_path):
     text = out_path.read_text()
     # variable items empty: 40 + 2 = 42 kg, x = (40·1.0 + 2·0.5) / 42 = 0.976190 m
     total = next(s for s in text.splitlines() if s.startswith("| total | 3 |"))
-    assert "| 42.00 |" in total  # kg, to the 5 g the display resolves (DisplayUnits.decimals)
-    assert f"{41 / 42:.5f}" in total
+    # docs/numbers.md: one count of decimals per dimension, 5 significant figures at the heaviest mass
+    # shown (72 kg: 3 decimals) and at the larger of the farthest CG and 1 m (4 decimals in m)
+    assert "| 42.000 |" in total
+    assert f"{41 / 42:.4f}" in total
 
 
 def test_since_filters_the_change_log(ledger_path, tmp_path):
@@ -199,7 +201,7 @@ def test_sequence_against_envelopes(ledger_path, tmp_path):
     cells = [c.strip() for c in line.strip("|").split("|")]
     assert cells[3] == "2" and cells[4] == str(outside) == "1"
     # least margin: the start, 1.1 - 89/72 m: outside the aft limit (negative)
-    assert cells[5] == f"{1.1 - states[0][1]:.5f}" and cells[6] == "start"
+    assert cells[5] == f"{1.1 - states[0][1]:.4f}" and cells[6] == "start"  # 4 decimals in m (docs/numbers.md)
 
 
 def test_loadout_choice(ledger_path, tmp_path):
@@ -233,7 +235,7 @@ def test_report_of_the_weighing_fixture(tmp_path):
     assert rc == 0, err
     text = out_path.read_text()
     # AMT General Handbook ch. 4: empty weight 1,331.5 lb, CG 66,698 / 1,331.5 = 50.092 in
-    assert "1,331.50" in text and "50.092" in text
+    assert "1,331.5" in text and "50.092" in text  # 5 significant figures (docs/numbers.md)
     assert html.escape(CAUTION) in text
 
 

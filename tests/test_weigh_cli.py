@@ -98,8 +98,9 @@ def test_human_output_shows_the_handbook_figures():
     out = run("weigh", FIXTURE)
     assert out.returncode == 0, out.stderr
     # 1,331.5 lb and 66,698 / 1,331.5 = 50.0924 in (AMT General Handbook ch. 4)
-    assert "1,331.50" in out.stdout and "50.092" in out.stdout
-    assert "222.50" in out.stdout  # nose net: 225 - 2.5
+    # docs/numbers.md: 5 significant figures at the weighed mass (1,502.5 lb: 1 decimal)
+    assert "1,331.5 " in out.stdout and "50.092" in out.stdout
+    assert "222.5 " in out.stdout  # nose net: 225 - 2.5
     assert "full fuel" in out.stdout and "unusable fuel" in out.stdout
 
 

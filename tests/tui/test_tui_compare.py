@@ -15,6 +15,7 @@ from fractions import Fraction
 
 from steelyard.core.caution import CAUTION
 from steelyard.core.display import fmt
+from support.sigfig import length_text, sig_text
 from steelyard.tui.screens.choice_screen import ChoiceScreen
 from steelyard.tui.screens.compare_screen import CompareScreen
 from steelyard.tui.screens.prompt import TextPrompt
@@ -124,8 +125,8 @@ async def test_compare_two_loadouts_totals_ranking_and_envelopes(tmp_path):
         assert "A ledger.toml now, loadout full" in text and "B ledger.toml now, loadout half" in text
         assert "0 added, 0 removed, 2 changed" in text
         # totals side by side: A, B and B − A, in the file's units
-        assert f"{fmt(float(ma))}" in text and f"{fmt(float(mb))}" in text and f"{fmt(float(mb - ma))}" in text
-        assert fmt(float(ca[0])) in text and fmt(float(cb[0])) in text
+        assert sig_text(ma) in text and sig_text(mb) in text and f"{fmt(float(mb - ma))}" in text
+        assert length_text(ca[0], 1 / Fraction('0.0254')) in text and length_text(cb[0], 1 / Fraction('0.0254')) in text
         assert abs(Fraction(diff.delta_mass) - (mb - ma) * LB) <= Fraction(1, 10 ** 12)
         # ranking: each changed item alone, largest |ΔCG| first
         expected = sorted(("tank", "bags"), key=lambda i: -sum(float(x) ** 2 for x in alone(
@@ -141,14 +142,14 @@ async def test_compare_two_loadouts_totals_ranking_and_envelopes(tmp_path):
         first = expected[0]
         assert text.index(f"changed  {first}") < text.index(f"changed  {expected[1]}")
         old, new = ROWS["full"][first][0], ROWS["half"][first][0]
-        assert f"mass: {fmt(float(old))} lb → {fmt(float(new))} lb" in text
+        assert f"mass: {sig_text(old)} lb → {sig_text(new)} lb" in text
         # envelopes tab: status both sides, margin change and the caution
         await pilot.press("3")
         await pilot.pause(0.2)
         text = " ".join(screen_text(app).split())
         # normal envelope: fwd 95, aft 104 in at every mass here; margin = distance to the nearer limit
         margin = [min(c[0] - 95, 104 - c[0]) for c in (ca, cb)]
-        assert f"margin {fmt(float(margin[0]))} → {fmt(float(margin[1]))} in" in text
+        assert f"margin {length_text(margin[0], 1 / Fraction('0.0254'))} → {length_text(margin[1], 1 / Fraction('0.0254'))} in" in text
         assert " ".join(CAUTION.split()) in text
         # swap: B against A becomes A against B
         await pilot.press("s")

@@ -10,7 +10,7 @@ from fractions import Fraction
 
 import numpy as np
 
-from steelyard.core.display import fmt
+from support.sigfig import length_text, sig_text
 from steelyard.io.ledger.demo import demo_path
 from steelyard.tui.app import SteelyardApp
 from steelyard.tui.screens.item_form import ItemForm
@@ -28,7 +28,7 @@ async def test_open_the_demo_shows_table_totals_and_caution():
         assert "copy of the demo" in app.title
         mass, cg = exact_totals(DEMO)
         # the shown total equals the exact sum (FAA-H-8083-1: CG = Σ moment / Σ weight), in lb
-        assert f"Mass {fmt(float(mass / LB))} lb" in text
+        assert f"Mass {sig_text(mass / LB)} lb" in text  # 5 significant figures (docs/numbers.md)
         assert close(s.totals().mp.mass, mass) and all(close(s.totals().mp.cg[k], cg[k]) for k in range(3))
         assert "INSIDE" in text or "OUTSIDE" in text  # status in words, not colour alone
         assert "Planning aid only" in text
@@ -54,8 +54,8 @@ async def test_add_item_through_the_form_changes_totals_exactly(tmp_path):
         mp = app.session.totals().mp
         assert close(mp.mass, mass) and all(close(mp.cg[k], cg[k]) for k in range(3))
         text = screen_text(app)
-        assert f"Mass {fmt(float(mass / LB))} lb" in text
-        assert f"x {fmt(float(cg[0] / Fraction('0.0254')))} aft" in text
+        assert f"Mass {sig_text(mass / LB)} lb" in text  # 5 significant figures (docs/numbers.md)
+        assert f"x {length_text(cg[0] / Fraction('0.0254'), 1 / Fraction('0.0254'))} aft" in text
         change = app.session.history.log[-1]
         assert change.action == "add" and change.item == "radio-2"
         # the recorded effect is the exact Δmass: 2.3 lb (NIST SP 811), and ΔCG the exact CG shift

@@ -17,6 +17,7 @@ import numpy as np
 from shapely.geometry import LineString, Polygon
 
 from steelyard.core.display import fmt
+from support.sigfig import length_text, sig_text
 from steelyard.tui.widgets.chart import REGION, WORST, EnvelopeChart
 from support.exact import exact_totals
 from support.ledgers import write_ledger
@@ -114,7 +115,7 @@ async def test_uncertainty_region_is_the_two_sigma_ellipse(tmp_path):
         assert math.isclose(region[:, 1].max() - big, 2 * sigma_m, rel_tol=2e-3)
         text = screen_text(app)
         assert REGION in app.main.query_one(EnvelopeChart).picture_text()
-        assert "2σ CG region" in text and f"σ x {fmt(math.sqrt(var_x))}" in " ".join(text.split())
+        assert "2σ CG region" in text and f"σ x {length_text(math.sqrt(var_x), 1 / Fraction('0.0254'))}" in " ".join(text.split())
 
 
 async def test_totals_show_percent_mac_from_the_mac_table(tmp_path):
@@ -127,4 +128,4 @@ async def test_totals_show_percent_mac_from_the_mac_table(tmp_path):
         percent = (cg[0] / Fraction("0.0254") - Fraction(str(mac["lemac"]))) / Fraction(str(mac["length"])) * 100
         text = screen_text(app)
         line = next(line for line in text.splitlines() if "%MAC" in line)
-        assert fmt(float(percent), 2) in line and "LEMAC 114.00, MAC 60.00 in" in line
+        assert fmt(float(percent), 2) in line and "LEMAC 114, MAC 60 in" in line

@@ -14,7 +14,7 @@ import tomllib
 from fractions import Fraction
 from pathlib import Path
 
-from steelyard.core.display import fmt
+from support.sigfig import length_text, sig_text
 from steelyard.tui.screens.weighing_form import WeighingForm
 from support.paths import FIXTURES
 from support.tui import copy_fixture, editor, screen_text, settle, type_into
@@ -54,10 +54,10 @@ async def test_form_prefilled_from_the_file_reduces_live_and_replaces_the_empty_
         assert isinstance(app.screen, WeighingForm)
         text = " ".join(screen_text(app).split())
         for net in NET:
-            assert fmt(float(net)) in text  # net per scale point
-        assert f"Weighed {fmt(float(sum(NET)))} lb" in text
-        assert f"Empty {fmt(float(EMPTY))} lb, CG x {fmt(float(EMPTY_MOMENT / EMPTY))}" in text
-        assert f"mass {fmt(1310.0)} → {fmt(float(EMPTY))} lb" in text  # the replaced item, old → new
+            assert sig_text(net) in text  # net per scale point
+        assert f"Weighed {sig_text(sum(NET))} lb" in text
+        assert f"Empty {sig_text(EMPTY)} lb, CG x {length_text(EMPTY_MOMENT / EMPTY, 1 / Fraction('0.0254'))}" in text
+        assert f"mass {sig_text(1310)} → {sig_text(EMPTY)} lb" in text  # the replaced item, old → new
         await _apply(app, pilot)
         assert not isinstance(app.screen, WeighingForm)
         new = app.session.ledger.item("empty-vehicle")
@@ -104,11 +104,11 @@ async def test_typed_readings_and_a_bad_tare_change_nothing_until_fixed(tmp_path
         await type_into(app, pilot, "w-point-2-tare", "2.5")
         await type_into(app, pilot, "w-point-2-reading", "102.05828325 kg")
         text = " ".join(screen_text(app).split())
-        assert f"Empty {fmt(float(EMPTY))} lb" in text
+        assert f"Empty {sig_text(EMPTY)} lb" in text
         # a point's name is user text: markup stays literal, an escape sequence shows as a visible symbol
         await type_into(app, pilot, "w-point-2-name", "[b]nose[/b]")
         assert screen_text(app).count("[b]nose[/b]") == 2  # in its field and, as typed, in the net readings
-        assert "[b]nose[/b] 222.5000" in str(app.screen.query_one("#weigh-result").content)
+        assert "[b]nose[/b] 222.5 lb" in str(app.screen.query_one("#weigh-result").content)
         await pilot.press("escape")
         await pilot.pause()
         assert app.session.ledger is before and not app.session.dirty
@@ -130,7 +130,7 @@ async def test_a_ledger_without_a_weighing_table_starts_empty_and_takes_typed_po
                 await type_into(app, pilot, f"w-point-{row}-{key}", value)
         text = " ".join(screen_text(app).split())
         # nothing on board or missing: empty = weighed
-        assert f"Empty {fmt(float(sum(NET)))} lb" in text
+        assert f"Empty {sig_text(sum(NET))} lb" in text
         moment = sum(n * a for n, a in zip(NET, ARM))
         await _apply(app, pilot)
         new = app.session.ledger.item("empty-vehicle")

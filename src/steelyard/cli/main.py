@@ -102,6 +102,10 @@ def main(argv: list[str] | None = None) -> int:
         if getattr(args, "run", None) is None:
             parser.print_help()
             return EXIT_INPUT
+        if hasattr(args, "mass_unit"):  # a command that prints for people: saved settings and unit flags
+            from steelyard.cli.unit_options import unit_choice
+
+            args.units = unit_choice(args)
         code = int(args.run(args))
     except SteelyardError as exc:
         print(f"steelyard: {exc}", file=sys.stderr)

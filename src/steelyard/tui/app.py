@@ -48,6 +48,7 @@ PALETTE = (
     ("Weighing form", "scale readings and tares → empty mass and CG", "weighing"),
     ("Mass history", "mass, predicted mass and allocation at each commit (git)", "trend"),
     ("Switch units", "file units, SI, US customary", "units"),
+    ("Choose units", "mass, length and inertia units, saved for you", "choose_units"),
     ("Show ledger", "the item table", "view:ledger"),
     ("Show totals", "mass, CG, inertia, principal axes", "view:totals"),
     ("Show envelopes", "envelope status, chart and caution", "view:envelopes"),

@@ -18,13 +18,15 @@ DESCRIPTION = (HELP + ". Each loadout is checked as loaded and, when the file na
 
 
 def add_arguments(p) -> None:
+    from steelyard.cli.unit_options import add_unit_options
+
     p.add_argument("file", help="ledger file (TOML)")
     which = p.add_mutually_exclusive_group()
     which.add_argument("--loadout", metavar="NAME",
                        help="check this loadout only (with its zero-fuel state and the sequences that start from it)")
     which.add_argument("--all", action="store_true", help="check every loadout and sequence (the default)")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
-    p.add_argument("--units", choices=("si", "us"), help="display units (default: the file's own)")
+    add_unit_options(p)
 
 
 def run(args) -> int:

@@ -27,12 +27,14 @@ DESCRIPTION = (
 
 
 def add_arguments(p) -> None:
+    from steelyard.cli.unit_options import add_unit_options
+
     p.add_argument("a", metavar="A", help="ledger or snapshot file, or FILE:LOADOUT")
     p.add_argument("b", metavar="B", help="ledger or snapshot file, or FILE:LOADOUT")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
     p.add_argument("--a-loadout", metavar="NAME", help="loadout of A (A is then taken whole as a path)")
     p.add_argument("--b-loadout", metavar="NAME", help="loadout of B (B is then taken whole as a path)")
-    p.add_argument("--units", choices=("si", "us"), help="display units (default: the ledger's own)")
+    add_unit_options(p)
     p.add_argument("--max-items", metavar="N", type=int, default=50,
                    help="rows per item list in the report (default 50; 0 shows all)")
     p.add_argument("--allow-mismatch", action="store_true",

@@ -20,12 +20,14 @@ DESCRIPTION = (
 
 
 def add_arguments(p) -> None:
+    from steelyard.cli.unit_options import add_unit_options
+
     p.add_argument("file", help="ledger file (TOML)")
     p.add_argument("-o", "--output", metavar="OUT", required=True, help="report.html or report.md")
     p.add_argument("--loadout", metavar="NAME", action="append", help="a loadout to show (repeatable)")
     p.add_argument("--all", action="store_true", help="every loadout, and the vehicle with variable items empty")
     p.add_argument("--since", metavar="TIME", help="change log from this date/time on (ISO 8601, UTC if no zone)")
-    p.add_argument("--units", choices=("si", "us"), help="display units (default: the file's own)")
+    add_unit_options(p)
     p.add_argument("--samples", type=int, default=20000, help="Monte Carlo samples per loadout (default 20000)")
     p.add_argument("--seed", type=int, default=0, help="Monte Carlo seed (default 0)")
 

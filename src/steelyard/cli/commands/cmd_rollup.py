@@ -10,10 +10,12 @@ HELP = "total mass, CG, inertia tensor and group weight statement of a ledger"
 
 
 def add_arguments(p) -> None:
+    from steelyard.cli.unit_options import add_unit_options
+
     p.add_argument("file", help="ledger file (TOML)")
     p.add_argument("--loadout", metavar="NAME", help="apply this loadout (default: variable items empty)")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
-    p.add_argument("--units", choices=("si", "us"), help="display units (default: the file's own)")
+    add_unit_options(p)
 
 
 def run(args) -> int:

@@ -27,6 +27,8 @@ _DATE_ONLY = re.compile(r"^\s*\d{4}-\d{2}-\d{2}\s*$")
 
 
 def add_arguments(p) -> None:
+    from steelyard.cli.unit_options import add_unit_options
+
     p.add_argument("file", help="ledger file (TOML) in a git repository, or FILE@REV (history up to REV)")
     p.add_argument("--loadout", metavar="NAME", help="apply this loadout (default: variable items empty)")
     p.add_argument("--group", metavar="PATH", help="one group and its subgroups instead of the whole vehicle")
@@ -34,7 +36,7 @@ def add_arguments(p) -> None:
     p.add_argument("--until", metavar="DATE",
                    help="commits up to this date/time (ISO 8601; a date alone includes that whole day)")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
-    p.add_argument("--units", choices=("si", "us"), help="display units (default: the newest revision's own)")
+    add_unit_options(p)
 
 
 def _times(args) -> tuple[dt.datetime | None, dt.datetime | None]:

@@ -17,6 +17,8 @@ DESCRIPTION = (
 
 
 def add_arguments(p) -> None:
+    from steelyard.cli.unit_options import add_unit_options
+
     p.add_argument("file", help="ledger file (TOML) with a [weighing] table")
     p.add_argument("--json", action="store_true", help="one JSON object on stdout, SI units")
     p.add_argument("--apply", action="store_true", help="write the ledger with the weighed empty item")
@@ -25,7 +27,7 @@ def add_arguments(p) -> None:
                    help="with --apply: rewrite FILE although it has no write permission, or replace an "
                         "existing OUT")
     p.add_argument("--author", help="name for the change log (default: $STEELYARD_AUTHOR or the login name)")
-    p.add_argument("--units", choices=("si", "us"), help="display units (default: the file's own)")
+    add_unit_options(p)
 
 
 def _author(args) -> str:
@@ -129,18 +131,23 @@ def print_weighing(console, loaded, record: dict, system: str | None) -> None:
     from rich.table import Table
     from rich.text import Text
 
-    from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+    from steelyard.core.display import AXIS_NAMES, DisplayUnits, pretty_unit
+    from steelyard.core.numbers import cell
     from steelyard.io.report.text import clean
 
     du = DisplayUnits.choose(loaded.ledger.units, system)
     mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
-    dm, dl = du.decimals("mass"), du.decimals("length") + 1
+    # one count of decimals per dimension (docs/numbers.md): 5 significant figures at the
+    # weighed mass and the farthest support point or CG
+    dm = du.column_decimals([record["weighed_mass_kg"], *(p["reading_kg"] for p in record["points"])], "mass")
+    dl = du.column_decimals([c for p in record["points"] for c in p["at_m"] if c is not None]
+                            + [c for c in record["weighed_cg_m"] if c is not None], "length")
 
     def m(x):
-        return fmt(None if x is None else du.m(x), dm)
+        return cell(None if x is None else du.m(x), dm)
 
     def xyz(v):
-        return [fmt(None if c is None else du.l(c), dl) for c in v]
+        return [cell(None if c is None else du.l(c), dl) for c in v]
 
     console.print(Text(f"Weighing of {clean(loaded.path)}", style="bold"))
     t = Table(title="Support points (net = reading - tare)", title_justify="left")

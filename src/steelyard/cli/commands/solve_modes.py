@@ -9,7 +9,8 @@ import math
 
 import numpy as np
 
-from steelyard.core.display import DisplayUnits, fmt, pretty_unit
+from steelyard.core.display import DisplayUnits, pretty_unit
+from steelyard.core.numbers import cell
 from steelyard.core.errors import SteelyardError, UnitError, said
 from steelyard.core.limits.rules import applies, envelope_specs, fuel_rows, limit_specs, mac_reference, zero_fuel_fill
 from steelyard.core.loading.loadout import fill_fractions, loadout_condition, state_from_fill
@@ -36,7 +37,9 @@ class _Ctx:
         self.tags = {("condition", self.condition)} | ({("loadout", args.loadout)} if args.loadout else set())
         self.mac = mac_reference(ledger)
         self.du = DisplayUnits.choose(ledger.units, None)
-        self.dl, self.dm = self.du.decimals("length"), self.du.decimals("mass")
+        # one resolution per dimension for every figure of the answer (docs/numbers.md)
+        self.dl = self.du.column_decimals([float(c) for c in self.mp.cg], "length")
+        self.dm = self.du.column_decimals([self.mass], "mass")
 
     @property
     def mass(self) -> float:
@@ -72,13 +75,13 @@ class _Ctx:
 
     def l(self, metres: float, cg: bool = False) -> str:  # noqa: E743 - a length, shown
         """A station or CG in display units; a CG on x also in %MAC."""
-        text = f"{fmt(self.du.l(metres), self.dl)} {pretty_unit(self.du.length)}"
+        text = f"{cell(self.du.l(metres), self.dl)} {pretty_unit(self.du.length)}"
         if cg and self.mac is not None and self.axis == "x" and math.isfinite(metres):
             text += f" ({float(self.mac.percent(metres)):.2f} %MAC)"
         return text
 
     def m(self, kg: float) -> str:
-        return f"{fmt(self.du.m(kg), self.dm)} {pretty_unit(self.du.mass)}"
+        return f"{cell(self.du.m(kg), self.dm)} {pretty_unit(self.du.mass)}"
 
     def envelopes(self, name: str | None):
         specs = [e for e in envelope_specs(self.ledger) if e.axis == self.axis and applies(e.applies_to, self.tags)]
@@ -140,7 +143,7 @@ def _add(c: _Ctx) -> tuple[dict, list[str]]:
     rec = {"mode": "add", "mass_kg": c.mass, "cg_m": c.cg, "axis": c.axis, "added_kg": w, "station_m": s,
            "new_mass_kg": new_mass, "new_cg_m": new_cg, "envelopes": []}
     lines = [c.head(), f"{'Add' if w >= 0 else 'Remove'} {c.m(abs(w))} at {c.l(s)}: mass {c.m(new_mass)}, "
-                       f"CG {c.l(new_cg, True)} (moved {fmt(c.du.l(new_cg - c.cg), c.dl + 1)})."]
+                       f"CG {c.l(new_cg, True)} (moved {cell(c.du.l(new_cg - c.cg), c.dl)})."]
     for env in c.envelopes(None):
         st = geometry(env.points, env.name).evaluate([new_cg], [new_mass])
         inside = bool(st.inside[0])

@@ -11,7 +11,8 @@ from rich.text import Text
 
 from steelyard.core.caution import CAUTION
 from steelyard.core.limits.checks import AllocationCheck, CheckReport, Finding
-from steelyard.core.display import DisplayUnits, fmt, fmt_sig, pretty_unit, visible
+from steelyard.core.display import DisplayUnits, pretty_unit, visible
+from steelyard.core.numbers import cell, number
 from steelyard.core.document.model import OPPOSITE, Frame
 
 _SI_UNIT = {"length": "m", "mass": "kg", "inertia": "kg*m**2"}
@@ -86,9 +87,12 @@ def check_record(report: CheckReport, path: str) -> dict:
 class _Fmt:
     """Numbers in display units, with their unit."""
 
-    def __init__(self, du: DisplayUnits):
+    def __init__(self, du: DisplayUnits, masses=(), lengths=()):
+        """One count of decimals per dimension for the whole printout (docs/numbers.md): the
+        resolution of 5 significant figures at the largest mass and CG checked."""
         self.du = du
-        self.dl, self.dm = du.decimals("length"), du.decimals("mass")
+        self.dm = du.column_decimals(masses, "mass") if len(masses) else du.decimals("mass")
+        self.dl = du.column_decimals(lengths, "length")
 
     def conv(self, dimension: str, x: float) -> float:
         return {"length": self.du.l, "mass": self.du.m, "inertia": self.du.i}[dimension](x)
@@ -97,7 +101,9 @@ class _Fmt:
         if x is None:
             return "—"
         v = self.conv(dimension, x)
-        return fmt_sig(v, 4) if dimension == "inertia" else fmt(v, self.dl if dimension == "length" else self.dm)
+        if dimension == "inertia":
+            return number(v, "inertia", self.du.factor("inertia"))
+        return cell(v, self.dl if dimension == "length" else self.dm)
 
     def unit(self, dimension: str) -> str:
         return pretty_unit({"length": self.du.length, "mass": self.du.mass, "inertia": self.du.inertia}[dimension])
@@ -301,7 +307,7 @@ def _scope_line(report: CheckReport, ledger) -> str:
 
 def print_check(report: CheckReport, path: str, ledger, du: DisplayUnits, console: Console | None = None) -> None:
     console = console or Console(highlight=False, markup=False)
-    nf = _Fmt(du)
+    nf = _Fmt(du, [s.mass for s in report.states], [c for s in report.states for c in s.cg])
     frame = ledger.frame
     n_lo = len({s.loadout for s in report.states if s.loadout is not None})
     n_sq = len(report.sequences)

@@ -11,7 +11,8 @@ from rich.table import Table
 from rich.text import Text
 
 from steelyard.core.caution import CAUTION
-from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from steelyard.core.display import AXIS_NAMES, DisplayUnits, pretty_unit
+from steelyard.core.numbers import cell
 from steelyard.io.report.control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record
 from steelyard.io.report.text import clean
 
@@ -29,21 +30,37 @@ def _units(ledger, display_units) -> DisplayUnits:
 
 
 class _F:
-    """Numbers in display units at the precision the unit warrants (DisplayUnits.decimals)."""
+    """Numbers in display units, one count of decimals per dimension for all these tables
+    (docs/numbers.md): 5 significant figures at the largest mass and CG they show."""
 
-    def __init__(self, du: DisplayUnits):
-        self.du, self.dm, self.dl = du, du.decimals("mass"), du.decimals("length") + 1
+    def __init__(self, du: DisplayUnits, masses=(), lengths=()):
+        self.du = du
+        self.dm = du.column_decimals(masses, "mass")
+        self.dl = du.column_decimals(lengths, "length")
 
     def m(self, kg) -> str:
-        return fmt(None if kg is None else self.du.m(kg), self.dm)
+        return cell(None if kg is None else self.du.m(kg), self.dm)
 
     def l(self, metres) -> str:
-        return fmt(None if metres is None else self.du.l(metres), self.dl)
+        return cell(None if metres is None else self.du.l(metres), self.dl)
 
 
-def _growth_table(g: dict, du: DisplayUnits, wide: bool) -> Table:
+def _scale(rec: dict, mass: float, cg) -> tuple[list, list]:
+    """The masses and lengths the control tables show, for their one count of decimals."""
+    masses, lengths = [mass], list(cg)
+    g = rec.get("growth")
+    if g:
+        for b in [*g["groups"], g["total"]]:
+            masses += [b["basic_mass_kg"], b["predicted_mass_kg"]]
+            lengths += [*b["basic_cg_m"], *b["predicted_cg_m"]]
+    for a in rec.get("allocations") or ():
+        masses += [a["allocation_kg"], a["basic_kg"], a["predicted_kg"]]
+    return [m for m in masses if m is not None], [c for c in lengths if c is not None]
+
+
+def _growth_table(g: dict, du: DisplayUnits, wide: bool, f: _F) -> Table:
     """Mass, growth and CG per top-level group; CG along x only unless the terminal is wide."""
-    mu, lu, f = pretty_unit(du.mass), pretty_unit(du.length), _F(du)
+    mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
     axes = range(3) if wide else range(1)
     t = Table(title="Basic vs predicted (growth allowance)" + ("" if wide else "; CG along x"),
               title_justify="left")
@@ -64,8 +81,8 @@ def _growth_table(g: dict, du: DisplayUnits, wide: bool) -> Table:
     return t
 
 
-def _allocation_table(allocations: list, du: DisplayUnits) -> Table:
-    mu, f = pretty_unit(du.mass), _F(du)
+def _allocation_table(allocations: list, du: DisplayUnits, f: _F) -> Table:
+    mu = pretty_unit(du.mass)
     t = Table(title="Allocations (not-to-exceed)", title_justify="left")
     t.add_column(Text("group"))
     for col in (f"allocation [{mu}]", f"basic [{mu}]", f"predicted [{mu}]", f"margin [{mu}]"):
@@ -78,8 +95,8 @@ def _allocation_table(allocations: list, du: DisplayUnits) -> Table:
     return t
 
 
-def _uncertainty_tables(q: dict, mass: float, cg, du: DisplayUnits) -> list[Table]:
-    mu, lu, f = pretty_unit(du.mass), pretty_unit(du.length), _F(du)
+def _uncertainty_tables(q: dict, mass: float, cg, du: DisplayUnits, f: _F) -> list[Table]:
+    mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
     t = Table(title="Uncertainty (σ: linear propagation; worst case: Σ|∂|·bound, sigma-kind as 3σ)",
               title_justify="left")
     for col in ("quantity", "nominal", "σ", "worst case ±"):
@@ -109,16 +126,17 @@ def print_control(console: Console, ledger, state, display_units=None, *, sample
     if not rec:
         return rec
     du = _units(ledger, display_units)
+    from steelyard.core.physics.rollup import combined_cg
+
+    mass, cg = combined_cg(state.mass, state.cg)
+    f = _F(du, *_scale(rec, mass, cg))
     if rec.get("growth"):
-        console.print(_growth_table(rec["growth"], du, console.width >= 120))
+        console.print(_growth_table(rec["growth"], du, console.width >= 120, f))
     if rec.get("allocations"):
-        console.print(_allocation_table(rec["allocations"], du))
+        console.print(_allocation_table(rec["allocations"], du, f))
     q = rec.get("uncertainty")
     if q:
-        from steelyard.core.physics.rollup import combined_cg
-
-        mass, cg = combined_cg(state.mass, state.cg)
-        for t in _uncertainty_tables(q, mass, cg, du):
+        for t in _uncertainty_tables(q, mass, cg, du, f):
             console.print(t)
         if q.get("monte_carlo"):
             console.print(Text(CAUTION, style="italic"))

@@ -15,6 +15,7 @@ from rich.text import Text
 from steelyard.core.caution import CAUTION
 from steelyard.core.history.diff import LedgerDiff, change_rows
 from steelyard.core.history.diff_text import definition_sections
+from steelyard.core.numbers import number
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit, visible
 from steelyard.core.document.model import FileUnits
 
@@ -55,8 +56,8 @@ def _item_table(console, title, ids, side, du, max_items) -> None:
     shown = _limit(len(ids), max_items)
     for item_id in ids[:shown]:
         i = side.ledger.index[item_id]
-        t.add_row(T(item_id), T(side.labels[i]), fmt(du.m(side.row_mass[i])),
-                  *(fmt(du.l(side.cg[i, k])) for k in range(3)))
+        t.add_row(T(item_id), T(side.labels[i]), du.num(side.row_mass[i], 'mass'),
+                  *(du.num(side.cg[i, k], 'length') for k in range(3)))
     console.print(t)
     _more(console, len(ids), shown)
 
@@ -92,7 +93,7 @@ def _ranked_table(console, diff: LedgerDiff, du, max_items) -> None:
     shown = _limit(len(diff.ranked), max_items)
     for k, r in enumerate(diff.ranked[:shown], 1):
         t.add_row(str(k), T(r.id), r.kind, _signed(du.m(r.mass_delta)),
-                  *(_signed(du.l(v)) for v in r.cg_shift), fmt(du.l(r.shift)))
+                  *(_signed(du.l(v)) for v in r.cg_shift), du.num(r.shift, 'length'))
     console.print(t)
     _more(console, len(diff.ranked), shown)
 
@@ -104,18 +105,18 @@ def _totals(console, diff: LedgerDiff, du) -> None:
     t = Table(title="Effect on totals", title_justify="left")
     for col in ("quantity", "A", "B", "Δ (B − A)"):
         t.add_column(col, justify="left" if col == "quantity" else "right")
-    t.add_row(f"mass [{mu}]", fmt(du.m(a.mass)), fmt(du.m(b.mass)), _signed(du.m(diff.delta_mass)))
+    t.add_row(f"mass [{mu}]", du.num(a.mass, 'mass'), du.num(b.mass, 'mass'), _signed(du.m(diff.delta_mass)))
     for k in range(3):
-        t.add_row(f"CG {AXIS_NAMES[k]} (+{frame.direction(k)}) [{lu}]", fmt(du.l(a.cg[k])), fmt(du.l(b.cg[k])),
+        t.add_row(f"CG {AXIS_NAMES[k]} (+{frame.direction(k)}) [{lu}]", du.num(a.cg[k], 'length'), du.num(b.cg[k], 'length'),
                   _signed(du.l(diff.delta_cg[k])))
     for r, c in ((0, 0), (1, 1), (2, 2), (0, 1), (0, 2), (1, 2)):
         name = f"I{AXIS_NAMES[r]}{AXIS_NAMES[c]} [{iu}]"
-        t.add_row(name, fmt(du.i(a.inertia_cg[r, c])), fmt(du.i(b.inertia_cg[r, c])),
+        t.add_row(name, du.num(a.inertia_cg[r, c], 'inertia'), du.num(b.inertia_cg[r, c], 'inertia'),
                   _signed(du.i(diff.delta_inertia[r, c])))
     if diff.delta_principal is not None:
         for k in range(3):
-            t.add_row(f"principal {k + 1} [{iu}]", fmt(du.i(a.principal_moments[k])),
-                      fmt(du.i(b.principal_moments[k])), _signed(du.i(diff.delta_principal[k])))
+            t.add_row(f"principal {k + 1} [{iu}]", du.num(a.principal_moments[k], 'inertia'),
+                      du.num(b.principal_moments[k], 'inertia'), _signed(du.i(diff.delta_principal[k])))
     console.print(t)
     console.print(T("Inertia about each side's own CG, tensor form (off-diagonals are minus the products "
                        "of inertia); principal moments ascending.", style="italic"))
@@ -136,7 +137,7 @@ def _envelopes(console, diff: LedgerDiff, du) -> None:
     for e in diff.envelopes:
         margin = [None if r is None or r.margin is None else du.l(r.margin) for r in (e.a, e.b)]
         delta = None if e.margin_delta is None else du.l(e.margin_delta)
-        t.add_row(T(e.name), _status(e.a), _status(e.b), fmt(margin[0]), fmt(margin[1]), _signed(delta),
+        t.add_row(T(e.name), _status(e.a), _status(e.b), number(margin[0], 'length', du.factor('length')), number(margin[1], 'length', du.factor('length')), _signed(delta),
                   "status changed" if e.status_changed else "")
     console.print(t)
     console.print(T(CAUTION, style="italic"))

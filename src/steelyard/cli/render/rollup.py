@@ -15,7 +15,8 @@ from steelyard.core.caution import CAUTION
 from steelyard.core.errors import SteelyardError
 from steelyard.core.physics.inertia import radius_of_gyration
 from steelyard.core.physics.rollup import check_finite_rollup
-from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, fmt_sig, pretty_unit, visible
+from steelyard.core.display import AXIS_NAMES, DisplayUnits, pretty_unit, visible
+from steelyard.core.numbers import cell, column, column_decimals, number
 from steelyard.core.physics.groups import subtotals
 from steelyard.core.limits.rules import mac_reference
 from steelyard.core.document.model import OPPOSITE
@@ -36,38 +37,43 @@ def print_rollup(loaded, state, mp, system: str | None, out: Out | None = None) 
         raise exc.located(file=loaded.path)
     du = DisplayUnits.choose(ledger.units, system)
     mu, lu, iu = pretty_unit(du.mass), pretty_unit(du.length), pretty_unit(du.inertia)
-    dl, dm, dmo = du.decimals("length"), du.decimals("mass"), du.decimals("moment")
+    fm, fl, fi, fmo = du.factor("mass"), du.factor("length"), du.factor("inertia"), du.factor("moment")
     title = visible(f"Roll-up of {loaded.path} — loadout: {state.name or '(none: variable items empty)'}")
     console.line(title, "bold")
 
     t = Table(title="Totals")
     t.add_column("quantity")
     t.add_column("value", justify="right")
-    t.add_row(f"mass [{mu}]", fmt(du.m(mp.mass), dm))
+    t.add_row(f"mass [{mu}]", number(du.m(mp.mass), "mass", fm))
+    cg = [du.l(c) for c in mp.cg]
+    dcg = column_decimals(cg, "length", fl)  # one resolution for the three CG coordinates
     for k in range(3):
-        t.add_row(f"CG {_axis_label(ledger.frame, k, du.length)}", fmt(du.l(mp.cg[k]), dl + 1))
+        t.add_row(f"CG {_axis_label(ledger.frame, k, du.length)}", cell(cg[k], dcg))
         if k == 0 and mac is not None and np.isfinite(mp.cg[0]):
-            t.add_row("CG x [%MAC]", fmt(float(mac.percent(mp.cg[0])), 2))
+            t.add_row("CG x [%MAC]", number(float(mac.percent(mp.cg[0])), "percent_mac"))
     console.table(t)
 
     it = Table(title=f"Inertia about the CG [{iu}] (tensor; off-diagonals are minus the products)")
     it.add_column("")
     for a in AXIS_NAMES:
         it.add_column(a, justify="right")
+    tensor = [du.i(float(v)) for v in np.ravel(mp.inertia_cg)]
+    di = column_decimals(tensor, "inertia", fi)  # one count of decimals for the whole tensor
     for r, a in enumerate(AXIS_NAMES):
-        it.add_row(a, *(fmt_sig(du.i(mp.inertia_cg[r, c])) for c in range(3)))
+        it.add_row(a, *(cell(tensor[3 * r + c], di) for c in range(3)))
     console.table(it)
     p = mp.inertia_cg
-    console.line(f"Products of inertia ∫xy dm, ∫xz dm, ∫yz dm [{iu}]: "
-                 f"{fmt_sig(du.i(-p[0, 1]))}, {fmt_sig(du.i(-p[0, 2]))}, {fmt_sig(du.i(-p[1, 2]))}")
+    console.line(f"Products of inertia ∫xy dm, ∫xz dm, ∫yz dm [{iu}]: " + ", ".join(
+        number(du.i(-p[a, b]), "inertia", fi) for a, b in ((0, 1), (0, 2), (1, 2))))
     if mp.mass > 0:
         moments, axes = mp.principal
         pt = Table(title=f"Principal moments [{iu}] and axes (unit vectors in body axes)")
         for col in ("moment", "x", "y", "z", f"radius of gyration [{lu}]"):
             pt.add_column(col, justify="right")
+        shown = column([du.i(float(v)) for v in moments], "inertia", fi)
+        rgs = column([du.l(radius_of_gyration(max(v, 0.0), mp.mass)) for v in moments], "length", fl)
         for k in range(3):
-            rg = radius_of_gyration(max(moments[k], 0.0), mp.mass)
-            pt.add_row(fmt_sig(du.i(moments[k])), *(f"{v:+.5f}" for v in axes[k]), fmt(du.l(rg), dl))
+            pt.add_row(shown[k], *column([float(v) for v in axes[k]], "fraction"), rgs[k])
         console.table(pt)
 
     groups = [g for g in ledger.items]
@@ -77,20 +83,26 @@ def print_rollup(loaded, state, mp, system: str | None, out: Out | None = None) 
         wide = console.width >= 100  # item count and share only where they fit
         heads = (*(("items",) if wide else ()), f"mass [{mu}]", *(("%",) if wide else ()),
                  *(f"{a} [{lu}]" for a in AXIS_NAMES), f"moment [{pretty_unit(du.moment)}]")
-        widths = [max(len(h), 7) for h in heads]
+        # each column one count of decimals, the total row included; x, y, z at one resolution
+        masses = [du.m(g.mass) for g in st] + [du.m(mp.mass)]
+        cgs = [[du.l(g.cg[k]) for g in st] + [du.l(mp.cg[k])] for k in range(3)]
+        moms = [du.mom(g.mass * g.cg[0]) if g.mass else 0.0 for g in st] + [du.mom(mp.mass * mp.cg[0])]
+        dcg = column_decimals([v for c in cgs for v in c], "length", fl)
+        cols = [column(masses, "mass", fm), *(column(c, "length", fl, dcg) for c in cgs),
+                column(moms, "moment", fmo)]
+        if wide:
+            shares = [100.0 * g.mass / mp.mass if mp.mass > 0 else None for g in st] + [100.0]
+            cols.insert(1, column(shares, "percent"))
+            cols.insert(0, [str(g.count) for g in st] + [str(len(groups))])
+        widths = [max(len(h), 7, max(map(len, c))) for h, c in zip(heads, cols)]
         room = console.width - sum(widths) - 3 * len(heads) - 4  # padding and separators
         ws.add_column("group", no_wrap=True, width=max(8, min(30, room)))
         for head, w in zip(heads, widths):
             ws.add_column(head, justify="right", no_wrap=True, min_width=w)
-        for g in st:
-            label = visible("  " * g.depth + g.path.rsplit("/", 1)[-1])
-            share = 100.0 * g.mass / mp.mass if mp.mass > 0 else float("nan")
-            ws.add_row(label, *((str(g.count),) if wide else ()), fmt(du.m(g.mass), dm),
-                       *((fmt(share, 1),) if wide else ()), *(fmt(du.l(g.cg[k]), dl) for k in range(3)),
-                       fmt(du.mom(g.mass * g.cg[0]) if g.mass else 0.0, dmo))
-        ws.add_row(("total", "bold"), *((str(len(groups)),) if wide else ()), fmt(du.m(mp.mass), dm),
-                   *((fmt(100.0, 1),) if wide else ()), *(fmt(du.l(mp.cg[k]), dl) for k in range(3)),
-                   fmt(du.mom(mp.mass * mp.cg[0]), dmo))
+        rows = list(zip(*cols))
+        for g, row in zip(st, rows):
+            ws.add_row(visible("  " * g.depth + g.path.rsplit("/", 1)[-1]), *row)
+        ws.add_row(("total", "bold"), *rows[-1])
         console.table(ws)
 
     results = envelope_results(ledger, mp)
@@ -107,20 +119,23 @@ def print_rollup(loaded, state, mp, system: str | None, out: Out | None = None) 
         et = Table(title=f"CG envelopes (margin to each limit{how})", box="simple_head", pad_edge=False)
         # the CG itself is in the totals above; here: the allowed range and the room on each side
         heads = ("status", f"allowed [{lu}]", f"{lo_word} [{lu}]", f"{hi_word} [{lu}]", f"+mass [{mu}]")
-        widths = [7, max(len(heads[1]), 2 * dl + 9), max(len(heads[2]), 6), max(len(heads[3]), 6),
+        lengths = [du.l(v) for r in results for v in (r.lo, r.hi, r.margin_lo, r.margin_hi) if v is not None]
+        de = column_decimals(lengths, "length", fl)  # the envelopes' lengths share one resolution
+        dmm = column_decimals([du.m(r.mass_margin) for r in results if r.mass_margin is not None], "mass", fm)
+        widths = [7, max(len(heads[1]), 2 * de + 9), max(len(heads[2]), 6), max(len(heads[3]), 6),
                   max(len(heads[4]), 7)]
         room = console.width - sum(widths) - 3 * (len(heads) + 1) + 1  # padding and separators
         et.add_column("envelope", no_wrap=True, width=max(8, min(24, room)))
         for head, w in zip(heads, widths):
             et.add_column(head, justify="left" if head == "status" else "right", no_wrap=True, min_width=w)
         for r in results:
-            allowed = "off range" if r.limits is None else f"{fmt(du.l(r.lo), dl)}…{fmt(du.l(r.hi), dl)}"
+            allowed = "off range" if r.limits is None else f"{cell(du.l(r.lo), de)}…{cell(du.l(r.hi), de)}"
             status = "INSIDE" if r.inside else "OUTSIDE"
             name = r.name if len(axes) == 1 else f"{r.name} ({r.axis})"
             et.add_row(visible(name), status, allowed,
-                       fmt(None if r.margin_lo is None else du.l(r.margin_lo), dl),
-                       fmt(None if r.margin_hi is None else du.l(r.margin_hi), dl),
-                       fmt(None if r.mass_margin is None else du.m(r.mass_margin), dm))
+                       cell(None if r.margin_lo is None else du.l(r.margin_lo), de),
+                       cell(None if r.margin_hi is None else du.l(r.margin_hi), de),
+                       cell(None if r.mass_margin is None else du.m(r.mass_margin), dmm))
         console.table(et)
         console.line(CAUTION, "italic")
 

@@ -183,7 +183,7 @@ def field_rows(key: str, kind: str, old: object, new: object, du: DisplayUnits) 
 def _six_text(t: dict | None, du: DisplayUnits) -> str:
     if t is None:
         return "—"
-    return ", ".join(f"{k} {fmt(du.i(v))}" for k, v in t.items()) + f" {pretty_unit(du.inertia)}"
+    return ", ".join(f"{k} {du.num(v, 'inertia')}" for k, v in t.items()) + f" {pretty_unit(du.inertia)}"
 
 
 def _shape_text(s: dict | None, du: DisplayUnits) -> str:
@@ -193,13 +193,14 @@ def _shape_text(s: dict | None, du: DisplayUnits) -> str:
     parts = [s["kind"], f"axis {s['axis']}"]
     for k, v in s.items():
         if k not in ("kind", "axis"):
-            size = "×".join(fmt(du.l(x)) for x in v) if isinstance(v, list) else fmt(du.l(v))
+            size = "×".join(du.num(x, 'length') for x in v) if isinstance(v, list) else du.num(v, 'length')
             parts.append(f"{k} {size} {lu}")
     return ", ".join(parts)
 
 
-def _q(x: float | None, convert, unit: str) -> str:
-    return "—" if x is None else f"{fmt(convert(x))} {pretty_unit(unit)}"
+def _q(x: float | None, du: DisplayUnits, dimension: str) -> str:
+    """One value with its unit, by the one number rule (docs/numbers.md)."""
+    return "—" if x is None else du.text(x, dimension)
 
 
 def change_rows(name: str, old: object, new: object, du: DisplayUnits,
@@ -215,14 +216,14 @@ def change_rows(name: str, old: object, new: object, du: DisplayUnits,
         return field_rows(name, kind, old, new, du)
     mu, lu, iu = du.mass, du.length, du.inertia
     if name in ("mass_kg", "capacity_kg"):
-        return [(name[:-3], _q(old, du.m, mu), _q(new, du.m, mu))]
+        return [(name[:-3], _q(old, du, "mass"), _q(new, du, "mass"))]
     if name == "cg_m":
-        return [(f"cg {ax}", _q(o, du.l, lu), _q(n, du.l, lu)) for ax, o, n in zip("xyz", old, new)
+        return [(f"cg {ax}", _q(o, du, "length"), _q(n, du, "length")) for ax, o, n in zip("xyz", old, new)
                 if not same(o, n)]
     if name == "inertia_kg_m2":
         if old is None or new is None:
             return [("inertia", _six_text(old, du), _six_text(new, du))]
-        return [(f"inertia {k}", _q(old[k], du.i, iu), _q(new[k], du.i, iu)) for k in COMPONENTS
+        return [(f"inertia {k}", _q(old[k], du, "inertia"), _q(new[k], du, "inertia")) for k in COMPONENTS
                 if not same(old[k], new[k])]
     if name == "density_kg_m3":
         f, unit = _scale("density", du)

@@ -9,7 +9,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from steelyard.core.display import AXIS_NAMES, fmt, pretty_unit
+from steelyard.core.display import AXIS_NAMES, pretty_unit
+from steelyard.core.numbers import cell
 from steelyard.core.physics.groups import UNGROUPED
 from steelyard.io.report.build import ITEM_ROWS, Chart, Report
 from steelyard.io.report.trend import trend_svg, trend_table, what_of
@@ -40,13 +41,19 @@ class _Units:
         du = report.units
         self.du = du
         self.mu, self.lu = pretty_unit(du.mass), pretty_unit(du.length)
-        self.dm, self.dl = du.decimals("mass"), du.decimals("length") + 1
+        # one count of decimals per dimension for the whole report (docs/numbers.md): 5 significant
+        # figures at the heaviest total and the farthest CG shown
+        masses = [report.empty.mass, *(s.mp.mass for s in report.loadouts)]
+        lengths = [*report.empty.cg, *(c for g in report.groups for c in g.cg),
+                   *(c for s in report.loadouts for c in s.mp.cg)]
+        self.dm = du.column_decimals(masses, "mass")
+        self.dl = du.column_decimals(lengths, "length")
 
     def m(self, kg) -> str:
-        return fmt(None if kg is None else self.du.m(kg), self.dm)
+        return cell(None if kg is None else self.du.m(kg), self.dm)
 
     def l(self, m) -> str:
-        return fmt(None if m is None else self.du.l(m), self.dl)
+        return cell(None if m is None else self.du.l(m), self.dl)
 
 
 def _intro(r: Report, u: _Units) -> list[Block]:

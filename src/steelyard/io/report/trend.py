@@ -17,7 +17,8 @@ from html import escape
 
 import numpy as np
 
-from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from steelyard.core.display import AXIS_NAMES, DisplayUnits, pretty_unit
+from steelyard.core.numbers import cell
 from steelyard.core.errors import SteelyardError
 from steelyard.core.history.trend import Trend
 from steelyard.io.report.chart import ticks
@@ -118,8 +119,10 @@ def _label(t: float, step: float) -> str:
 def trend_table(trend: Trend, du: DisplayUnits) -> tuple[list[str], list[list[str]], set[int]]:
     """(headers, rows, right-aligned columns) of the history; a revision not read has its reason in the subject."""
     mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
-    dm, dl = du.decimals("mass"), du.decimals("length") + 1
     read = trend.read
+    # one count of decimals per dimension for the whole history (docs/numbers.md)
+    dm = du.column_decimals([p.figures.mass_kg for p in read], "mass")
+    dl = du.column_decimals([c for p in read if p.figures.cg_m for c in p.figures.cg_m], "length")
     grown = any(p.figures.predicted_kg is not None for p in read)
     budget = any(p.figures.allocation_kg is not None for p in read)
     headers = ["date", "commit", "subject", f"mass [{mu}]", f"Δ mass [{mu}]"]
@@ -128,7 +131,7 @@ def trend_table(trend: Trend, du: DisplayUnits) -> tuple[list[str], list[list[st
     headers += [f"CG {a} [{lu}]" for a in AXIS_NAMES]
 
     def m(kg):
-        return fmt(None if kg is None else du.m(kg), dm)
+        return cell(None if kg is None else du.m(kg), dm)
 
     rows, last = [], None
     for p in trend.points:
@@ -143,7 +146,7 @@ def trend_table(trend: Trend, du: DisplayUnits) -> tuple[list[str], list[list[st
         row = head + [m(f.mass_kg), delta]
         row += [m(f.predicted_kg)] if grown else []
         row += [m(f.allocation_kg), m(f.margin_kg)] if budget else []
-        row += [fmt(None if f.cg_m is None else du.l(c), dl) for c in (f.cg_m or (None, None, None))]
+        row += [cell(None if f.cg_m is None else du.l(c), dl) for c in (f.cg_m or (None, None, None))]
         rows.append(row)
     return headers, rows, set(range(3, len(headers)))
 

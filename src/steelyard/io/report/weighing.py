@@ -14,10 +14,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from steelyard.core.display import AXIS_NAMES, fmt
+from steelyard.core.display import AXIS_NAMES
+from steelyard.core.numbers import number
 from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Item, Ledger
-from steelyard.core.units import from_si
+from steelyard.core.units import from_si, unit_factor
 from steelyard.core.control.weighing import WeighingInputs, WeighingResult, parse_weighing, replaced_item
 
 
@@ -28,6 +29,11 @@ def _num(x) -> float | None:
 
 def _vec(v) -> list:
     return [_num(x) for x in v]
+
+
+def _n(x: float, dimension: str, unit: str) -> str:
+    """A lone value in `unit` by the one number rule (docs/numbers.md)."""
+    return number(x, dimension, unit_factor(unit, dimension))
 
 
 @dataclass(frozen=True)
@@ -105,14 +111,15 @@ def weighing_record(w: Weighing) -> dict:
 def weighing_summary(ledger: Ledger, w: Weighing) -> str:
     """One line for the change log, in the ledger's own units."""
     if w.old is None or w.new is None:
-        return f"weighed: empty mass {fmt(from_si(w.result.empty_mass, 'mass', ledger.units.mass))}"
+        mu = ledger.units.mass
+        return f"weighed: empty mass {_n(from_si(w.result.empty_mass, 'mass', mu), 'mass', mu)}"
     mu, lu = ledger.units.mass, ledger.units.length
     old_m = from_si(w.old.mass * w.old.quantity, "mass", mu)
     new_m = from_si(w.new.mass, "mass", mu)
-    parts = [f"weighed {w.old.id}: mass {fmt(old_m)} -> {fmt(new_m)} {mu}"]
+    parts = [f"weighed {w.old.id}: mass {_n(old_m, 'mass', mu)} -> {_n(new_m, 'mass', mu)} {mu}"]
     for k in range(3):
         a, b = w.old.cg[k], w.new.cg[k]
         if a != b:
-            parts.append(f"CG {AXIS_NAMES[k]} {fmt(from_si(a, 'length', lu))} -> "
-                         f"{fmt(from_si(b, 'length', lu))} {lu}")
+            parts.append(f"CG {AXIS_NAMES[k]} {_n(from_si(a, 'length', lu), 'length', lu)} -> "
+                         f"{_n(from_si(b, 'length', lu), 'length', lu)} {lu}")
     return ", ".join(parts)

@@ -169,6 +169,27 @@ class EditFlows:
             self.session.cycle_units()
             self.refresh_views()
 
+    def action_choose_units(self) -> None:
+        if self._may_edit(write=False):
+            from steelyard.tui.screens.units_screen import UnitsScreen
+
+            self.push_screen(UnitsScreen(self.session.system), self._units_chosen)
+
+    def _units_chosen(self, choice) -> None:
+        if choice is None or self.session is None:
+            return
+        self.session.system = choice
+        self.refresh_views()
+        from steelyard.core.errors import SteelyardError
+        from steelyard.io.user_settings import save_choice
+
+        try:
+            where = save_choice(choice)
+        except SteelyardError as exc:
+            self.notify(f"Units shown, but not saved: {exc}", markup=False, severity="warning", timeout=6)
+            return
+        self.notify(f"Units {choice.label} saved for you in {where}", markup=False, timeout=4)
+
     # ------------------------------------------------------------ weighing
     def action_weighing(self) -> None:
         if self._may_edit():

@@ -17,7 +17,7 @@ from textual.screen import ModalScreen
 from textual.widgets import Input, OptionList, Static
 from textual.widgets.option_list import Option
 
-from steelyard.core.display import DisplayUnits, fmt, pretty_unit
+from steelyard.core.display import DisplayUnits, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.core.loading.loadout import amount_fraction
 from steelyard.core.document.model import Amount, Ledger
@@ -123,7 +123,7 @@ class LoadoutScreen(ModalScreen[None]):
         for k, it in enumerate(self.ledger.items):
             if not it.variable:
                 continue
-            full = fmt(self.du.m(it.mass * it.quantity))
+            full = self.du.num(it.mass * it.quantity, 'mass')
             label = f"{clean(it.id):<14} {amount_text(lo.set.get(it.id)):<18} full {full} {mu}  {clean(it.name)}"
             room = max(30, self.size.width - 6)
             if len(label) > room:

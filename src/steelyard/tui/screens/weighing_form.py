@@ -19,7 +19,7 @@ from textual.containers import Grid, Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Static
 
-from steelyard.core.display import DisplayUnits, fmt, pretty_unit
+from steelyard.core.display import DisplayUnits, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Ledger
 from steelyard.io.report.weighing import Weighing, weighing_summary
@@ -123,7 +123,7 @@ class WeighingForm(ModalScreen[WeighingDone | None]):
         self.reduced, self.problem = (table, w), None
         rows = [k for k, r in enumerate(self.fields.point) if any(v.strip() for v in r.values())]
         for k, net in zip(rows, w.result.net):
-            self.query_one(f"#w-point-{k}-net", Static).update(fmt(self.du.m(net)))
+            self.query_one(f"#w-point-{k}-net", Static).update(self.du.num(net, 'mass'))
         ok = w.new is not None
         message.update("✓ " + ("Apply replaces the item with the weighed empty vehicle" if ok else
                                "valid; name the item it replaces to apply it"))

@@ -16,6 +16,7 @@ from rich.text import Text
 from steelyard.core.caution import CAUTION
 from steelyard.core.history.diff import ItemEffect, LedgerDiff, change_rows
 from steelyard.core.history.diff_text import definition_sections
+from steelyard.core.numbers import number
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.rules import mac_reference
@@ -81,10 +82,10 @@ def totals_text(diff: LedgerDiff, du: DisplayUnits) -> Text:
     frame = diff.b.ledger.frame
     t = Text()
     _row(t, "", "A", "B", "Δ (B − A)", "bold")
-    _row(t, f"mass [{mu}]", fmt(du.m(a.mass)), fmt(du.m(b.mass)), signed(du.m(diff.delta_mass)))
+    _row(t, f"mass [{mu}]", du.num(a.mass, 'mass'), du.num(b.mass, 'mass'), signed(du.m(diff.delta_mass)))
     t.append(f"CG [{lu}]\n", style="bold")
     for k in range(3):
-        _row(t, f" {AXIS_NAMES[k]} (+{frame.direction(k)})", fmt(du.l(a.cg[k])), fmt(du.l(b.cg[k])),
+        _row(t, f" {AXIS_NAMES[k]} (+{frame.direction(k)})", du.num(a.cg[k], 'length'), du.num(b.cg[k], 'length'),
              signed(du.l(diff.delta_cg[k])))
     pa, pb = _percent_mac(diff.a.ledger, a.cg[0]), _percent_mac(diff.b.ledger, b.cg[0])
     if pa is not None or pb is not None:
@@ -92,14 +93,14 @@ def totals_text(diff: LedgerDiff, du: DisplayUnits) -> Text:
         _row(t, " x in %MAC", fmt(pa, 2), fmt(pb, 2), signed(d, 2))
     t.append(f"Inertia about each side's CG [{iu}]\n", style="bold")
     for r, c in ((0, 0), (1, 1), (2, 2), (0, 1), (0, 2), (1, 2)):
-        _row(t, f" I{AXIS_NAMES[r]}{AXIS_NAMES[c]}", fmt(du.i(a.inertia_cg[r, c])), fmt(du.i(b.inertia_cg[r, c])),
+        _row(t, f" I{AXIS_NAMES[r]}{AXIS_NAMES[c]}", du.num(a.inertia_cg[r, c], 'inertia'), du.num(b.inertia_cg[r, c], 'inertia'),
              signed(du.i(diff.delta_inertia[r, c])))
     t.append(f"Principal moments [{iu}], ascending\n", style="bold")
     if diff.delta_principal is None:
         t.append(" — (a side with no mass)\n")
     else:
         for k in range(3):
-            _row(t, f" I{k + 1}", fmt(du.i(a.principal_moments[k])), fmt(du.i(b.principal_moments[k])),
+            _row(t, f" I{k + 1}", du.num(a.principal_moments[k], 'inertia'), du.num(b.principal_moments[k], 'inertia'),
                  signed(du.i(diff.delta_principal[k])))
     t.append("Tensor form: off-diagonals are minus the products of inertia ∫xy dm.", style="dim")
     return t
@@ -124,7 +125,8 @@ def envelopes_text(diff: LedgerDiff, du: DisplayUnits) -> Text:
         ma = None if e.a is None or e.a.margin is None else du.l(e.a.margin)
         mb = None if e.b is None or e.b.margin is None else du.l(e.b.margin)
         d = None if e.margin_delta is None else du.l(e.margin_delta)
-        t.append(f"  margin {fmt(ma)} → {fmt(mb)} {lu} (Δ {signed(d)})\n")
+        f = du.factor("length")
+        t.append(f"  margin {number(ma, 'length', f)} → {number(mb, 'length', f)} {lu} (Δ {signed(d)})\n")
     if diff.envelope_definitions:
         d = diff.envelope_definitions
         parts = [f"added {', '.join(map(clean, d.added))}" if d.added else "",
@@ -153,7 +155,7 @@ def item_line(e: ItemEffect, diff: LedgerDiff, du: DisplayUnits, width: int = 76
     side = diff.b if e.kind == "added" else diff.a
     name = side.labels[side.ledger.index[e.id]]
     lu, mu = pretty_unit(du.length), pretty_unit(du.mass)
-    shift = "ΔCG —" if not np.isfinite(e.shift) else f"ΔCG {fmt(du.l(e.shift))} {lu}"
+    shift = "ΔCG —" if not np.isfinite(e.shift) else f"ΔCG {du.num(e.shift, 'length')} {lu}"
     tail = f"  {shift}  Δm {signed(du.m(e.mass_delta))} {mu}"
     head = f"{e.kind:<8} {clean(e.id)}"
     room = width - len(tail) - len(head) - 2
@@ -176,8 +178,8 @@ def item_detail(e: ItemEffect, diff: LedgerDiff, du: DisplayUnits) -> Text:
     t.append(" (only in B)" if e.kind == "added" else " (only in A)" if e.kind == "removed" else "")
     t.append("\n")
     if e.kind in ("added", "removed"):
-        t.append(f"  mass {fmt(du.m(side.row_mass[i]))} {mu}, CG "
-                 + ", ".join(f"{AXIS_NAMES[k]} {fmt(du.l(side.cg[i, k]))}" for k in range(3)) + f" {lu}\n")
+        t.append(f"  mass {du.num(side.row_mass[i], 'mass')} {mu}, CG "
+                 + ", ".join(f"{AXIS_NAMES[k]} {du.num(side.cg[i, k], 'length')}" for k in range(3)) + f" {lu}\n")
     else:
         change = next(c for c in diff.changed if c.id == e.id)
         for name, (old, new) in change.fields.items():

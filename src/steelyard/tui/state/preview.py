@@ -22,7 +22,7 @@ def preview_text(before: Totals, after: Totals, frame: Frame, du: DisplayUnits) 
     mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
     b, a = before.mp, after.mp
     t.append("Δmass ", style="bold")
-    t.append(f"{signed(du.m(a.mass - b.mass))} {mu} (total {fmt(du.m(a.mass))} {mu})\n")
+    t.append(f"{signed(du.m(a.mass - b.mass))} {mu} (total {du.num(a.mass, 'mass')} {mu})\n")
     t.append("ΔCG ", style="bold")
     t.append("  ".join(f"{AXIS_NAMES[k]} {signed(du.l(a.cg[k] - b.cg[k]))}" for k in range(3)) + f" {lu}\n")
     for rb, ra in zip(before.envelopes, after.envelopes):
@@ -31,7 +31,7 @@ def preview_text(before: Totals, after: Totals, frame: Frame, du: DisplayUnits) 
         if ra.margin is None or rb.margin is None:
             t.append(f": {status_word(rb)} → {status_word(ra)}\n")
             continue
-        t.append(f": margin {fmt(du.l(rb.margin))} → {fmt(du.l(ra.margin))} {lu} "
+        t.append(f": margin {du.num(rb.margin, 'length')} → {du.num(ra.margin, 'length')} {lu} "
                  f"(Δ {signed(du.l(ra.margin - rb.margin))}) to the {side} limit, {status_word(ra)}\n")
     t.rstrip()
     return t

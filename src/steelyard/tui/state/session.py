@@ -15,9 +15,10 @@ from __future__ import annotations
 import hashlib
 import os
 from collections.abc import Callable
+from dataclasses import replace
 
 from steelyard.core.history.changes import Change, Effect, History, ledger_with_log, log_from_ledger, utc_stamp
-from steelyard.core.display import DisplayUnits
+from steelyard.core.display import DisplayUnits, UnitChoice
 from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Ledger
 from steelyard.core.physics.rollup import MassProperties
@@ -34,6 +35,16 @@ UNIT_SYSTEMS: tuple[str | None, ...] = (None, "si", "us")
 EMPTY_SHA256 = hashlib.sha256(b"").hexdigest()
 
 
+def _saved_units() -> UnitChoice:
+    """The display units saved in the user's settings; the file's own if none (or unreadable)."""
+    from steelyard.io.user_settings import load_choice
+
+    try:
+        return load_choice()
+    except SteelyardError:
+        return UnitChoice()
+
+
 class Session:
     """State of the editor between keystrokes."""
 
@@ -46,7 +57,7 @@ class Session:
         self.author = author or who_am_i()
         self.saved: Ledger = self.history.ledger  # a demo copy is unsaved only once it is edited
         self.loadout: str | None = None
-        self.system: str | None = None
+        self.system: UnitChoice = _saved_units()  # the person's own display units (not the ledger's)
         self.lock: Lock | None = None
         self.holder: LockInfo | None = None  # who holds the file when we are read-only
         self.no_lock: str | None = None  # why no lock could be made (a read-only folder)
@@ -150,9 +161,10 @@ class Session:
             self.ledger.loadout(name)  # KeyError for a name that is not there
         self.loadout = name
 
-    def cycle_units(self) -> str | None:
-        k = UNIT_SYSTEMS.index(self.system)
-        self.system = UNIT_SYSTEMS[(k + 1) % len(UNIT_SYSTEMS)]
+    def cycle_units(self) -> UnitChoice:
+        """The next system (file, SI, US); units picked per quantity stay picked."""
+        k = UNIT_SYSTEMS.index(self.system.system)
+        self.system = replace(self.system, system=UNIT_SYSTEMS[(k + 1) % len(UNIT_SYSTEMS)])
         return self.system
 
     # -------------------------------------------------------------- editing

@@ -26,8 +26,15 @@ def axis_label(frame: Frame, k: int) -> str:
 SHORT_CAUTION = "Planning aid only; loading decisions rest on approved weight & balance data."
 
 
-def unit_label(du: DisplayUnits, system: str | None) -> str:
-    name = {None: "file units", "si": "SI", "us": "US customary"}[system]
+def _system(system) -> str | None:
+    """The system of a UnitChoice, or a system name as given (None, "si", "us")."""
+    return getattr(system, "system", system)
+
+
+def unit_label(du: DisplayUnits, system) -> str:
+    name = {None: "file units", "si": "SI", "us": "US customary"}[_system(system)]
+    if getattr(system, "mass", None) or getattr(system, "length", None) or getattr(system, "inertia", None):
+        name += " (units chosen)"
     return f"{name}: {pretty_unit(du.mass)}, {pretty_unit(du.length)}, {pretty_unit(du.inertia)}"
 
 
@@ -65,7 +72,7 @@ def margin_words(r: EnvelopeResult, frame: Frame, du: DisplayUnits) -> str:
     side = nearer_limit(r, frame)
     if r.margin is None or side is None:
         return "no CG limits at this mass"
-    amount = f"{fmt(du.l(abs(r.margin)))} {lu}"
+    amount = f"{du.num(abs(r.margin), 'length')} {lu}"
     return f"{amount} to {side} limit" if r.margin >= 0 else f"{amount} PAST {side} limit"
 
 
@@ -76,6 +83,6 @@ def envelope_line(r: EnvelopeResult, frame: Frame, du: DisplayUnits) -> str:
     return f"{r.name} {status_word(r)} {margin_words(r, frame, du)}"
 
 
-def short_units(du: DisplayUnits, system: str | None) -> str:
-    name = {None: "file", "si": "SI", "us": "US"}[system]
+def short_units(du: DisplayUnits, system) -> str:
+    name = {None: "file", "si": "SI", "us": "US"}[_system(system)]
     return f"{pretty_unit(du.mass)}, {pretty_unit(du.length)} ({name})"

@@ -217,24 +217,24 @@ def result_text(ledger: Ledger, w: Weighing, du: DisplayUnits) -> Text:
     r = w.result
     t = Text()
     t.append("Net (reading − tare): ", style="bold")
-    t.append(", ".join(f"{clean(n)} {fmt(du.m(x))}" for n, x in zip(w.inputs.names, r.net)) + f" {mu}\n")
+    t.append(", ".join(f"{clean(n)} {du.num(x, 'mass')}" for n, x in zip(w.inputs.names, r.net)) + f" {mu}\n")
 
     def cg(v) -> str:
-        return "  ".join(f"{AXIS_NAMES[k]} {fmt(du.l(v[k]))}" for k in range(3)) + f" {lu}"
+        return "  ".join(f"{AXIS_NAMES[k]} {du.num(v[k], 'length')}" for k in range(3)) + f" {lu}"
 
     off = sum(a.mass for a in w.inputs.on_board)
     add = sum(a.mass for a in w.inputs.missing)
     t.append("Weighed ", style="bold")
-    t.append(f"{fmt(du.m(r.weighed_mass))} {mu}, CG {cg(r.weighed_cg)}\n")
-    t.append(f"  − on board {fmt(du.m(off))} {mu} + missing {fmt(du.m(add))} {mu} =\n")
+    t.append(f"{du.num(r.weighed_mass, 'mass')} {mu}, CG {cg(r.weighed_cg)}\n")
+    t.append(f"  − on board {du.num(off, 'mass')} {mu} + missing {du.num(add, 'mass')} {mu} =\n")
     t.append("Empty   ", style="bold")
-    t.append(f"{fmt(du.m(r.empty_mass))} {mu}, CG {cg(r.empty_cg)}\n")
+    t.append(f"{du.num(r.empty_mass, 'mass')} {mu}, CG {cg(r.empty_cg)}\n")
     if np.isnan(r.empty_cg).any():
         t.append("  (vertical CG: not found by a level weighing; the item keeps its old value)\n", style="dim")
     if w.old is not None and w.new is not None:
         t.append(f"Replaces {clean(w.old.id)}: ", style="bold")
-        t.append(f"mass {fmt(du.m(w.old.mass * w.old.quantity))} → {fmt(du.m(w.new.mass))} {mu}; "
-                 + ", ".join(f"{AXIS_NAMES[k]} {fmt(du.l(w.old.cg[k]))} → {fmt(du.l(w.new.cg[k]))}"
+        t.append(f"mass {du.num(w.old.mass * w.old.quantity, 'mass')} → {du.num(w.new.mass, 'mass')} {mu}; "
+                 + ", ".join(f"{AXIS_NAMES[k]} {du.num(w.old.cg[k], 'length')} → {du.num(w.new.cg[k], 'length')}"
                              for k in range(3)) + f" {lu}")
     else:
         t.append("Choose the item the weighing replaces to apply it.", style="bold")

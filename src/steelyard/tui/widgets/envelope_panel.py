@@ -40,15 +40,15 @@ def status_text(totals: Totals, ledger: Ledger, du: DisplayUnits) -> Text:
         t.append(clean(r.name), style="bold")
         t.append(f" ({r.axis}): ")
         t.append(status_word(r), style="bold")
-        t.append(f" — CG {fmt(du.l(r.cg))} {lu}; ")
+        t.append(f" — CG {du.num(r.cg, 'length')} {lu}; ")
         if r.lo is None:
             t.append("the mass is outside the envelope's mass range")
         else:
             lo_w, hi_w = limit_words(ledger.frame, r.axis)
-            t.append(f"limits {lo_w} {fmt(du.l(r.lo))} / {hi_w} {fmt(du.l(r.hi))} {lu}; ")
+            t.append(f"limits {lo_w} {du.num(r.lo, 'length')} / {hi_w} {du.num(r.hi, 'length')} {lu}; ")
             t.append(margin_words(r, ledger.frame, du))
         if r.mass_margin is not None:
-            t.append(f"; {fmt(du.m(r.mass_margin))} {mu} more before the mass limit")
+            t.append(f"; {du.num(r.mass_margin, 'mass')} {mu} more before the mass limit")
         t.append("\n")
     return t
 
@@ -78,7 +78,7 @@ def sequence_text(extras: ChartExtras | None, choice: int, env_name: str | None,
     t.append(f"; least margin at {where}: ")
     t.append("INSIDE" if f.ok else "OUTSIDE", style="bold")
     if f.margin is not None:
-        t.append(f" {fmt(du.l(abs(f.margin)))} {lu} {'to' if f.margin >= 0 else 'PAST'} the nearer limit")
+        t.append(f" {du.num(abs(f.margin), 'length')} {lu} {'to' if f.margin >= 0 else 'PAST'} the nearer limit")
     if f.broken_states:
         t.append(f"; {f.broken_states} states outside, steps {f.first_broken_step}–{f.last_broken_step}")
     return t
@@ -93,8 +93,8 @@ def uncertainty_text(extras: ChartExtras | None, du: DisplayUnits) -> Text:
     elif extras.sigma is not None:
         lu = pretty_unit(du.length)
         t.append("CG uncertainty ", style="bold")
-        t.append(f"(items' tolerances, first order): σ mass {fmt(du.m(extras.sigma[0]))} {pretty_unit(du.mass)}, "
-                 + ", ".join(f"σ {AXIS_NAMES[k]} {fmt(du.l(extras.sigma[1 + k]))}" for k in range(3))
+        t.append(f"(items' tolerances, first order): σ mass {du.num(extras.sigma[0], 'mass')} {pretty_unit(du.mass)}, "
+                 + ", ".join(f"σ {AXIS_NAMES[k]} {du.num(extras.sigma[1 + k], 'length')}" for k in range(3))
                  + f" {lu}; ░ = {REGION_SIGMAS:g}σ region")
     return t
 

@@ -20,7 +20,8 @@ from textual.message import Message
 from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
-from steelyard.core.display import DisplayUnits, fmt, pretty_unit
+from steelyard.core.display import DisplayUnits, pretty_unit
+from steelyard.core.numbers import cell
 from steelyard.core.physics.groups import GroupTotal
 from steelyard.core.document.model import Ledger
 from steelyard.tui.state.rows import SORT_KEYS, LedgerIndex, RowSpec, build_rows, ungrouped_label
@@ -44,12 +45,20 @@ def _fit(text: str, width: int, right: bool = False) -> str:
     return (" " * pad + text) if right else (text + " " * pad)
 
 
-def _num(x: float, width: int) -> str:
-    for digits in (3, 2, 1, 0):
-        text = fmt(x, digits)
+def _num(x: float, width: int, decimals: int = 3) -> str:
+    """One cell: the column's decimals (docs/numbers.md); fewer only if the number would not fit."""
+    for digits in range(decimals, -1, -1):
+        text = cell(x, digits)
         if len(text) <= width:
             return text
     return f"{x:.{max(width - 6, 1)}e}"
+
+
+def _largest(values: np.ndarray) -> float:
+    """The largest finite magnitude (vectorised: a column of 100,000 items costs one pass)."""
+    a = np.abs(np.asarray(values, dtype=float))
+    a = a[np.isfinite(a)]
+    return float(a.max()) if a.size else 0.0
 
 
 class LedgerTable(ScrollView, can_focus=True):
@@ -89,6 +98,7 @@ class LedgerTable(ScrollView, can_focus=True):
         self.groups: list[GroupTotal] = []
         self.index: LedgerIndex | None = None
         self.painted_at: float | None = None  # set on the first paint with data (benchmarks)
+        self._decimals: dict[str, int] = dict.fromkeys(("mass", "x", "y", "z", "moment"), 3)
 
     # ------------------------------------------------------------ data down
     def show(self, ledger: Ledger, state, du: DisplayUnits, groups: list[GroupTotal] | None = None) -> None:
@@ -103,7 +113,20 @@ class LedgerTable(ScrollView, can_focus=True):
         if groups is not None:
             self.groups = groups  # until new subtotals arrive, items of new groups show last
         self.index = LedgerIndex(ledger.items, self.groups, reuse=self.index)
+        self._decimals = self._column_decimals()
         self._rebuild(anchor)
+
+    def _column_decimals(self) -> dict[str, int]:
+        """One count of decimals per numeric column, for the largest value it shows (items and groups)."""
+        du = self.du
+        gm = np.array([g.mass for g in self.groups], dtype=float)
+        gc = np.array([g.cg for g in self.groups], dtype=float).reshape(-1, 3)
+        mass = max(_largest(self.mass), _largest(gm))
+        cg = max(_largest(self.cg), _largest(gc))  # x, y and z at one resolution
+        mom = max(_largest(self.mass * self.cg[:, 0]) if len(self.mass) else 0.0, _largest(gm * gc[:, 0]))
+        out = {"mass": du.column_decimals([mass], "mass"), "moment": du.column_decimals([mom], "moment")}
+        out.update(dict.fromkeys("xyz", du.column_decimals([cg], "length")))
+        return out
 
     def set_spec(self, **changes) -> None:
         anchor = self._anchor()
@@ -226,11 +249,12 @@ class LedgerTable(ScrollView, can_focus=True):
         return " ".join(_fit(texts.get(c.key, ""), c.width, c.right) for c in self.columns())
 
     def _numbers(self, mass: float, cg, widths: dict[str, int]) -> dict[str, str]:
-        du = self.du
-        out = {"mass": _num(du.m(mass), widths["mass"])}
+        du, d = self.du, self._decimals
+        out = {"mass": _num(du.m(mass), widths["mass"], d["mass"])}
         for k, a in enumerate("xyz"):
-            out[a] = _num(du.l(cg[k]), widths[a])  # NaN (an empty group) shows as "—"
-        out["moment"] = _num(du.mom(mass * cg[0]), widths["moment"]) if mass > 0 else _num(0.0, widths["moment"])
+            out[a] = _num(du.l(cg[k]), widths[a], d[a])  # NaN (an empty group) shows as "—"
+        mx = du.mom(mass * cg[0]) if mass > 0 else 0.0
+        out["moment"] = _num(mx, widths["moment"], d["moment"])
         return out
 
     def _item_line(self, i: int) -> str:

@@ -27,9 +27,9 @@ def summary_text(totals: Totals, frame: Frame, du: DisplayUnits, width: int = 78
         return t
     mp = totals.mp
     t.append("Mass ", style="bold")
-    t.append(f"{fmt(du.m(mp.mass))} {pretty_unit(du.mass)}")
+    t.append(f"{du.num(mp.mass, 'mass')} {pretty_unit(du.mass)}")
     t.append(f"  CG [{pretty_unit(du.length)}] ", style="bold")
-    t.append("  ".join(f"{AXIS_NAMES[k]} {fmt(du.l(mp.cg[k]))} {frame.direction(k)}" for k in range(3)))
+    t.append("  ".join(f"{AXIS_NAMES[k]} {du.num(mp.cg[k], 'length')} {frame.direction(k)}" for k in range(3)))
     lines = [clean(envelope_line(r, frame, du)) for r in totals.envelopes]
     joined = " │ ".join(lines)
     for line in ([joined] if len(joined) <= width else lines):

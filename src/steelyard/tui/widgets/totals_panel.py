@@ -12,7 +12,8 @@ from textual.containers import VerticalScroll
 from textual.widgets import Static
 
 from steelyard.core.physics.inertia import radius_of_gyration
-from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
+from steelyard.core.display import AXIS_NAMES, DisplayUnits, pretty_unit
+from steelyard.core.numbers import column, number
 from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.rules import MacRef
 from steelyard.core.limits.rules import mac_reference as core_mac_reference
@@ -43,32 +44,39 @@ def totals_text(totals: Totals, ledger: Ledger, du: DisplayUnits, system: str | 
         return t
     mp = totals.mp
     t.append("Mass ", style="bold")
-    t.append(f"{fmt(du.m(mp.mass))} {mu}\n\n")
+    t.append(du.mass_text(mp.mass) + "\n\n")
     t.append(f"CG (from the datum) [{lu}]\n", style="bold")
+    cg = column([du.l(c) for c in mp.cg], "length", du.factor("length"))  # one resolution for x, y, z
     for k in range(3):
-        t.append(f"  {axis_label(ledger.frame, k):<28} {fmt(du.l(mp.cg[k])):>14}\n")
+        t.append(f"  {axis_label(ledger.frame, k):<28} {cg[k]:>14}\n")
     try:
         ref = mac_reference(ledger)
     except SteelyardError as exc:
         t.append("  %MAC: " + clean(exc) + "\n")
         ref = None
     if ref is not None and np.isfinite(mp.cg[0]):
-        t.append(f"  {'x in %MAC':<28} {fmt(float(ref.percent(mp.cg[0])), 2):>14} %")
-        t.append(f"  LEMAC {fmt(du.l(ref.lemac), 2)}, MAC {fmt(du.l(ref.length), 2)} {lu}\n", style="dim")
+        t.append(f"  {'x in %MAC':<28} {number(float(ref.percent(mp.cg[0])), 'percent_mac'):>14} %")
+        t.append(f"  LEMAC {du.num(ref.lemac, 'length')}, MAC {du.num(ref.length, 'length')} {lu}\n", style="dim")
     t.append(f"\nInertia about the CG [{iu}] (tensor; off-diagonals are minus the products)\n", style="bold")
     t.append("     " + "".join(f"{a:>17}" for a in AXIS_NAMES) + "\n")
+    tensor = column([du.i(float(v)) for v in np.ravel(mp.inertia_cg)], "inertia", du.factor("inertia"))
     for r, a in enumerate(AXIS_NAMES):
-        t.append(f"  {a}  " + "".join(f"{fmt(du.i(mp.inertia_cg[r, c])):>17}" for c in range(3)) + "\n")
+        t.append(f"  {a}  " + "".join(f"{tensor[3 * r + c]:>17}" for c in range(3)) + "\n")
     p = mp.inertia_cg
     t.append(f"\nProducts of inertia about the CG [{iu}]\n", style="bold")
-    t.append(f"  ∫xy dm {fmt(du.i(-p[0, 1]))}   ∫xz dm {fmt(du.i(-p[0, 2]))}   ∫yz dm {fmt(du.i(-p[1, 2]))}\n")
+    t.append(f"  ∫xy dm {du.num(-p[0, 1], 'inertia')}   ∫xz dm {du.num(-p[0, 2], 'inertia')}   "
+             f"∫yz dm {du.num(-p[1, 2], 'inertia')}\n")
     if mp.mass > 0:
         moments, axes = mp.principal
         t.append(f"\nPrincipal moments [{iu}], axes (body), radius of gyration k [{lu}]\n", style="bold")
+        shown = column([du.i(float(v)) for v in moments], "inertia", du.factor("inertia"))
+        # radius of gyration: float() first, no overflow warning
+        rgs = column([du.l(radius_of_gyration(max(float(v), 0.0), float(mp.mass))) for v in moments], "length",
+                     du.factor("length"))
         for k in range(3):
-            rg = radius_of_gyration(max(float(moments[k]), 0.0), float(mp.mass))  # no overflow warning
-            t.append(f"  I{k + 1} {fmt(du.i(moments[k])):>16}  axis ("
-                     + ", ".join(f"{v:+.4f}" for v in axes[k]) + f")  k {fmt(du.l(rg))}\n")
+            parts = column([float(v) for v in axes[k]], "fraction")  # never "-0.00000"
+            t.append(f"  I{k + 1} {shown[k]:>16}  axis (" + ", ".join(f"{v:>8}" for v in parts)
+                     + f")  k {rgs[k]}\n")
     t.append("\nFrame: right-handed, origin at the datum; products of inertia are ∫xy dm about the CG.",
              style="dim")
     return t
