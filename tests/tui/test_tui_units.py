@@ -18,7 +18,7 @@ async def test_choose_grams_and_ounces_headless(tmp_path, monkeypatch):
     async with editor(path) as (app, pilot):
         mass, _ = exact_totals(path)  # kg, exact (the file is in lb: NIST SP 811 pound)
         await pilot.press("2")  # totals view
-        await pilot.press("T")
+        await pilot.press("D")
         await wait_for_screen(app, pilot, UnitsScreen, what="the unit chooser")
         # rows: system, mass, length, inertia; mass options: as the system, auto, kg, g, lb, oz
         await pilot.press("down", "right", "right", "right", "enter")
@@ -28,17 +28,17 @@ async def test_choose_grams_and_ounces_headless(tmp_path, monkeypatch):
         # 5 significant figures of the exact total in grams (1 g = 1/1000 kg, SI)
         assert f"Mass {sig_text(mass * 1000)} g" in screen_text(app)
         assert load_choice().mass == "g"  # saved for the person, not in the file
-        await pilot.press("T")
+        await pilot.press("D")
         await wait_for_screen(app, pilot, UnitsScreen)
         await pilot.press("down", "right", "right", "right", "escape")  # cancelled: nothing changes
         await settle(pilot, app)
         assert app.session.system.mass == "g"
-        await pilot.press("T")
+        await pilot.press("D")
         await wait_for_screen(app, pilot, UnitsScreen)
         await pilot.press("down", "left", "enter")  # g -> kg
         await settle(pilot, app)
         assert app.session.system.mass == "kg"
-        await pilot.press("T")
+        await pilot.press("D")
         await wait_for_screen(app, pilot, UnitsScreen)
         await pilot.press("down", "right", "right", "right", "enter")  # kg -> g -> lb -> oz
         await settle(pilot, app)

@@ -32,7 +32,7 @@ MAIN_KEYS: tuple[tuple[str, str, str, bool, str], ...] = (
     ("w", "weighing", "Weighing", False,
      "weighing form: scale readings and tares give the empty mass and CG, replacing the empty-vehicle item"),
     ("t", "units", "Units", True, "switch display units: file units, SI, US customary"),
-    ("T", "choose_units", "Unit choice", False,
+    ("D", "choose_units", "Unit choice", False,
      "choose the unit of mass, length and inertia (g, mm, oz, slug·ft², ...); saved for you, not in the file"),
     ("slash,f", "filter", "Filter", False, "filter items by text in id, name or group (Esc clears)"),
     ("s", "sort", "Sort", False, "sort by the next column (file order, id, name, ..., moment)"),
