@@ -91,6 +91,9 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
                    fmt(du.mom(mp.mass * mp.cg[0]), dmo))
         console.print(ws)
 
+    from steelyard.cli.render.rollup_limits import print_limits, scoped_out, state_check  # scoped as check
+
+    checked = state_check(ledger, state.name, mp)
     results = envelope_results(ledger, mp)
     if results:
         axes = sorted({r.axis for r in results})
@@ -114,13 +117,15 @@ def print_rollup(loaded, state, mp, system: str | None, console: Console | None 
             et.add_column(head, justify="left" if head == "status" else "right", no_wrap=True, min_width=w)
         for r in results:
             allowed = "off range" if r.limits is None else f"{fmt(du.l(r.lo), dl)}…{fmt(du.l(r.hi), dl)}"
-            status = "INSIDE" if r.inside else "OUTSIDE"
+            status = "n/a" if r.name in scoped_out(checked) else "INSIDE" if r.inside else "OUTSIDE"
             name = r.name if len(axes) == 1 else f"{r.name} ({r.axis})"
             et.add_row(Text(visible(name)), status, allowed,
                        fmt(None if r.margin_lo is None else du.l(r.margin_lo), dl),
                        fmt(None if r.margin_hi is None else du.l(r.margin_hi), dl),
                        fmt(None if r.mass_margin is None else du.m(r.mass_margin), dm))
         console.print(et)
+    print_limits(console, ledger, checked, du, caution=False)
+    if results or ledger.limits:
         console.print(Text(CAUTION, style="italic"))
 
     from steelyard.cli.render.control import print_control  # basic vs predicted, allocations, uncertainty
