@@ -57,6 +57,18 @@ def limit_line(f, du: DisplayUnits) -> str:
     return f"{line}: BROKEN by {quantity(du, f.dimension, abs(f.margin))}"
 
 
+def limit_short(f, du: DisplayUnits) -> str:
+    """A [[limit]] finding in a few words, for a status strip: 'mtow ok, 0.3470 kg to spare'."""
+    if not f.applies:
+        return f"{f.name}: does not apply here"
+    if f.margin is None:
+        return f"{f.name} {'ok' if f.ok else 'BROKEN'}"
+    what = f"I{f.axis} " if f.kind == "inertia" and f.axis in ("xx", "yy", "zz") else (
+        f"∫{f.axis} dm " if f.kind == "inertia" else "")
+    amount = quantity(du, f.dimension, abs(f.margin))
+    return f"{f.name} ok, {what}{amount} to spare" if f.ok else f"{f.name} BROKEN by {what}{amount}"
+
+
 def room_line(room: RoomLeft | None, du: DisplayUnits) -> str:
     """'Room left: 0.3470 kg at this CG (mass limit "mtow" binds)'."""
     if room is None:

@@ -59,22 +59,24 @@ class EditFlows:
         return item_id
 
     # ------------------------------------------------------------ the form
-    def action_add(self) -> None:
+    # The form is awaited until mounted (its first field focused): the App takes the next key only
+    # then, so keys typed or pasted right after `a` land in the form's first field, none lost.
+    async def action_add(self) -> None:
         if self._may_edit():
-            self.push_screen(ItemForm(self.session.ledger, None, self._preview), self._form_done)
+            await self.push_screen(ItemForm(self.session.ledger, None, self._preview), self._form_done)
 
-    def action_edit(self) -> None:
+    async def action_edit(self) -> None:
         item_id = self._current()
         if item_id is not None:
-            self.edit_item(item_id)
+            await self.edit_item(item_id)
 
-    def edit_item(self, item_id: str) -> None:
+    async def edit_item(self, item_id: str) -> None:
         if self._may_edit():
             item = self.session.ledger.item(item_id)
-            self.push_screen(ItemForm(self.session.ledger, item, self._preview), self._form_done)
+            await self.push_screen(ItemForm(self.session.ledger, item, self._preview), self._form_done)
 
-    def on_ledger_table_edit_requested(self, event: LedgerTable.EditRequested) -> None:
-        self.edit_item(event.item_id)
+    async def on_ledger_table_edit_requested(self, event: LedgerTable.EditRequested) -> None:
+        await self.edit_item(event.item_id)
 
     def _form_done(self, result: FormResult | None) -> None:
         if result is None or self.session is None:
