@@ -25,6 +25,7 @@ from steelyard.tui.state.edits import add_item, replace_item
 from steelyard.tui.state.form_values import (GIVEN_INERTIA, check_loadouts, initial_fields, item_from_fields, kinds,
                                             shape_fields, shape_keys)
 from steelyard.tui.text import clean, literal
+from steelyard.tui.widgets.ordered_input import OrderedInput
 
 #: up to this many items the whole edit is checked as each key is typed; above, in a thread
 SYNC_ITEMS = 20_000
@@ -89,7 +90,7 @@ class ItemForm(ModalScreen[FormResult | None]):
                 for key in ("id", "name", "group", "quantity", "mass", "density", "x", "y", "z", "rotate"):
                     yield Label(Text(labels[key]), classes="form-label")
                     placeholder = {"density": "e.g. 6 lb/gal", "rotate": "e.g. z 10, x -5", "group": "e.g. power/storage"}.get(key, "")
-                    yield Input(self.start.get(key, ""), id=fid(key), compact=True, placeholder=placeholder)
+                    yield OrderedInput(self.start.get(key, ""), id=fid(key), compact=True, placeholder=placeholder)
                 yield Label("shape", classes="form-label")
                 yield Select([(k, k) for k in kinds()], value=self.start["kind"], allow_blank=False,
                              compact=True, id="f-kind")
@@ -104,7 +105,7 @@ class ItemForm(ModalScreen[FormResult | None]):
             with Grid(id="shape-grid"):
                 for key in shape_keys():
                     yield Label(Text(labels[key]), classes="form-label", id="l-" + fid(key))
-                    yield Input(self.values.get(key, ""), id=fid(key), compact=True,
+                    yield OrderedInput(self.values.get(key, ""), id=fid(key), compact=True,
                                 placeholder="a, b, c" if key.endswith("size") or key.endswith("axes") else "")
             yield Static("", id="form-message")
             with Horizontal(id="form-buttons"):
