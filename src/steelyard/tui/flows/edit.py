@@ -105,7 +105,7 @@ class EditFlows:
         self.push_screen(ConfirmScreen(f"Delete item {item_id}? (Undo brings it back.)",
                                        [("delete", "Delete"), ("keep", "Keep it")]), done)
 
-    def action_move(self) -> None:
+    async def action_move(self) -> None:
         item_id = self._current()
         if item_id is None or not self._may_edit():
             return
@@ -118,7 +118,7 @@ class EditFlows:
             self._apply(new, action="move", item=item_id,
                         summary=f"moved {item_id} from {old or '(no group)'} to {new.item(item_id).group or '(no group)'}")
 
-        self.push_screen(TextPrompt(f"Move {clean(item_id)} to group", old, hint="a '/' path such as "
+        await self.push_screen(TextPrompt(f"Move {clean(item_id)} to group", old, hint="a '/' path such as "
                                     "power/storage; empty for no group"), done)
 
     def action_undo(self) -> None:
@@ -137,10 +137,10 @@ class EditFlows:
         self.refresh_views(focus_item=None if change is None else change.item)
 
     # ------------------------------------------------------ loadouts, units
-    def action_loadout(self) -> None:
+    async def action_loadout(self) -> None:
         if self._may_edit(write=False):
             s = self.session
-            self.push_screen(LoadoutScreen(s.ledger, s.loadout, s.units, self._summary()))
+            await self.push_screen(LoadoutScreen(s.ledger, s.loadout, s.units, self._summary()))
 
     def _summary(self) -> Text:
         s = self.session
@@ -172,9 +172,9 @@ class EditFlows:
             self.refresh_views()
 
     # ------------------------------------------------------------ weighing
-    def action_weighing(self) -> None:
+    async def action_weighing(self) -> None:
         if self._may_edit():
-            self.push_screen(WeighingForm(self.session.ledger), self._weighing_done)
+            await self.push_screen(WeighingForm(self.session.ledger), self._weighing_done)
 
     def _weighing_done(self, done: WeighingDone | None) -> None:
         if done is None or self.session is None:
