@@ -103,12 +103,12 @@ async def test_keys_typed_at_once_after_enter_reach_the_mass(tmp_path):
     path = copy_fixture(tmp_path)
     async with editor(path) as (app, pilot):
         await cursor_to(app, pilot, "wing-l")
-        start = app.session.ledger.item("wing-l")
-        burst(app, ["enter", "backspace", "backspace", "backspace", "backspace", *"88.5"])
+        burst(app, ["enter", "backspace", "backspace", *"88.5", "backspace", "6"])
         await wait_for_screen(app, pilot, ItemForm)
         await settle(pilot, app)
-        # the form opens on the mass ("99" in the file, trainer.toml): four backspaces empty it
-        assert start.mass > 0 and app.screen.query_one("#f-mass", Input).value == "88.5"
+        # the form opens on the mass (99.0 lb, trainer.toml) with its text selected: the first backspace
+        # clears it, the second finds nothing; a backspace queued behind "88.5" takes the "5" only
+        assert app.screen.query_one("#f-mass", Input).value == "88.6"
 
 
 async def test_paste_right_after_opening_lands_in_the_id(tmp_path):
