@@ -101,7 +101,7 @@ async def test_invalid_entry_shows_its_message_and_changes_nothing(tmp_path):
         await pilot.pause()
         await type_into(app, pilot, "f-mass", "12 parsecs")
         text = screen_text(app)
-        assert "✗ mass:" in text
+        assert "✗ mass [lb]:" in text  # the label the form shows (trainer: lb)
         assert app.screen.query_one("#f-mass").has_class("bad")
         await pilot.press("enter")  # refused: the form stays, nothing applied
         await pilot.pause()

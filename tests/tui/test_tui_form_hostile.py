@@ -26,7 +26,7 @@ async def test_form_refuses_numbers_float_would_take(tmp_path, text):
         await pilot.pause()
         await type_into(app, pilot, "f-mass", text)
         shown = " ".join(screen_text(app).split())
-        assert "✗ mass:" in shown and "ASCII digits" in shown
+        assert "✗ mass [lb]:" in shown and "ASCII digits" in shown  # the label the form shows
         assert app.screen.query_one("#f-mass").has_class("bad")
         await pilot.press("enter")  # refused: the form stays, nothing applied
         await pilot.pause()

@@ -189,5 +189,5 @@ class SteelyardApp(SetupFlows, RevisionFlows, FileFlows, EditFlows, JournalFlows
             elif action.startswith("view-action:"):
                 getattr(self.main, f"action_{action[12:]}")()
             else:
-                getattr(self, f"action_{action}")()
+                self.call_later(getattr(self, f"action_{action}"))  # awaited when async (forms await their mount)
         return run

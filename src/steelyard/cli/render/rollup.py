@@ -105,6 +105,9 @@ def print_rollup(loaded, state, mp, system: str | None, out: Out | None = None) 
         ws.add_row(("total", "bold"), *rows[-1])
         console.table(ws)
 
+    from steelyard.cli.render.rollup_limits import print_limits, scoped_out, state_check  # scoped as check
+
+    checked = state_check(ledger, state.name, mp)
     results = envelope_results(ledger, mp)
     if results:
         axes = sorted({r.axis for r in results})
@@ -130,13 +133,15 @@ def print_rollup(loaded, state, mp, system: str | None, out: Out | None = None) 
             et.add_column(head, justify="left" if head == "status" else "right", no_wrap=True, min_width=w)
         for r in results:
             allowed = "off range" if r.limits is None else f"{cell(du.l(r.lo), de)}…{cell(du.l(r.hi), de)}"
-            status = "INSIDE" if r.inside else "OUTSIDE"
+            status = "n/a" if r.name in scoped_out(checked) else "INSIDE" if r.inside else "OUTSIDE"
             name = r.name if len(axes) == 1 else f"{r.name} ({r.axis})"
             et.add_row(visible(name), status, allowed,
                        cell(None if r.margin_lo is None else du.l(r.margin_lo), de),
                        cell(None if r.margin_hi is None else du.l(r.margin_hi), de),
                        cell(None if r.mass_margin is None else du.m(r.mass_margin), dmm))
         console.table(et)
+    print_limits(console, ledger, checked, du, caution=False)
+    if results or ledger.limits:
         console.line(CAUTION, "italic")
 
     from steelyard.io.report.control import control_record  # basic vs predicted, allocations, uncertainty

@@ -194,6 +194,15 @@ def _frozen_loadout(ledger: Ledger) -> tuple[str | None, str | None] | None:
     return (lo if isinstance(lo, str) else None, cond if cond in ("ramp", "takeoff", "landing") else None)
 
 
+def _tags(ledger: Ledger, name: str | None, cond: str) -> tuple[str, frozenset]:
+    """(condition, scope tags) of a loadout's state, as `read_scope` names states."""
+    frozen = _frozen_loadout(ledger) if name is None else None
+    if frozen is not None:  # a snapshot is its loadout's state: scopes apply as they did in the source
+        cond = frozen[1] or cond
+    as_loadout = name if frozen is None else frozen[0]
+    return cond, frozenset([("condition", cond)] + ([("loadout", as_loadout)] if as_loadout is not None else []))
+
+
 def _loadout_states(ledger: Ledger, names: list[str | None]) -> list[_State]:
     out = []
     for name in names:
@@ -207,11 +216,7 @@ def _loadout_states(ledger: Ledger, names: list[str | None]) -> list[_State]:
         state = state_from_fill(ledger, fill, name)
         mp = rollup_state(state)
         check_finite_rollup(mp, ledger.items)
-        frozen = _frozen_loadout(ledger) if name is None else None
-        if frozen is not None:  # a snapshot is its loadout's state: scopes apply as they did in the source
-            cond = frozen[1] or cond
-        as_loadout = name if frozen is None else frozen[0]
-        tags = frozenset([("condition", cond)] + ([("loadout", as_loadout)] if as_loadout is not None else []))
+        cond, tags = _tags(ledger, name, cond)
         out.append(_State(label, name, "loadout", cond, tags, mp.mass, mp.cg, mp.inertia_cg, state.mass))
         zf = zero_fuel_fill(ledger, fill)
         if zf is not None:
@@ -366,6 +371,24 @@ def validate(ledger: Ledger) -> None:
     for it in ledger.items:
         if it.removable:
             is_removable(it)
+
+
+def check_rollup(ledger: Ledger, name: str | None, mp) -> StateCheck:
+    """One loadout's state, already rolled up (`mp`), checked exactly as `check_ledger` checks it.
+
+    For whoever already holds the roll-up (the editor repaints on every edit):
+    the same scope rules and findings as `steelyard check`, without rolling
+    the ledger up again. Its zero-fuel state and sequences are not included.
+    """
+    try:
+        cond = loadout_condition(ledger, name)
+    except SteelyardError as exc:
+        raise exc.located(subject=None if name is None else f"loadout {said(name)}")
+    check_finite_rollup(mp, ledger.items)
+    cond, tags = _tags(ledger, name, cond)
+    label = name if name is not None else "(no loadout)"
+    state = _State(label, name, "loadout", cond, tags, mp.mass, mp.cg, mp.inertia_cg)
+    return _check_states(ledger, [state], mac_reference(ledger))[0]
 
 
 def check_ledger(ledger: Ledger, loadout: str | None = None) -> CheckReport:

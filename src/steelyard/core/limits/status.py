@@ -96,3 +96,44 @@ def envelope_results(ledger: Ledger, mp: MassProperties) -> list[EnvelopeResult]
     """
     check_finite_rollup(mp, ledger.items)
     return [envelope_result(env, mp, ledger) for env in ledger.envelopes]
+
+
+# --------------------------------------------------------------------------- room left
+
+
+@dataclass(frozen=True)
+class RoomLeft:
+    """Mass that can still be added at the current CG, and the envelope or limit that stops it (SI)."""
+
+    mass: float  # kg; 0 when an applicable envelope is already left, negative when over a max_mass
+    kind: str  # "envelope" | "mass"
+    name: str
+
+    @property
+    def what(self) -> str:
+        """'envelope "normal"' / 'mass limit "MTOW"': the binding check as a user names it."""
+        return f'{"envelope" if self.kind == "envelope" else "mass limit"} "{self.name}"'
+
+
+def room_left(findings) -> RoomLeft | None:
+    """The least of every applicable envelope's top (at this CG) and every applicable ``max_mass``.
+
+    `findings` are core.limits.checks Findings of one state, so scopes are
+    the check's own. Mass added at the CG moves neither the CG nor the
+    inertia about it, so CG-offset and inertia limits never bound it. An
+    applicable envelope already left with no top at this CG gives 0. None
+    when nothing applicable bounds the mass.
+    """
+    best: RoomLeft | None = None
+    for f in findings:
+        if not f.applies:
+            continue
+        if f.kind == "envelope":
+            value = f.mass_margin if f.mass_margin is not None else (None if f.ok else 0.0)
+        elif f.kind == "mass":
+            value = f.margin_hi
+        else:
+            continue
+        if value is not None and (best is None or value < best.mass):
+            best = RoomLeft(float(value), f.kind, f.name)
+    return best

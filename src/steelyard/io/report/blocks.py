@@ -9,7 +9,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from steelyard.core.display import AXIS_NAMES, pretty_unit
+from steelyard.core.display import AXIS_NAMES, fmt, pretty_unit
+from steelyard.core.limits.limit_words import limit_line, room_line
+from steelyard.core.limits.status import room_left
 from steelyard.core.numbers import cell
 from steelyard.core.physics.groups import UNGROUPED
 from steelyard.io.report.build import ITEM_ROWS, Chart, Report
@@ -145,7 +147,8 @@ def _loadouts(r: Report, u: _Units) -> list[Block]:
         for x in r.loadouts:
             for e in x.envelopes:
                 allowed = "outside its mass range" if e.limits is None else f"{u.l(e.lo)} … {u.l(e.hi)}"
-                row = [x.label, e.name, e.axis, "inside" if e.inside else "OUTSIDE", u.l(e.cg), allowed,
+                status = "does not apply" if e.name in _scoped_out(x) else "inside" if e.inside else "OUTSIDE"
+                row = [x.label, e.name, e.axis, status, u.l(e.cg), allowed,
                        u.l(e.margin), u.m(e.mass_margin)]
                 if with_mc:
                     mc = x.monte_carlo(e.name)
@@ -161,6 +164,7 @@ def _loadouts(r: Report, u: _Units) -> list[Block]:
                                   "outside the envelope, ± its binomial standard error; with none outside, "
                                   f"about {3 / mc['samples']:.1e} is an upper 95 % bound (rule of three)."))
         out.append(Block("caution", r.caution))
+    out += _limits(r)
     if uncertain:
         head = ["loadout", f"σ mass [{u.mu}]", *(f"σ CG {a} [{u.lu}]" for a in AXIS_NAMES),
                 f"worst case mass ± [{u.mu}]", *(f"worst case CG {a} ± [{u.lu}]" for a in AXIS_NAMES)]
@@ -172,6 +176,29 @@ def _loadouts(r: Report, u: _Units) -> list[Block]:
                            "sum of |sensitivity| × bound (a sigma-kind tolerance counts as 3σ)."),
                 _table(head, rows)]
     return out
+
+
+def _scoped_out(x) -> set[str]:
+    """Envelopes whose conditions / loadouts / sequences leave this loading out (as `check` reads them)."""
+    return set() if x.check is None else {f.name for f in x.check.findings if f.kind == "envelope" and not f.applies}
+
+
+def _limits(r: Report) -> list[Block]:
+    """Each loading's [[limit]]s and the room left at its CG, in the editor's and `rollup`'s words."""
+    if not r.ledger.limits and not r.ledger.envelopes:
+        return []
+    rows = []
+    for x in r.loadouts:
+        if x.check is None:
+            continue
+        rows += [[x.label, limit_line(f, r.units)] for f in x.check.findings if f.kind != "envelope"]
+        rows.append([x.label, room_line(room_left(x.check.findings), r.units)])
+    if not rows:
+        return []
+    return [Block("h2", "Limits and room left"),
+            Block("p", "Scoped as steelyard check scopes them. Room left: mass that can still be added at the "
+                       "CG, the least of every applicable envelope's top and max_mass limit, and which one binds."),
+            Block("table", headers=("loadout", "limit"), rows=tuple(map(tuple, rows)))]
 
 
 def _charts(r: Report) -> list[Block]:

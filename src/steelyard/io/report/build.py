@@ -23,6 +23,7 @@ from steelyard.core.control.growth import growth_fractions
 from steelyard.core.loading.loadout import resolve
 from steelyard.core.document.model import Ledger
 from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
+from steelyard.core.limits.checks import StateCheck, check_rollup
 from steelyard.core.limits.envelope import evaluate
 from steelyard.core.limits.status import AXIS_INDEX, EnvelopeResult, envelope_results
 from steelyard.io.report.chart import MARKS, text_chart
@@ -48,6 +49,7 @@ class LoadoutResult:
     mp: MassProperties
     envelopes: list[EnvelopeResult]
     control: dict  # control_record of this loading ({} without growth, allocations, tolerances)
+    check: StateCheck | None = None  # envelopes and [[limit]]s against this state, scoped as `check` scopes them
 
     def monte_carlo(self, envelope: str) -> dict | None:
         mc = (self.control.get("uncertainty") or {}).get("monte_carlo")
@@ -167,7 +169,7 @@ def _result(ledger: Ledger, name: str | None, mark: str, samples: int, seed: int
     mp = rollup_state(state)
     label = name if name is not None else "(variable items empty)"
     return LoadoutResult(name, label, mark, mp, envelope_results(ledger, mp),
-                         control_record(ledger, state, samples=samples, seed=seed))
+                         control_record(ledger, state, samples=samples, seed=seed), check_rollup(ledger, name, mp))
 
 
 def _chart(ledger: Ledger, env, results: list[LoadoutResult], du: DisplayUnits, sequences=()) -> Chart:
@@ -181,7 +183,9 @@ def _chart(ledger: Ledger, env, results: list[LoadoutResult], du: DisplayUnits, 
         if cov is not None and r.mp.mass > 0:
             reg = uncertainty_region(cov, r.mp.cg[k], r.mp.mass, env.axis, REGION_SIGMA)
             regions.append(np.column_stack([du.l(reg[:, 0]), du.m(reg[:, 1])]))
-        legend.append((r.mark, f"{r.label}: {'inside' if status.inside else 'OUTSIDE'}"))
+        out = r.check is not None and any(f.kind == "envelope" and f.name == env.name and not f.applies
+                                          for f in r.check.findings)
+        legend.append((r.mark, f"{r.label}: {'does not apply' if out else 'inside' if status.inside else 'OUTSIDE'}"))
     if regions:
         legend.append(("┄", f"{REGION_SIGMA:g}-sigma uncertainty region of each loading (normal approximation)"))
     paths, ends = [], []

@@ -59,22 +59,24 @@ class EditFlows:
         return item_id
 
     # ------------------------------------------------------------ the form
-    def action_add(self) -> None:
+    # The form is awaited until mounted (its first field focused): the App takes the next key only
+    # then, so keys typed or pasted right after `a` land in the form's first field, none lost.
+    async def action_add(self) -> None:
         if self._may_edit():
-            self.push_screen(ItemForm(self.session.ledger, None, self._preview), self._form_done)
+            await self.push_screen(ItemForm(self.session.ledger, None, self._preview), self._form_done)
 
-    def action_edit(self) -> None:
+    async def action_edit(self) -> None:
         item_id = self._current()
         if item_id is not None:
-            self.edit_item(item_id)
+            await self.edit_item(item_id)
 
-    def edit_item(self, item_id: str) -> None:
+    async def edit_item(self, item_id: str) -> None:
         if self._may_edit():
             item = self.session.ledger.item(item_id)
-            self.push_screen(ItemForm(self.session.ledger, item, self._preview), self._form_done)
+            await self.push_screen(ItemForm(self.session.ledger, item, self._preview), self._form_done)
 
-    def on_ledger_table_edit_requested(self, event: LedgerTable.EditRequested) -> None:
-        self.edit_item(event.item_id)
+    async def on_ledger_table_edit_requested(self, event: LedgerTable.EditRequested) -> None:
+        await self.edit_item(event.item_id)
 
     def _form_done(self, result: FormResult | None) -> None:
         if result is None or self.session is None:
@@ -103,7 +105,7 @@ class EditFlows:
         self.push_screen(ConfirmScreen(f"Delete item {item_id}? (Undo brings it back.)",
                                        [("delete", "Delete"), ("keep", "Keep it")]), done)
 
-    def action_move(self) -> None:
+    async def action_move(self) -> None:
         item_id = self._current()
         if item_id is None or not self._may_edit():
             return
@@ -116,7 +118,7 @@ class EditFlows:
             self._apply(new, action="move", item=item_id,
                         summary=f"moved {item_id} from {old or '(no group)'} to {new.item(item_id).group or '(no group)'}")
 
-        self.push_screen(TextPrompt(f"Move {clean(item_id)} to group", old, hint="a '/' path such as "
+        await self.push_screen(TextPrompt(f"Move {clean(item_id)} to group", old, hint="a '/' path such as "
                                     "power/storage; empty for no group"), done)
 
     def action_undo(self) -> None:
@@ -135,10 +137,10 @@ class EditFlows:
         self.refresh_views(focus_item=None if change is None else change.item)
 
     # ------------------------------------------------------ loadouts, units
-    def action_loadout(self) -> None:
+    async def action_loadout(self) -> None:
         if self._may_edit(write=False):
             s = self.session
-            self.push_screen(LoadoutScreen(s.ledger, s.loadout, s.units, self._summary()))
+            await self.push_screen(LoadoutScreen(s.ledger, s.loadout, s.units, self._summary()))
 
     def _summary(self) -> Text:
         s = self.session
@@ -191,9 +193,9 @@ class EditFlows:
         self.notify(f"Units {choice.label} saved for you in {where}", markup=False, timeout=4)
 
     # ------------------------------------------------------------ weighing
-    def action_weighing(self) -> None:
+    async def action_weighing(self) -> None:
         if self._may_edit():
-            self.push_screen(WeighingForm(self.session.ledger), self._weighing_done)
+            await self.push_screen(WeighingForm(self.session.ledger), self._weighing_done)
 
     def _weighing_done(self, done: WeighingDone | None) -> None:
         if done is None or self.session is None:

@@ -15,6 +15,7 @@ import time
 from textual import work
 
 from steelyard.core.errors import SteelyardError
+from steelyard.core.units import registry
 from steelyard.core.physics.groups import subtotals
 from steelyard.core.loading.loadout import resolve
 from steelyard.core.document.model import Ledger
@@ -110,6 +111,16 @@ class FileFlows:
             self.new_ledger_setup()
         if holder is not None:
             self._locked(holder)
+        self.call_after_refresh(self._warm_units)
+
+    @work(thread=True, exclusive=True, group="units", description="unit registry")
+    def _warm_units(self) -> None:
+        """Build the unit registry now, off the screen's thread, once the ledger is painted.
+
+        It takes a second or more and is otherwise built by the first unit
+        typed into a form ("2 lb"), freezing the ✓ / ✗ line for that long.
+        """
+        registry()
 
     def _locked(self, holder) -> None:
         who = f"{clean(holder.user)}@{clean(holder.host)} (process {holder.pid}, since {when(holder.since)})"

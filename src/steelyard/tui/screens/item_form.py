@@ -23,8 +23,13 @@ from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Item, Ledger
 from steelyard.tui.state.edits import add_item, replace_item
 from steelyard.tui.state.form_values import (GIVEN_INERTIA, check_loadouts, initial_fields, item_from_fields, kinds,
-                          shape_fields)
+                                            shape_fields, shape_keys)
 from steelyard.tui.text import clean, literal
+from steelyard.tui.widgets.ordered_input import OrderedInput
+
+#: up to this many items the whole edit is checked as each key is typed; above, in a thread
+SYNC_ITEMS = 20_000
+
 
 def fid(key: str) -> str:
     return "f-" + key.replace(".", "-")
@@ -39,7 +44,11 @@ class FormResult:
 
 
 class ItemForm(ModalScreen[FormResult | None]):
-    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+    # Tab is a priority binding so it moves focus in the order keys arrive: as a plain binding it runs
+    # only after bubbling up from the field, when the keys typed after it are already in that field.
+    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+                Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
+                Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
     def __init__(self, ledger: Ledger, original: Item | None, preview: Callable[[Ledger], Text],
                  *, start: Item | None = None) -> None:
@@ -51,57 +60,70 @@ class ItemForm(ModalScreen[FormResult | None]):
         self.values = dict(self.start)
         self.result: FormResult | None = None
         self.problem: SteelyardError | None = None
+        self._generation = 0  # of the fields' text: a preview worked out for older text is dropped
+        self.labels = self._labels()
+        # Focus is on the first field from the moment the form is composed (Screen.AUTO_FOCUS), not
+        # set later in on_mount: a key typed as the form opens must already have a field to land in.
+        self.AUTO_FOCUS = "#" + fid("id" if original is None else "mass")
 
     # ----------------------------------------------------------------- build
-    def compose(self):
+    def _labels(self) -> dict[str, str]:
+        """Each field's label as the form shows it: error messages name fields by these."""
         u = self.ledger.units
         lu, mu = pretty_unit(u.length), pretty_unit(u.mass)
+        out = {"id": "id", "name": "name", "group": "group", "quantity": "quantity", "mass": f"mass [{mu}]",
+               "density": "density", "x": f"x [{lu}]", "y": f"y [{lu}]", "z": f"z [{lu}]", "rotate": "turns",
+               "kind": "shape", "axis": "shape axis", "variable": "variable"}
+        for kind in kinds():
+            unit = pretty_unit(u.inertia if kind == GIVEN_INERTIA else u.length)
+            out.update({key: f"{label} [{unit}]" for key, label in shape_fields(kind)})
+        return out
+
+    def compose(self):
         what = "Add an item" if self.original is None else f"Edit item {clean(self.original.id)}"
-        with VerticalScroll(id="form-box"):
+        labels = self.labels
+        with VerticalScroll(id="form-box", can_focus=False):
             yield Static(Text(what, style="bold") + Text(
                 " · plain number = file units · or with a unit: 41.5 lb, 3 ft 2 in", style="dim"),
                 id="form-title")
             with Grid(id="form-grid"):
-                for key, label in (("id", "id"), ("name", "name"), ("group", "group"), ("quantity", "quantity"),
-                                   ("mass", f"mass [{mu}]"),
-                                   ("density", "density"), ("x", f"x [{lu}]"),
-                                   ("y", f"y [{lu}]"), ("z", f"z [{lu}]"), ("rotate", "turns")):
-                    yield Label(Text(label), classes="form-label")
+                for key in ("id", "name", "group", "quantity", "mass", "density", "x", "y", "z", "rotate"):
+                    yield Label(Text(labels[key]), classes="form-label")
                     placeholder = {"density": "e.g. 6 lb/gal", "rotate": "e.g. z 10, x -5", "group": "e.g. power/storage"}.get(key, "")
-                    yield Input(self.start.get(key, ""), id=fid(key), compact=True, placeholder=placeholder)
+                    yield OrderedInput(self.start.get(key, ""), id=fid(key), compact=True, placeholder=placeholder)
                 yield Label("shape", classes="form-label")
                 yield Select([(k, k) for k in kinds()], value=self.start["kind"], allow_blank=False,
                              compact=True, id="f-kind")
-                yield Label("axis", classes="form-label")
+                yield Label("shape axis", classes="form-label")
                 yield Select([(a, a) for a in "xyz"], value=self.start["axis"], allow_blank=False,
                              compact=True, id="f-axis")
                 yield Label("variable", classes="form-label")
-                yield Select([("no: fixed item", ""), ("yes: amount set by loadouts", "yes")],
+                yield Select([("no: a fixed item", ""), ("yes: loadouts set its amount", "yes")],
                              value=self.start["variable"], allow_blank=False, compact=True, id="f-variable")
-            yield Grid(id="shape-grid")
+            # Every shape's inputs exist from the start and are shown or hidden: mounting them after the
+            # form opened would let keys typed meanwhile land nowhere, or in the wrong field.
+            with Grid(id="shape-grid"):
+                for key in shape_keys():
+                    yield Label(Text(labels[key]), classes="form-label", id="l-" + fid(key))
+                    yield OrderedInput(self.values.get(key, ""), id=fid(key), compact=True,
+                                placeholder="a, b, c" if key.endswith("size") or key.endswith("axes") else "")
             yield Static("", id="form-message")
-            yield Static("", id="form-preview")
             with Horizontal(id="form-buttons"):
                 yield Button("Apply", id="form-apply", variant="primary", compact=True)
                 yield Button("Cancel", id="form-cancel", compact=True)
+            yield Static("", id="form-preview")
 
-    async def on_mount(self) -> None:
-        await self._shape_inputs(self.start["kind"])
-        self.query_one("#" + fid("id" if self.original is None else "mass"), Input).focus()
+    def on_mount(self) -> None:
+        self._show_shape(self.start["kind"])
         self.check()
 
-    async def _shape_inputs(self, kind: str) -> None:
-        grid = self.query_one("#shape-grid", Grid)
-        await grid.remove_children()
-        unit = pretty_unit(self.ledger.units.inertia if kind == GIVEN_INERTIA else self.ledger.units.length)
-        widgets = []
-        for key, label in shape_fields(kind):
-            widgets.append(Label(Text(f"{label} [{unit}]"), classes="form-label"))
-            widgets.append(Input(self.values.get(key, ""), id=fid(key), compact=True,
-                                 placeholder="a, b, c" if key.endswith("size") or key.endswith("axes") else ""))
-        grid.display = bool(widgets)
-        if widgets:
-            await grid.mount_all(widgets)
+    def _show_shape(self, kind: str) -> None:
+        shown = {key for key, _ in shape_fields(kind)}
+        for key in shape_keys():
+            visible = key in shown
+            self.query_one("#" + fid(key), Input).display = visible
+            self.query_one("#l-" + fid(key), Label).display = visible
+        self.query_one("#shape-grid", Grid).display = bool(shown)
 
     # ----------------------------------------------------------------- check
     def fields(self) -> dict[str, str]:
@@ -111,30 +133,42 @@ class ItemForm(ModalScreen[FormResult | None]):
         out["variable"] = str(self.query_one("#f-variable", Select).value)
         return out
 
-    def check(self) -> None:
-        """Rebuild the item from the fields; show the first problem, or the preview."""
-        for w in self.query(Input):
-            w.remove_class("bad")
-        message = self.query_one("#form-message", Static)
-        preview = self.query_one("#form-preview", Static)
+    def check(self, *, wait: bool = False) -> None:
+        """Check the fields at once (the ✓ / ✗ line follows every keystroke); then the whole edit.
+
+        The fields are parsed here, in microseconds. Building the edited
+        ledger, checking its loadouts and rolling it up for the preview takes
+        a fraction of a second on a ledger of 100,000 items, so there it runs
+        in a thread (the newest keystroke wins) instead of holding up the
+        next key; `wait` (Apply) runs it here so Apply sees this very text.
+        """
+        self._generation += 1
         fields = self.fields()
         try:
             item = item_from_fields(fields, self.original, self.ledger)
+        except SteelyardError as exc:
+            self._show_problem(exc)
+            return
+        self._show_problem(None)
+        self.result = None
+        if wait or len(self.ledger.items) <= SYNC_ITEMS:
+            self._finish(self._generation, self._whole_edit(fields, item))
+            return
+        self.query_one("#form-message", Static).update("✓ all fields valid (checking loadouts, preview…)")
+        gen = self._generation
+        self.run_worker(lambda: self.app.call_from_thread(self._finish, gen, self._whole_edit(fields, item)),
+                        thread=True, exclusive=True, group="form-preview", exit_on_error=False)
+
+    def _whole_edit(self, fields: dict[str, str], item: Item):
+        """(result, preview) or the SteelyardError: no widgets touched, so it may run in a thread."""
+        try:
             if self.original is None:
                 new = add_item(self.ledger, item)
             else:
                 new = replace_item(self.ledger, self.original.id, item)
             check_loadouts(new, item)
         except SteelyardError as exc:
-            self.result, self.problem = None, exc
-            target = self.query(f"#{fid(exc.field)}") if exc.field else None
-            if target:
-                target.first().add_class("bad")
-            where = f"{exc.field}: " if exc.field else ""
-            message.update(literal(f"✗ {where}{exc.message}", style="bold"))
-            preview.update("")
-            return
-        self.problem = None
+            return exc
         changed = [k for k in fields if fields[k].strip() != self.start.get(k, "").strip()]
         if self.original is None:
             summary = f"added {item.id}"
@@ -143,10 +177,35 @@ class ItemForm(ModalScreen[FormResult | None]):
         else:
             summary = f"edited {self.original.id}: " + "; ".join(
                 f"{k} {self.start.get(k, '') or '—'} → {fields[k] or '—'}" for k in changed)
-        self.result = FormResult(new, item, "add" if self.original is None else "edit", summary) if (
+        result = FormResult(new, item, "add" if self.original is None else "edit", summary) if (
             self.original is None or changed) else None
-        message.update("✓ all fields valid" + ("" if self.result else " (nothing changed yet)"))
-        preview.update(self.preview(new))
+        return result, self.preview(new)
+
+    def _finish(self, generation: int, outcome) -> None:
+        if generation != self._generation:
+            return  # the fields changed since: a newer check is on its way
+        if isinstance(outcome, SteelyardError):
+            self._show_problem(outcome)
+            return
+        self.result, preview = outcome
+        self.query_one("#form-message", Static).update(
+            "✓ all fields valid" + ("" if self.result else " (nothing changed yet)"))
+        self.query_one("#form-preview", Static).update(preview)
+
+    def _show_problem(self, exc: SteelyardError | None) -> None:
+        """Mark the field to blame and say what is wrong, by the label the form shows; None clears."""
+        for w in self.query(".bad"):
+            w.remove_class("bad")
+        self.problem = exc
+        if exc is None:
+            return
+        self.result = None
+        target = self.query(f"#{fid(exc.field)}") if exc.field else None
+        if target:
+            target.first().add_class("bad")
+        where = f"{self.labels.get(exc.field, exc.field)}: " if exc.field else ""
+        self.query_one("#form-message", Static).update(literal(f"✗ {where}{exc.message}", style="bold"))
+        self.query_one("#form-preview", Static).update("")
 
     @on(Input.Changed)
     def _changed(self, event: Input.Changed) -> None:
@@ -156,8 +215,8 @@ class ItemForm(ModalScreen[FormResult | None]):
         self.check()
 
     @on(Select.Changed, "#f-kind")
-    async def _kind(self, event: Select.Changed) -> None:
-        await self._shape_inputs(str(event.value))
+    def _kind(self, event: Select.Changed) -> None:
+        self._show_shape(str(event.value))
         self.check()
 
     @on(Select.Changed, "#f-axis")
@@ -169,7 +228,7 @@ class ItemForm(ModalScreen[FormResult | None]):
     @on(Input.Submitted)
     @on(Button.Pressed, "#form-apply")
     def action_apply(self) -> None:
-        self.check()
+        self.check(wait=True)
         if self.result is not None:
             self.dismiss(self.result)
         elif self.problem is None:

@@ -23,6 +23,7 @@ from steelyard.core.loading.loadout import amount_fraction
 from steelyard.core.document.model import Amount, Ledger
 from steelyard.io.ledger.read import read_amount
 from steelyard.tui.text import clean, literal
+from steelyard.tui.widgets.ordered_input import OrderedInput
 
 NONE_ID = "\x00none"
 
@@ -82,7 +83,7 @@ class LoadoutScreen(ModalScreen[None]):
             yield OptionList(id="loadouts")
             yield Static("", id="amounts-title")
             yield OptionList(id="amounts")
-            yield Input(id="amount-input", compact=True,
+            yield OrderedInput(id="amount-input", compact=True,
                         placeholder="0.75 · 75% · 82 kg · 16 gal · empty for none")
             yield Static("", id="amount-message")
             yield Static("", id="loadout-summary")

@@ -29,12 +29,20 @@ VIEWS = ("ledger", "totals", "envelopes", "log")
 SORT_WORDS = {"file": "file order"}
 
 
+def _scoped(action: str) -> str:
+    return action if action.split("(")[0] in VIEW_ACTIONS else f"app.{action}"
+
+
 def _bindings() -> list[Binding]:
     out = []
     for keys, action, label, show, text in MAIN_KEYS:
-        scoped = action if action.split("(")[0] in VIEW_ACTIONS else f"app.{action}"
-        out.append(Binding(keys, scoped, label, show=show, tooltip=text))
+        out.append(Binding(keys, _scoped(action), label, show=show, tooltip=text))
     out.append(Binding("escape", "leave_filter", "Back", show=False))
+    # The same keys once more as priority bindings, so they run in the order keys arrive (see at_once);
+    # the plain ones above still serve keys check_action leaves to a focused input (ctrl+s in the filter).
+    for keys, action, _label, _show, _text in MAIN_KEYS:
+        out.append(Binding(keys, f'at_once("{_scoped(action)}")', show=False, priority=True))
+    out.append(Binding("enter", 'at_once("activate_row")', show=False, priority=True))
     return out
 
 
@@ -126,6 +134,36 @@ class MainScreen(Screen):
         if s.read_only:
             parts.insert(0, "READ-ONLY")
         self.query_one("#status-line", Static).update(Text(" · ".join(parts)))
+
+    # ----------------------------------------------------------- keys in order
+    def check_action(self, action: str, parameters: tuple) -> bool | None:
+        if action == "at_once":
+            if parameters and parameters[0] == "activate_row":
+                return isinstance(self.focused, LedgerTable)
+            return not isinstance(self.focused, Input)  # letters typed into the filter are text
+        return True
+
+    async def action_at_once(self, action: str) -> None:
+        """Run a main-screen key as it arrives, before the keys typed after it are routed.
+
+        A plain binding runs only once its key has bubbled up from the table,
+        and by then the keys typed after it have already been sent to the
+        table, where they are lost or taken as commands. A priority binding
+        runs in arrival order, and a key that opens a form awaits its mount
+        (app.action_add), so the next key lands in the form's first field.
+        """
+        await self.run_action(action)
+
+    async def action_activate_row(self) -> None:
+        """Enter on the table: fold a group row, or open the item form (awaited, as `a` is)."""
+        table = self.table
+        if not len(table.rows):
+            return
+        ref = int(table.rows[table.cursor])
+        if ref < 0:
+            table.action_fold()
+        else:
+            await self.app.edit_item(table.ledger.items[ref].id)
 
     # ----------------------------------------------------------- view state
     def action_view(self, name: str) -> None:

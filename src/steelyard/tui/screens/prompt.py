@@ -10,12 +10,16 @@ from textual.screen import ModalScreen
 from textual.widgets import Input, Static
 
 from steelyard.tui.text import clean
+from steelyard.tui.widgets.ordered_input import OrderedInput
 
 
 class TextPrompt(ModalScreen[str | None]):
     """Enter answers (the text, stripped), Escape gives None."""
 
-    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+    # Tab as a priority binding moves focus in the order keys arrive (see item_form)
+    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+                Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
+                Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
     def __init__(self, title: str, value: str = "", *, hint: str = "", placeholder: str = "") -> None:
         super().__init__()
@@ -26,7 +30,7 @@ class TextPrompt(ModalScreen[str | None]):
             yield Static(Text(self.heading, style="bold"), classes="dialog-title")
             if self.hint:
                 yield Static(Text(clean(self.hint), style="dim"), classes="dialog-text")
-            yield Input(self.value, placeholder=self.placeholder, id="prompt-input")
+            yield OrderedInput(self.value, placeholder=self.placeholder, id="prompt-input")
             yield Static("Enter to accept, Escape to cancel", classes="dialog-text")
 
     def on_mount(self) -> None:

@@ -24,6 +24,7 @@ from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Ledger
 from steelyard.io.report.weighing import Weighing, weighing_summary
 from steelyard.tui.text import clean, literal
+from steelyard.tui.widgets.ordered_input import OrderedInput
 from steelyard.tui.state.weighing_values import (ADJUST_FIELDS, POINT_FIELDS, WeighingFields, fields_from_table, reduce_fields,
                               result_text, weighed)
 
@@ -41,7 +42,10 @@ class WeighingDone:
 
 
 class WeighingForm(ModalScreen[WeighingDone | None]):
-    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+    # Tab as a priority binding moves focus in the order keys arrive (see item_form)
+    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+                Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
+                Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
     def __init__(self, ledger: Ledger) -> None:
         super().__init__()
@@ -69,9 +73,9 @@ class WeighingForm(ModalScreen[WeighingDone | None]):
                     yield Button(ADD_LABEL[kind], id=f"weigh-add-{kind}", compact=True, classes="weigh-add")
                 with Grid(id="weigh-more"):
                     yield Label("replaces (item id)", classes="form-label")
-                    yield Input(self.fields.replaces or "", id="weigh-replaces", compact=True)
+                    yield OrderedInput(self.fields.replaces or "", id="weigh-replaces", compact=True)
                     yield Label(f"vertical CG [{lu}]", classes="form-label")
-                    yield Input(self.fields.vertical_cg, id="weigh-vertical", compact=True,
+                    yield OrderedInput(self.fields.vertical_cg, id="weigh-vertical", compact=True,
                                 placeholder="optional")
             yield Static("", id="weigh-message")
             yield Static("", id="weigh-result")
@@ -93,7 +97,7 @@ class WeighingForm(ModalScreen[WeighingDone | None]):
     def _row_widgets(self, kind: str, row: int):
         values = self.fields.rows(kind)[row]
         for key in (POINT_FIELDS if kind == "point" else ADJUST_FIELDS):
-            yield Input(values.get(key, ""), id=f"w-{kind}-{row}-{key}", compact=True)
+            yield OrderedInput(values.get(key, ""), id=f"w-{kind}-{row}-{key}", compact=True)
         if kind == "point":
             yield Static("", id=f"w-point-{row}-net", classes="weigh-net")
 

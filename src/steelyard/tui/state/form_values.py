@@ -82,6 +82,24 @@ def shape_fields(kind: str) -> list[tuple[str, str]]:
     return [(f"dim.{p}", p.replace("_", " ")) for p in spec]
 
 
+def shape_keys() -> list[str]:
+    """Every shape and inertia field key, ordered so each kind's own fields keep their order.
+
+    The form builds one input per key up front and shows a kind's subset; a
+    key shared by kinds (radius, length) is one input, keeping its text.
+    """
+    order: list[str] = []
+    for kind in kinds():
+        at = -1
+        for key, _ in shape_fields(kind):
+            if key in order:
+                at = order.index(key)
+            else:
+                at += 1
+                order.insert(at, key)
+    return order
+
+
 def quantity(text: str, dim: str, file_unit: str, field: str) -> tuple[float, str | None]:
     """SI value of one field, and the unit the user wrote (kept on save), if a single one."""
     s = text.strip()

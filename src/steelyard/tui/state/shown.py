@@ -76,8 +76,14 @@ def margin_words(r: EnvelopeResult, frame: Frame, du: DisplayUnits) -> str:
     return f"{amount} to {side} limit" if r.margin >= 0 else f"{amount} PAST {side} limit"
 
 
-def envelope_line(r: EnvelopeResult, frame: Frame, du: DisplayUnits) -> str:
+#: an envelope whose conditions / loadouts / sequences leave this state out (as `steelyard check` says)
+NOT_APPLICABLE = "does not apply to this loadout"
+
+
+def envelope_line(r: EnvelopeResult, frame: Frame, du: DisplayUnits, applies: bool = True) -> str:
     """One envelope in a few words for the ledger view's summary."""
+    if not applies:
+        return f"{r.name}: {NOT_APPLICABLE}"
     if r.lo is None:
         return f"{r.name} OUTSIDE: the mass is outside its range"
     return f"{r.name} {status_word(r)} {margin_words(r, frame, du)}"

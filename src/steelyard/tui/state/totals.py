@@ -1,6 +1,7 @@
 """What the panels show for one ledger under one loadout, and an edit's effect from two of them.
 
-Every number is core's (`resolve`, `rollup_state`, `envelope_results`); a
+Every number is core's (`resolve`, `rollup_state`, `envelope_results`, and
+`check_rollup` for what applies: the same scope rules as `steelyard check`); a
 loadout that cannot be applied becomes `Totals.error` instead of an exception.
 """
 
@@ -13,7 +14,8 @@ from steelyard.core.errors import SteelyardError
 from steelyard.core.loading.loadout import State, resolve
 from steelyard.core.document.model import Ledger
 from steelyard.core.physics.rollup import MassProperties, rollup_state
-from steelyard.core.limits.status import EnvelopeResult, envelope_results
+from steelyard.core.limits.checks import Finding, StateCheck, check_rollup
+from steelyard.core.limits.status import EnvelopeResult, RoomLeft, envelope_results, room_left
 
 
 @dataclass(frozen=True)
@@ -25,6 +27,24 @@ class Totals:
     mp: MassProperties | None
     envelopes: tuple[EnvelopeResult, ...]
     error: str | None = None  # why the loadout cannot be applied
+    check: StateCheck | None = None  # every envelope and [[limit]] against this state, scoped as `check` does
+    room: RoomLeft | None = None  # mass that can still be added at the CG, and what binds
+
+    def finding(self, kind: str, name: str) -> Finding | None:
+        """This state's finding for one envelope (kind "envelope") or limit, or None."""
+        if self.check is None:
+            return None
+        return next((f for f in self.check.findings if f.kind == kind and f.name == name), None)
+
+    def applies(self, envelope: str) -> bool:
+        """Whether the envelope's scope takes in this loadout (True when unknown)."""
+        f = self.finding("envelope", envelope)
+        return f is None or f.applies
+
+    @property
+    def limits(self) -> tuple[Finding, ...]:
+        """The [[limit]] findings (applicable or not) of this state."""
+        return () if self.check is None else tuple(f for f in self.check.findings if f.kind != "envelope")
 
 
 def effect_of(before: Totals, after: Totals) -> Effect | None:
@@ -50,6 +70,7 @@ def compute_totals(ledger: Ledger, loadout: str | None) -> Totals:
         state = resolve(ledger, loadout)
         mp = rollup_state(state)
         envelopes = tuple(envelope_results(ledger, mp))  # refuses a roll-up that overflowed, naming the item
+        check = check_rollup(ledger, loadout, mp)
     except SteelyardError as exc:
         return Totals(loadout, None, None, (), str(exc))
-    return Totals(loadout, state, mp, envelopes)
+    return Totals(loadout, state, mp, envelopes, check=check, room=room_left(check.findings))

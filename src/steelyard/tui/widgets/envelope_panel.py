@@ -1,6 +1,8 @@
 """The envelopes view: status and margins in words and numbers, the chart, the caution.
 
-Status is always written out (INSIDE / OUTSIDE, which limit, how far); the
+Status is always written out (INSIDE / OUTSIDE, which limit, how far; an
+envelope or limit whose scope leaves the loadout out says so, as `check`
+does), then the [[limit]]s and the room left; the
 chart repeats it as a picture. `ChartExtras` (computed off-thread, see
 `chart_extras`) adds the active loadout's burn or drop sequences (the path
 and its least-margin state) and the 2σ CG uncertainty region.
@@ -16,14 +18,15 @@ from textual.widgets import Static
 from steelyard.core.caution import CAUTION
 from steelyard.core.display import AXIS_NAMES, DisplayUnits, fmt, pretty_unit
 from steelyard.core.errors import SteelyardError
-from steelyard.core.limits.rules import envelope_points
+from steelyard.core.limits.limit_words import limit_line, room_line, scope_words
+from steelyard.core.limits.rules import envelope_points, envelope_specs
 from steelyard.core.document.model import Ledger
 from steelyard.core.physics.rollup import MassProperties
 from steelyard.core.limits.status import AXIS_INDEX
 from steelyard.tui.widgets.chart import EnvelopeChart
 from steelyard.tui.widgets.chart_extras import REGION_SIGMAS, ChartExtras
 from steelyard.tui.state.session import Totals
-from steelyard.tui.state.shown import axis_label, limit_words, margin_words, status_word
+from steelyard.tui.state.shown import NOT_APPLICABLE, axis_label, limit_words, margin_words, status_word
 from steelyard.tui.text import clean
 
 
@@ -34,11 +37,20 @@ def status_text(totals: Totals, ledger: Ledger, du: DisplayUnits) -> Text:
         return t
     if not ledger.envelopes:
         t.append("This ledger has no CG envelopes.")
+        for f in totals.limits:
+            t.append("\n" + clean(limit_line(f, du)))
+        if totals.limits:
+            t.append("\n" + clean(room_line(totals.room, du)), style="bold")
         return t
     lu, mu = pretty_unit(du.length), pretty_unit(du.mass)
+    scopes = _scopes(ledger)
     for r in totals.envelopes:
         t.append(clean(r.name), style="bold")
         t.append(f" ({r.axis}): ")
+        if not totals.applies(r.name):
+            t.append(NOT_APPLICABLE, style="bold")
+            t.append(clean(f" (it limits {scope_words(scopes.get(r.name))} only)") + "\n")
+            continue
         t.append(status_word(r), style="bold")
         t.append(f" — CG {du.num(r.cg, 'length')} {lu}; ")
         if r.lo is None:
@@ -48,9 +60,20 @@ def status_text(totals: Totals, ledger: Ledger, du: DisplayUnits) -> Text:
             t.append(f"limits {lo_w} {du.num(r.lo, 'length')} / {hi_w} {du.num(r.hi, 'length')} {lu}; ")
             t.append(margin_words(r, ledger.frame, du))
         if r.mass_margin is not None:
-            t.append(f"; {du.num(r.mass_margin, 'mass')} {mu} more before the mass limit")
+            t.append(f"; {du.num(r.mass_margin, 'mass')} {mu} more at this CG before its top")
         t.append("\n")
+    for f in totals.limits:
+        t.append(clean(limit_line(f, du)) + "\n")
+    t.append(clean(room_line(totals.room, du)), style="bold")
     return t
+
+
+def _scopes(ledger: Ledger) -> dict:
+    """Each envelope's scope tags (None: every state), as the check reads them."""
+    try:
+        return {e.name: e.applies_to for e in envelope_specs(ledger)}
+    except SteelyardError:
+        return {}
 
 
 def sequence_text(extras: ChartExtras | None, choice: int, env_name: str | None, du: DisplayUnits) -> Text:

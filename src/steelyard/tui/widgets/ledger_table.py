@@ -45,6 +45,30 @@ def _fit(text: str, width: int, right: bool = False) -> str:
     return (" " * pad + text) if right else (text + " " * pad)
 
 
+#: the id, name and group columns never get narrower than these
+MIN_ID, MIN_NAME, MIN_GROUP = 8, 10, 8
+#: nor wider than these: past them a long text is cut rather than squeezing the others
+MAX_ID, MAX_GROUP = 28, 28
+
+
+def share_text_width(room: int, id_len: int, name_len: int, group_len: int, show_group: bool) -> tuple[int, int, int]:
+    """(id, group, name) widths from `room` cells: id and group as wide as their longest text first.
+
+    The name column takes what is left, so spare width never sits in the
+    name while an id or group is cut; when room is short, id and group give
+    back cells (the wider first) until the name has its minimum.
+    """
+    id_w = max(MIN_ID, min(MAX_ID, id_len, room))
+    group_w = max(MIN_GROUP, min(MAX_GROUP, group_len)) if show_group else 0
+    while room - id_w - group_w < MIN_NAME and (id_w > MIN_ID or group_w > MIN_GROUP):
+        if group_w > MIN_GROUP and (group_w >= id_w or id_w <= MIN_ID):
+            group_w -= 1
+        else:
+            id_w -= 1
+    name_w = max(MIN_NAME, room - id_w - group_w)
+    return id_w, group_w, name_w
+
+
 def _num(x: float, width: int, decimals: int = 3) -> str:
     """One cell: the column's decimals (docs/numbers.md); fewer only if the number would not fit."""
     for digits in range(decimals, -1, -1):
@@ -91,6 +115,8 @@ class LedgerTable(ScrollView, can_focus=True):
         self.cursor = 0
         self.rows = np.zeros(0, np.int64)
         self.ledger: Ledger | None = None
+        self._widths_key: tuple | None = None
+        self._widths = (12, 20, 14)
         self.mass = np.zeros(0)
         self.cg = np.zeros((0, 3))
         self.fill = np.zeros(0)
@@ -197,13 +223,28 @@ class LedgerTable(ScrollView, can_focus=True):
         show_group = not self.spec.grouped or width >= 110
         fixed = [Column("qty", "qty", 4), Column("mass", f"mass {mu}", 9), Column("x", f"x {lu}", 8),
                  Column("y", f"y {lu}", 7), Column("z", f"z {lu}", 7), Column("moment", f"Mx {mom}", 10)]
-        group_w = 14 if show_group else 0
         seps = len(fixed) + (3 if show_group else 2) - 1
-        name_w = max(10, width - 12 - group_w - sum(c.width for c in fixed) - seps)
-        cols = [Column("id", "id", 12, False), Column("name", "name", name_w, False)]
+        room = width - sum(c.width for c in fixed) - seps
+        id_w, group_w, name_w = share_text_width(room, *self._text_widths(), show_group)
+        cols = [Column("id", "id", id_w, False), Column("name", "name", name_w, False)]
         if show_group:
             cols.append(Column("group", "group", group_w, False))
         return cols + fixed
+
+    def _text_widths(self) -> tuple[int, int, int]:
+        """Widest id (with its indent when grouped), name and group of this ledger, once per ledger."""
+        ledger = self.ledger
+        if ledger is None:
+            return 12, 20, 14
+        key = (id(ledger.items), self.spec.grouped, len(self.groups))
+        if self._widths_key != key:
+            items = ledger.items
+            indent = max((g.depth for g in self.groups), default=-1) + 1 if self.spec.grouped else 0
+            self._widths = (max(map(len, (it.id for it in items)), default=2) + indent,
+                            max(map(len, (it.name for it in items)), default=4),
+                            max(map(len, (it.group for it in items)), default=5))
+            self._widths_key = key
+        return self._widths
 
     def _total_width(self) -> int:
         cols = self.columns()
