@@ -69,7 +69,7 @@ class EditFlows:
             self.edit_item(item_id)
 
     def edit_item(self, item_id: str) -> None:
-        if self._may_edit():
+        if self._may_edit() and not self.refuse_placed(item_id):
             item = self.session.ledger.item(item_id)
             self.push_screen(ItemForm(self.session.ledger, item, self._preview), self._form_done)
 
@@ -87,12 +87,14 @@ class EditFlows:
         item_id = self._current()
         if item_id is None or not self._may_edit():
             return
+        if self.refuse_placed(item_id):
+            return
         new, copy = duplicate_item(self.session.ledger, item_id)
         self._apply(new, action="duplicate", item=copy.id, summary=f"duplicated {item_id} as {copy.id}")
 
     def action_delete(self) -> None:
         item_id = self._current()
-        if item_id is None or not self._may_edit():
+        if item_id is None or not self._may_edit() or self.refuse_placed(item_id):
             return
 
         def done(answer: str | None) -> None:
@@ -105,7 +107,7 @@ class EditFlows:
 
     def action_move(self) -> None:
         item_id = self._current()
-        if item_id is None or not self._may_edit():
+        if item_id is None or not self._may_edit() or self.refuse_placed(item_id):
             return
         old = self.session.ledger.item(item_id).group
 

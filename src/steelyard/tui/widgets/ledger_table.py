@@ -23,6 +23,7 @@ from textual.strip import Strip
 from steelyard.core.display import DisplayUnits, fmt, pretty_unit
 from steelyard.core.physics.groups import GroupTotal
 from steelyard.core.document.model import Ledger
+from steelyard.tui.state.assembly import file_stem, group_files, placed_mark
 from steelyard.tui.state.rows import SORT_KEYS, LedgerIndex, RowSpec, build_rows, ungrouped_label
 from steelyard.tui.text import clean
 
@@ -176,8 +177,9 @@ class LedgerTable(ScrollView, can_focus=True):
                  Column("y", f"y {lu}", 7), Column("z", f"z {lu}", 7), Column("moment", f"Mx {mom}", 10)]
         group_w = 14 if show_group else 0
         seps = len(fixed) + (3 if show_group else 2) - 1
-        name_w = max(10, width - 12 - group_w - sum(c.width for c in fixed) - seps)
-        cols = [Column("id", "id", 12, False), Column("name", "name", name_w, False)]
+        id_w = 16 if self.ledger is not None and self.ledger.placed else 12  # full ids of placed items
+        name_w = max(10, width - id_w - group_w - sum(c.width for c in fixed) - seps)
+        cols = [Column("id", "id", id_w, False), Column("name", "name", name_w, False)]
         if show_group:
             cols.append(Column("group", "group", group_w, False))
         return cols + fixed
@@ -243,7 +245,8 @@ class LedgerTable(ScrollView, can_focus=True):
         qty = f"×{it.quantity}" if it.quantity != 1 else ""
         if it.variable:
             qty = f"{self.fill[i] * 100:.0f}%"
-        texts = {"id": " " * depth + clean(it.id), "name": clean(it.name), "group": clean(it.group), "qty": qty}
+        name = clean(it.name) if it.source is None else placed_mark(self.ledger, it) + clean(it.name)
+        texts = {"id": " " * depth + clean(it.id), "name": name, "group": clean(it.group), "qty": qty}
         texts.update(self._numbers(float(self.mass[i]), self.cg[i], widths))
         return self._cells(texts)
 
@@ -252,7 +255,9 @@ class LedgerTable(ScrollView, can_focus=True):
         cols = self.columns()
         widths = {c.key: c.width for c in cols}
         mark = "▸" if gt.path in self.spec.folded else "▾"
-        label = f"{' ' * gt.depth}{mark} {clean(ungrouped_label(gt.path.rsplit('/', 1)[-1]))} ({gt.count})"
+        placed = group_files(self.ledger).get(gt.path) if self.ledger is not None and self.ledger.placed else None
+        file = f" ‹{clean(file_stem(placed))}›" if placed is not None else ""  # a placement: its file
+        label = f"{' ' * gt.depth}{mark} {clean(ungrouped_label(gt.path.rsplit('/', 1)[-1]))}{file} ({gt.count})"
         texts = self._numbers(gt.mass, gt.cg, widths)
         lead = widths["id"] + 1 + widths["name"] + (1 + widths["group"] if "group" in widths else 0)
         rest = " ".join(_fit(texts.get(c.key, ""), c.width, c.right) for c in cols
