@@ -61,6 +61,7 @@ class Session:
         #: placed files saved since they were read (file as placed -> (resolved ledger, sha256)):
         #: an undo or redo to a ledger made before that save places them again (`placed_fresh`)
         self.fresh_files: dict = {}
+        self._saved_pair: tuple | None = None  # (saved ledger before a placed file's save, after)
 
     # ---------------------------------------------------------------- state
     @property
@@ -222,8 +223,12 @@ class Session:
         if self.fresh_files:
             from steelyard.tui.state.assembly import stale_files
 
-            fresh = stale_files(self.history.ledger, self.fresh_files)
-            if fresh is not self.history.ledger:
+            old = self.history.ledger
+            if self._saved_pair is not None and old is self._saved_pair[0]:
+                fresh = self._saved_pair[1]  # back at the ledger as saved: so it shows again
+            else:
+                fresh = stale_files(old, self.fresh_files)
+            if fresh is not old:
                 self.history.reseat(fresh)
 
     def placed_file_saved(self, file: str, child: Ledger, sha256: str) -> None:
@@ -237,10 +242,12 @@ class Session:
         clean = self.saved is self.history.ledger
         new = replaced_file(self.history.ledger, file, child, sha256)
         self.history.reseat(new)
+        old_saved = self.saved
         if clean:
             self.saved = new
         elif any(q.file == file for q in self.saved.placed):
             self.saved = replaced_file(self.saved, file, child, sha256)
+        self._saved_pair = (old_saved, self.saved)
 
     def _known_effect(self, old: Ledger, new: Ledger, loadout: str | None) -> Effect | None:
         """The effect from remembered roll-ups of both sides; None (History computes it) otherwise."""
