@@ -245,8 +245,41 @@ def placement_removed(ledger: Ledger, assembly_id: str) -> Ledger:
 
 
 def replaced_file(ledger: Ledger, file: str, child: Ledger, sha256: str) -> Ledger:
-    """`ledger` with every placement of `file` made from its saved contents (no re-read)."""
-    return with_placed_file(ledger, file, child, sha256)
+    """`ledger` with every placement of `file` made from its saved contents (no re-read).
+
+    The per-row tank-table cache follows the splice (rows outside it shifted,
+    rows inside read again), as it follows a one-row edit: a rescan of
+    100,000 items would cost more than the whole splice.
+    """
+    new = with_placed_file(ledger, file, child, sha256)
+    cached = ledger.__dict__.get("_tank_tables")
+    if cached is not None and new is not ledger:
+        new.__dict__["_tank_tables"] = _tables_moved(cached, ledger, new, file)
+    return new
+
+
+def _tables_moved(cached: dict, old: Ledger, new: Ledger, file: str) -> dict:
+    from dataclasses import replace
+
+    from steelyard.core.loading.tank import read_table
+
+    before = sorted((q.start, q.stop) for q in top_placements(old) if q.file == file)
+    after = sorted((q.start, q.stop) for q in top_placements(new) if q.file == file)
+    tables = {}
+    for i, table in cached.items():
+        shift = 0
+        for (a, b), (c, d) in zip(before, after):
+            if a <= i < b:
+                break
+            if i >= b:
+                shift += (d - c) - (b - a)
+        else:
+            tables[i + shift] = table if shift == 0 else replace(table, row=i + shift)
+    for c, d in after:
+        for r in range(c, d):
+            if new.items[r].cg_table is not None:
+                tables[r] = read_table(new, r)
+    return tables
 
 
 def stale_files(ledger: Ledger, fresh: dict[str, tuple[Ledger, str]]) -> Ledger:
