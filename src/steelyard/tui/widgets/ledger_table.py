@@ -53,6 +53,18 @@ def _num(x: float, width: int) -> str:
     return f"{x:.{max(width - 6, 1)}e}"
 
 
+def _marked(mark: str, name: str, width: int) -> str:
+    """A placed row's name cell: its file's mark always whole (the name gives way first)."""
+    if cell_len(mark) + cell_len(name) <= width:
+        return mark + name
+    if cell_len(mark) + 2 <= width:
+        return mark + set_cell_size(name, width - cell_len(mark) - 1) + "…"
+    bare = mark.strip()
+    if cell_len(bare) <= width:
+        return bare
+    return set_cell_size(bare, max(width - 2, 1)) + "…›"
+
+
 class LedgerTable(ScrollView, can_focus=True):
     """Items and group subtotals; the cursor row is reversed, never only coloured."""
 
@@ -245,7 +257,8 @@ class LedgerTable(ScrollView, can_focus=True):
         qty = f"×{it.quantity}" if it.quantity != 1 else ""
         if it.variable:
             qty = f"{self.fill[i] * 100:.0f}%"
-        name = clean(it.name) if it.source is None else placed_mark(self.ledger, it) + clean(it.name)
+        name = clean(it.name) if it.source is None else _marked(placed_mark(self.ledger, it), clean(it.name),
+                                                               widths["name"])
         texts = {"id": " " * depth + clean(it.id), "name": name, "group": clean(it.group), "qty": qty}
         texts.update(self._numbers(float(self.mass[i]), self.cg[i], widths))
         return self._cells(texts)
