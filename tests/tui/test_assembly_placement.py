@@ -117,3 +117,37 @@ async def test_bad_placements_show_a_message_and_change_nothing(tmp_path):
         await pilot.press("escape")
         await settle(pilot, app)
         assert s.ledger is before and not s.history.can_undo and J.pending(path) is None
+
+
+async def test_a_placement_left_unsaved_is_restored_from_the_journal(tmp_path):
+    from steelyard.tui.screens.restore_screen import RestoreScreen
+
+    path = copy_tree(tmp_path)
+    async with editor(path) as (app, pilot):  # a session that adds a placement, then is gone unsaved
+        await settle(pilot, app)
+        await _form(app, pilot)
+        for field, text in (("a-id", "pod-tail"), ("a-file", "pods/lift-pod.toml"), ("a-x", "1.5"),
+                            ("a-z", "0.12"), ("a-rotate", "z 180")):
+            await type_into(app, pilot, field, text)
+        await pilot.press("enter")
+        await settle(pilot, app)
+        assert app.session.dirty
+        app.session.close_journal()  # as a killed process would leave it: records kept, file closed
+    assert J.pending(path) is not None
+    async with editor(path, wait=False) as (app, pilot):
+        for _ in range(200):
+            await pilot.pause(0.05)
+            if isinstance(app.screen, RestoreScreen):
+                break
+        assert isinstance(app.screen, RestoreScreen)
+        await pilot.pause(0.3)  # painted
+        assert "placed pods/lift-pod.toml as pod-tail" in " ".join(screen_text(app).split())
+        await pilot.press("enter")  # Restore
+        await settle(pilot, app)
+        s = app.session
+        added = dict(PODS, **{"pod-tail": ((F("1.5"), 0, F("0.12")), None, 180)})
+        assert _same(s.totals().mp, totals(added)) and s.ledger.item("pod-tail/esc").source == "pod-tail"
+        assert (s.log[-1].action, s.log[-1].item) == ("assembly", "pod-tail")
+        await pilot.press("ctrl+z")
+        await settle(pilot, app)
+        assert _same(s.totals().mp, totals()) and not s.dirty
