@@ -19,6 +19,7 @@ from textual.screen import Screen
 
 from steelyard.core.errors import SteelyardError
 from steelyard.tui.widgets.chart_extras import ChartExtras, chart_extras
+from steelyard.tui.flows.assembly import AssemblyFlows
 from steelyard.tui.flows.compare import CompareFlows
 from steelyard.tui.flows.edit import EditFlows
 from steelyard.tui.flows.file import FileFlows, groups_of
@@ -56,11 +57,15 @@ PALETTE = (
     ("Next sequence", "chart the next burn or drop sequence of this loadout", "view-action:sequence"),
     ("Filter items", "filter the table by text", "view-action:filter"),
     ("Sort", "sort the table by the next column", "view-action:sort"),
+    ("Open placed file", "open the file a placement places here, in place (Backspace: back)", "open_assembly"),
+    ("Back to the parent file", "leave the placed file opened here", "back"),
+    ("Placements", "add, move or remove a placement of another ledger file ([[assembly]])", "placement"),
     ("Help: keys", "every key of the editor", "help"),
 )
 
 
-class SteelyardApp(SetupFlows, RevisionFlows, FileFlows, EditFlows, JournalFlows, CompareFlows, App[int]):
+class SteelyardApp(AssemblyFlows, SetupFlows, RevisionFlows, FileFlows, EditFlows, JournalFlows, CompareFlows,
+                   App[int]):
     CSS_PATH = "app.tcss"
     TITLE = "steelyard"
     SUB_TITLE = "steelyard"
@@ -138,7 +143,7 @@ class SteelyardApp(SetupFlows, RevisionFlows, FileFlows, EditFlows, JournalFlows
 
     def update_title(self) -> None:
         if self.session is not None:
-            self.title = self.session.title()
+            self.title = self.session.title() + self.assembly_trail()
 
     @work(thread=True, exclusive=True, group="subtotals", description="group subtotals")
     def _subtotals_worker(self, ledger, loadout, state) -> None:

@@ -215,6 +215,11 @@ class History:
         self._ledger = new_ledger
         return change
 
+    def reseat(self, ledger: Ledger) -> None:
+        """Put `ledger` in place of the current one without recording a change: the same file as
+        written, its placed files' rows made again after one of them was saved."""
+        self._ledger = ledger
+
     def undo(self) -> Change | None:
         """Go back one change; returns it, or None when there is nothing of this session to undo."""
         return self._step(self._done, self._undone)

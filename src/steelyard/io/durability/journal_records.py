@@ -9,6 +9,7 @@ from __future__ import annotations
 import datetime as _dt
 
 from steelyard.core.errors import SteelyardError
+from steelyard.io.durability.journal_tree import own_rows, placed_again
 from steelyard.core.loading.loadout_edits import rename_in_loadouts, with_amount
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.document.model import (ENVELOPE_MORE, ITEM_MORE, LOADOUT_MORE, Amount, Envelope, FileUnits, Frame,
@@ -197,9 +198,11 @@ class _Work:
 
     def __init__(self, ledger: Ledger):
         self.ledger = ledger
-        self.items = list(ledger.items)
+        # a tree: records are about the file as written (own items, [[assembly]]); placed rows are re-made
+        self.items = list(own_rows(ledger))
         self.ids = [it.id for it in self.items]
-        self._pos: dict[str, int] | None = dict(ledger.index) if "index" in ledger.__dict__ else None
+        self._pos: dict[str, int] | None = (dict(ledger.index) if "index" in ledger.__dict__ and not ledger.placed
+                                            else None)
         self.loadouts = list(ledger.loadouts)
         self.changes: dict = {}
 
@@ -227,8 +230,11 @@ class _Work:
         del self.items[i], self.ids[i]
         self._pos = None
 
-    def result(self) -> Ledger:
-        new = self.ledger.evolve(items=tuple(self.items), loadouts=tuple(self.loadouts), **self.changes)
+    def result(self, children=None) -> Ledger:
+        led = self.ledger
+        if led.placed or self.changes.get("assemblies", led.assemblies):
+            return placed_again(led, tuple(self.items), self.changes, tuple(self.loadouts), children)
+        new = led.evolve(items=tuple(self.items), loadouts=tuple(self.loadouts), **self.changes)
         if self._pos is not None:
             new.__dict__["index"] = self._pos
         return new
@@ -314,14 +320,25 @@ def _apply(w: _Work, rec: dict) -> None:
                                        u.get("density", more.get("density")))
     elif op == "frame":
         w.changes["frame"] = Frame(rec["frame"]["x"], rec["frame"]["y"], rec["frame"]["z"])
+    elif op == "assemblies":  # the [[assembly]] tables as written, all of them
+        tables = _untag(rec["assemblies"])
+        if not isinstance(tables, list) or not all(isinstance(t, dict) for t in tables):
+            raise ValueError("assemblies must be a list of tables")
+        w.changes["assemblies"] = tuple(tables)
     elif op in ("tables", "extra"):  # "extra": by file name, as earlier versions wrote it
         w.changes.update(_tables_from_json(_untag(rec[op]), whole=op == "extra"))
     elif op != "saved":
         raise ValueError(f"unknown operation {op!r}")
 
 
-def replay(ledger: Ledger, records) -> Ledger:
+def replay(ledger: Ledger, records, *, children=None) -> Ledger:
     """The ledger after applying journal records in order (pure: `ledger` is not changed).
+
+    For a tree (a file with [[assembly]] tables) the records are about the
+    file as written; the placed rows are carried over, or placed again where
+    a placement changed. `children(file)` -> (resolved ledger, sha256) reads
+    a file the ledger does not place yet (a file path relative to the
+    ledger's folder); without it such a record cannot apply.
 
     A record that cannot apply (it deletes an item the ledger does not have,
     say, because the journal belongs to another version of the file) raises
@@ -336,7 +353,11 @@ def replay(ledger: Ledger, records) -> Ledger:
         except (KeyError, TypeError, ValueError, IndexError, AttributeError) as exc:
             why = exc.args[0] if isinstance(exc, KeyError) and exc.args else exc
             raise SteelyardError(f"cannot be applied ({why})", subject=where) from None
-    return w.result()
+    try:
+        return w.result(children)
+    except (KeyError, ValueError) as exc:
+        why = exc.args[0] if isinstance(exc, KeyError) and exc.args else exc
+        raise SteelyardError(f"cannot be applied ({why})", subject="journal") from None
 
 
 # ----------------------------------------------------- edit -> record (diff)
@@ -410,7 +431,9 @@ def edit_record(old: Ledger, new: Ledger, *, change: dict | None = None) -> dict
     plus the changed items. `change` (e.g. the change-log entry: action, item,
     summary, author) is kept with the record for display; `replay` ignores it.
     """
-    ops = _item_ops(old.items, new.items) if old.items is not new.items else []
+    tree = bool(old.placed or new.placed or old.assemblies or new.assemblies)
+    old_items, new_items = (own_rows(old), own_rows(new)) if tree else (old.items, new.items)
+    ops = _item_ops(old_items, new_items) if old_items is not new_items else []
     loadouts = list(old.loadouts)
     for op in ops:  # deletes and renames carry their loadout amounts with them
         if op["op"] == "delete":
@@ -418,6 +441,8 @@ def edit_record(old: Ledger, new: Ledger, *, change: dict | None = None) -> dict
         elif op["op"] == "item" and "old_id" in op:
             loadouts = rename_in_loadouts(loadouts, op["old_id"], op["item"]["id"])
     ops += _loadout_ops(loadouts, new.loadouts)
+    if tuple(new.assemblies) != tuple(old.assemblies):
+        ops.append({"op": "assemblies", "assemblies": _tag([dict(t) for t in new.assemblies])})
     if tuple(new.envelopes) != tuple(old.envelopes):
         ops.append({"op": "envelopes", "envelopes": [_envelope_to_json(e) for e in new.envelopes]})
     if new.units != old.units:
@@ -461,6 +486,8 @@ def describe(record: dict) -> str:
             parts.append(f"{label}: renamed from {_q(op['old_id'])}" if "old_id" in op else f"{label}: set")
         elif kind == "delete":
             parts.append(f"item {_q(op.get('id'))}: deleted")
+        elif kind == "assemblies":
+            parts.append(f"assemblies: {len(op.get('assemblies', []))} placements")
         elif kind == "splice":
             parts.append(f"{len(op.get('items', []))} items replaced at rows {op.get('start')}..{op.get('stop')}")
         elif kind == "amount":

@@ -71,7 +71,7 @@ class EditFlows:
             await self.edit_item(item_id)
 
     async def edit_item(self, item_id: str) -> None:
-        if self._may_edit():
+        if self._may_edit() and not self.refuse_placed(item_id):
             item = self.session.ledger.item(item_id)
             await self.push_screen(ItemForm(self.session.ledger, item, self._preview), self._form_done)
 
@@ -89,12 +89,14 @@ class EditFlows:
         item_id = self._current()
         if item_id is None or not self._may_edit():
             return
+        if self.refuse_placed(item_id):
+            return
         new, copy = duplicate_item(self.session.ledger, item_id)
         self._apply(new, action="duplicate", item=copy.id, summary=f"duplicated {item_id} as {copy.id}")
 
     def action_delete(self) -> None:
         item_id = self._current()
-        if item_id is None or not self._may_edit():
+        if item_id is None or not self._may_edit() or self.refuse_placed(item_id):
             return
 
         def done(answer: str | None) -> None:
@@ -107,7 +109,7 @@ class EditFlows:
 
     async def action_move(self) -> None:
         item_id = self._current()
-        if item_id is None or not self._may_edit():
+        if item_id is None or not self._may_edit() or self.refuse_placed(item_id):
             return
         old = self.session.ledger.item(item_id).group
 

@@ -19,6 +19,7 @@ from steelyard.tui.screens.journal_restore import rebuilt_history
 from steelyard.tui.screens.loading_screen import LoadingScreen
 from steelyard.tui.messages import Restored
 from steelyard.tui.screens.restore_screen import RestoreScreen
+from steelyard.tui.state.assembly import placed_reader
 from steelyard.tui.text import clean
 
 LATER = ("unsaved edits of an earlier session wait in the journal; reopen the file to restore or "
@@ -81,7 +82,8 @@ class JournalFlows:
     @work(thread=True, exclusive=True, group="restore", description="restore unsaved edits")
     def _restore_worker(self, session, state: J.JournalState) -> None:
         try:
-            history = rebuilt_history(session.saved, state.records, author=session.author)
+            history = rebuilt_history(session.saved, state.records, author=session.author,
+                                      children=placed_reader(session.path))
         except SteelyardError as exc:
             self.post_message(Restored(session, state, None, str(exc)))
             return

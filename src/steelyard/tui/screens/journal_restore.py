@@ -102,12 +102,13 @@ def _as_change(rec: dict, n: int) -> dict:
             "loadout": c.get("loadout") if isinstance(c.get("loadout"), str) else None}
 
 
-def rebuilt_history(ledger: Ledger, records: Sequence[dict], *, author: str) -> History:
+def rebuilt_history(ledger: Ledger, records: Sequence[dict], *, author: str, children=None) -> History:
     """The session as it was: `ledger` (as loaded) with every record applied through History.
 
     Raises SteelyardError (from `replay`) when the records cannot be applied.
+    `children(file)` reads a file placed by a restored [[assembly]] edit (see `replay`).
     """
-    final = J.replay(ledger, records)  # the authority; raises on a record that cannot apply
+    final = J.replay(ledger, records, children=children)  # the authority; raises on a record that cannot apply
     history = History(ledger, log=log_from_ledger(ledger))
     for n, rec in enumerate(records, 1):
         c = _as_change(rec, n)
@@ -117,7 +118,7 @@ def rebuilt_history(ledger: Ledger, records: Sequence[dict], *, author: str) -> 
         if c["action"] == "redo" and history.can_redo:
             history.redo()
             continue
-        new = J.replay(history.ledger, [rec])
+        new = J.replay(history.ledger, [rec], children=children)
         history.apply(new, action=c["action"], item=c["item"], summary=c["summary"], loadout=c["loadout"],
                       author=c["author"] or author, now=c["when"])
     if J.edit_record(history.ledger, final) is not None:  # should never happen; never restore a guess

@@ -8,6 +8,8 @@ ledger costs a few array copies.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from steelyard.core.errors import SteelyardError
@@ -54,12 +56,20 @@ def delete_item(ledger: Ledger, item_id: str) -> Ledger:
     """Remove an item, and its amount from every loadout that names it."""
     i = ledger.index[item_id]
     new = ledger.evolve(items=ledger.items[:i] + ledger.items[i + 1:],
-                        loadouts=tuple(rename_in_loadouts(ledger.loadouts, item_id, None)))
+                        loadouts=tuple(rename_in_loadouts(ledger.loadouts, item_id, None)),
+                        placed=rows_shifted(ledger.placed, i, -1))
     a = _arrays_of(ledger)
     if a is not None:
         with_arrays(new, ItemArrays(*(np.delete(getattr(a, f), i, axis=0)
                                       for f in ("unit_mass", "quantity", "cg", "own", "variable"))))
     return new
+
+
+def rows_shifted(placed: tuple, row: int, by: int) -> tuple:
+    """Placement records after row `row` moved by `by` rows (an own item before them removed)."""
+    if not placed:
+        return placed
+    return tuple(q if q.start < row else replace(q, start=q.start + by, stop=q.stop + by) for q in placed)
 
 
 def unique_id(ledger: Ledger, base: str) -> str:

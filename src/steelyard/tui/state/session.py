@@ -69,6 +69,10 @@ class Session:
         self.journal_error: str | None = None  # why edits are not journaled right now
         self.journal_hold: str | None = None  # unsaved edits of an earlier session wait: read-only
         self.extras = None  # chart_extras.ChartExtras, computed off-thread by the App
+        #: placed files saved since they were read (file as placed -> (resolved ledger, sha256)):
+        #: an undo or redo to a ledger made before that save places them again (`placed_fresh`)
+        self.fresh_files: dict = {}
+        self._saved_pair: tuple | None = None  # (saved ledger before a placed file's save, after)
 
     # ---------------------------------------------------------------- state
     @property
@@ -174,30 +178,35 @@ class Session:
                                  "elsewhere", file=self.path)
 
     def apply(self, new_ledger: Ledger, *, action: str, item: str | None, summary: str,
-              defer: bool = False) -> Change | None:
+              defer: bool = False, fields: tuple | None = None) -> Change | None:
         """Make `new_ledger` current and enter the change in the log.
 
         With `defer` the log entry (whose effect costs two more roll-ups) is
         made by the next `flush()`, which the App runs right after the new
         totals are on screen; everything that reads the log flushes first.
+        `fields` = (before, after): the change log's changed fields, for a change
+        that is not about one item (a placement).
         """
         self.check_writable()
         self._journal(self.ledger, new_ledger, self._change(action, item, summary))
         if defer:
-            self._pending.append((new_ledger, action, item, summary, self.loadout, self.ledger))
+            self._pending.append((new_ledger, action, item, summary, self.loadout, self.ledger, fields))
             self._head = new_ledger
             return None
         self.flush()
+        more = {} if fields is None else {"before": fields[0], "after": fields[1]}
         return self.history.apply(new_ledger, action=action, item=item, summary=summary,
-                                  loadout=self.loadout, author=self.author)
+                                  loadout=self.loadout, author=self.author, **more)
 
     def flush(self) -> list[Change]:
         """Enter the deferred edits in the change log, oldest first."""
         out = []
         while self._pending:
-            new, action, item, summary, loadout, old = self._pending[0]
+            new, action, item, summary, loadout, old, fields = self._pending[0]
+            more = {} if fields is None else {"before": fields[0], "after": fields[1]}
             out.append(self.history.apply(new, action=action, item=item, summary=summary, loadout=loadout,
-                                          author=self.author, effect=self._known_effect(old, new, loadout)))
+                                          author=self.author, effect=self._known_effect(old, new, loadout),
+                                          **more))
             self._pending.pop(0)
         self._head = None
         return out
@@ -215,9 +224,42 @@ class Session:
         before = self.history.ledger
         change = step()
         if change is not None:
+            self.placed_fresh()
             self._journal(before, self.history.ledger,
                           self._change(action, change.item, f"{action}: {change.summary}"))
         return change
+
+    def placed_fresh(self) -> None:
+        """The current ledger with every placed file saved since it was made placed again (undo of an
+        edit made before a placed file was saved shows that file as it is now)."""
+        if self.fresh_files:
+            from steelyard.tui.state.assembly import stale_files
+
+            old = self.history.ledger
+            if self._saved_pair is not None and old is self._saved_pair[0]:
+                fresh = self._saved_pair[1]  # back at the ledger as saved: so it shows again
+            else:
+                fresh = stale_files(old, self.fresh_files)
+            if fresh is not old:
+                self.history.reseat(fresh)
+
+    def placed_file_saved(self, file: str, child: Ledger, sha256: str) -> None:
+        """A file this ledger places was saved (opened in place from here): its rows are placed again
+        from `child` (a splice, no re-read). Not an edit of this file: nothing is journaled or logged, and
+        a ledger without unsaved work stays so."""
+        from steelyard.tui.state.assembly import replaced_file
+
+        self.flush()
+        self.fresh_files[file] = (child, sha256)
+        clean = self.saved is self.history.ledger
+        new = replaced_file(self.history.ledger, file, child, sha256)
+        self.history.reseat(new)
+        old_saved = self.saved
+        if clean:
+            self.saved = new
+        elif any(q.file == file for q in self.saved.placed):
+            self.saved = replaced_file(self.saved, file, child, sha256)
+        self._saved_pair = (old_saved, self.saved)
 
     def _known_effect(self, old: Ledger, new: Ledger, loadout: str | None) -> Effect | None:
         """The effect from remembered roll-ups of both sides; None (History computes it) otherwise."""

@@ -24,6 +24,7 @@ from steelyard.core.display import DisplayUnits, pretty_unit
 from steelyard.core.numbers import cell
 from steelyard.core.physics.groups import GroupTotal
 from steelyard.core.document.model import Ledger
+from steelyard.tui.state.assembly import file_stem, group_files, placed_mark
 from steelyard.tui.state.rows import SORT_KEYS, LedgerIndex, RowSpec, build_rows, ungrouped_label
 from steelyard.tui.text import clean
 
@@ -83,6 +84,18 @@ def _largest(values: np.ndarray) -> float:
     a = np.abs(np.asarray(values, dtype=float))
     a = a[np.isfinite(a)]
     return float(a.max()) if a.size else 0.0
+
+
+def _marked(mark: str, name: str, width: int) -> str:
+    """A placed row's name cell: its file's mark always whole (the name gives way first)."""
+    if cell_len(mark) + cell_len(name) <= width:
+        return mark + name
+    if cell_len(mark) + 2 <= width:
+        return mark + set_cell_size(name, width - cell_len(mark) - 1) + "…"
+    bare = mark.strip()
+    if cell_len(bare) <= width:
+        return bare
+    return set_cell_size(bare, max(width - 2, 1)) + "…›"
 
 
 class LedgerTable(ScrollView, can_focus=True):
@@ -308,7 +321,9 @@ class LedgerTable(ScrollView, can_focus=True):
         qty = f"×{it.quantity}" if it.quantity != 1 else ""
         if it.variable:
             qty = f"{self.fill[i] * 100:.0f}%"
-        texts = {"id": " " * depth + clean(it.id), "name": clean(it.name), "group": clean(it.group), "qty": qty}
+        name = clean(it.name) if it.source is None else _marked(placed_mark(self.ledger, it), clean(it.name),
+                                                               widths["name"])
+        texts = {"id": " " * depth + clean(it.id), "name": name, "group": clean(it.group), "qty": qty}
         texts.update(self._numbers(float(self.mass[i]), self.cg[i], widths))
         return self._cells(texts)
 
@@ -317,7 +332,9 @@ class LedgerTable(ScrollView, can_focus=True):
         cols = self.columns()
         widths = {c.key: c.width for c in cols}
         mark = "▸" if gt.path in self.spec.folded else "▾"
-        label = f"{' ' * gt.depth}{mark} {clean(ungrouped_label(gt.path.rsplit('/', 1)[-1]))} ({gt.count})"
+        placed = group_files(self.ledger).get(gt.path) if self.ledger is not None and self.ledger.placed else None
+        file = f" ‹{clean(file_stem(placed))}›" if placed is not None else ""  # a placement: its file
+        label = f"{' ' * gt.depth}{mark} {clean(ungrouped_label(gt.path.rsplit('/', 1)[-1]))}{file} ({gt.count})"
         texts = self._numbers(gt.mass, gt.cg, widths)
         lead = widths["id"] + 1 + widths["name"] + (1 + widths["group"] if "group" in widths else 0)
         rest = " ".join(_fit(texts.get(c.key, ""), c.width, c.right) for c in cols
