@@ -148,6 +148,22 @@ def _definitions(console, diff: LedgerDiff, du) -> None:
             console.print(T(line))
 
 
+def _logged(console, diff: LedgerDiff, max_items: int) -> None:
+    """The change-log entries B holds and A does not: what the diff spans, each with its reason."""
+    from steelyard.core.history.changes import logged_since
+
+    logged = logged_since(diff.a.ledger, diff.b.ledger)
+    if not logged:
+        return
+    shown = _limit(len(logged), max_items)
+    console.print(T(f"Changes logged in B since A ({len(logged):,}), oldest first:"))
+    for c in logged[:shown]:
+        what = " ".join(x for x in (c.action, c.item or "") if x)
+        why = "; ".join(x for x in (c.reason and f"why: {c.reason}", c.request and f"request {c.request}") if x)
+        console.print(T(f"  {c.time}  {c.author}  {what}: {c.summary}" + (f"  ({why})" if why else "  (no reason given)")))
+    _more(console, len(logged), shown)
+
+
 def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None, max_items: int,
                file_units: FileUnits | None, console: Console | None = None) -> None:
     console = console or Console(highlight=False, markup=False)
@@ -167,4 +183,5 @@ def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None,
     _totals(console, diff, du)
     _envelopes(console, diff, du)
     _definitions(console, diff, du)
+    _logged(console, diff, max_items)
 

@@ -430,3 +430,20 @@ def ledger_with_log(ledger: Ledger, log: Sequence[Change]) -> Ledger:
     if "index" in ledger.__dict__:
         new.__dict__["index"] = ledger.index
     return new
+
+
+def logged_since(older: Ledger, newer: Ledger) -> tuple[Change, ...]:
+    """The changes `newer`'s log holds that `older`'s does not, oldest first: what a diff of the two spans.
+
+    Entries are matched by time, author, action, item and summary (a saved entry never changes,
+    so the same edit has the same five in both files); a log that cannot be read counts as empty.
+    """
+    def key(c: Change) -> tuple:
+        return (c.time, c.author, c.action, c.item, c.summary)
+
+    try:
+        old = {key(c) for c in log_from_ledger(older)}
+        new = log_from_ledger(newer)
+    except SteelyardError:
+        return ()
+    return tuple(c for c in new if key(c) not in old)

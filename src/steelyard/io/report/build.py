@@ -107,7 +107,7 @@ def changes_since(ledger: Ledger, since: dt.datetime | None) -> list[dict]:
     for entry in ledger.changes:
         if not isinstance(entry, dict):
             continue
-        row = {k: entry.get(k) for k in ("time", "author", "action", "item", "summary")}
+        row = {k: entry.get(k) for k in ("time", "author", "action", "item", "summary", "reason", "request")}
         try:
             when = _utc(entry.get("time")) if entry.get("time") is not None else None
         except SteelyardError:
