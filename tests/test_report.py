@@ -132,7 +132,8 @@ def test_markdown_report_writes_svgs_beside_it(ledger_path, tmp_path):
         assert md_escape(env) in text
     assert md_escape(NASTY_ITEM) in text and "<b>" not in text and "<script>" not in text
     svgs = sorted(p.name for p in out_path.parent.glob("*.svg"))
-    assert svgs == ["review-chart-1.svg", "review-chart-2.svg"]
+    # named after the report and the envelope ("normal & <wide>" -> "normal-wide")
+    assert svgs == ["review-envelope-lateral.svg", "review-envelope-normal-wide.svg"]
     for name in svgs:
         assert f"]({name})" in text
         ET.parse(out_path.parent / name)

@@ -3,8 +3,9 @@
 The report needs a picture of each envelope with the loadouts on it, but a
 hand-written image library is not worth its bugs. Text is enough: each
 character cell holds 2 x 4 braille dots, so a 64 x 18 cell chart has a
-128 x 72 dot raster. The CLI turns the lines into SVG through rich's
-terminal export; Markdown can show them as they are. Pure numpy and str.
+128 x 72 dot raster. Markdown shows the lines under each vector chart
+(io.report.svg_envelope), which draws the same figures. `ticks` (1, 2, 5 x
+10^n steps) serves both. Pure numpy and str.
 """
 
 from __future__ import annotations
