@@ -31,8 +31,10 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
             yield Static(Text("Save: reason for the change", style="bold"), classes="dialog-title")
             yield Static(Text(f"Recorded with the {what} of this save. Optional: Enter skips.", style="dim"),
                          classes="dialog-text")
-            yield Input(placeholder="reason (why)", id="reason-input")
-            yield Input(placeholder="change request number", id="request-input")
+            yield Static("Reason (why):", classes="dialog-text")
+            yield Input(placeholder="e.g. supplier data sheet rev C", id="reason-input")
+            yield Static("Change request:", classes="dialog-text")
+            yield Input(placeholder="e.g. CR-0107", id="request-input")
             yield Static("Enter to save, Tab for the next field, Escape to cancel", classes="dialog-text")
 
     def on_mount(self) -> None:
