@@ -17,7 +17,7 @@ import pytest
 import tomli_w
 from shapely.geometry import LineString, Polygon
 
-from steelyard.core.history.changes import (Change, Effect, History, effect_between, ledger_with_log,
+from steelyard.core.history.changes import (Change, Effect, History, compact, effect_between, ledger_with_log,
                                     log_from_ledger)
 from steelyard.core.errors import SteelyardError
 from steelyard.core.loading.loadout import resolve
@@ -249,11 +249,12 @@ def test_log_round_trips_through_the_ledger_file(fixtures_dir):
     h.apply(h.ledger, action="weighing", item=None, summary="scales", loadout="takeoff", author="bo",
             before={"empty_mass_kg": 500.0}, after={"empty_mass_kg": 501.25, "readings": [1.0, 2.0]})
     log = h.log
-    assert any(m is None for c in log for _, m in c.effect.d_margin)  # an undefined margin is carried too
+    assert any(m is None for c in log for _, m in c.effect.d_margin)  # an undefined margin in memory...
 
     text = ledger_to_toml(ledger_with_log(h.ledger, log))
-    assert "[[change]]" in text
+    assert "[[change]]" in text and "nan" not in text  # ... is left out of the file, never written as nan
     back = ledger_from_data(tomllib.loads(text), source="x")
+    log = tuple(compact(c) for c in log)  # the file holds the compact entries (6 significant figures)
     assert log_from_ledger(back) == log
     assert back.items == h.ledger.items
     assert ledger_to_toml(back) == text  # canonical: saving again gives the same bytes
@@ -306,3 +307,82 @@ def test_toml_datetime_is_accepted_as_time():
             "action = \"edit\"\nd_mass_kg = 0.0\nd_cg_m = [0.0, 0.0, 0.0]\n")
     (c,) = log_from_ledger(ledger_from_data(tomllib.loads(text), source="x"))
     assert c.time == "2026-05-04T09:12:33Z" and c.effect.d_margin == () and c.item is None
+
+
+# --------------------------------------------------------------------------- compact entries
+
+
+def test_float_noise_is_written_as_the_decimal_it_stands_for():
+    # two parts of 0.1 kg and 0.2 kg: in binary floating point 0.1 + 0.2 is 0.30000000000000004
+    # (IEEE 754 double); the log holds 6 significant figures, so the file says 0.3
+    noisy = 0.1 + 0.2
+    assert noisy != 0.3
+    before = Ledger((Item("base", 1.0, (0.0, 0.0, 0.0)),))
+    after = before.with_item(Item("pair", noisy, (1.0, 0.0, 0.0)))
+    h = History(before)
+    h.apply(after, action="add", item="pair", summary="add pair", loadout=None, author="ana")
+    text = ledger_to_toml(ledger_with_log(after, h.log))
+    log_text = text[text.index("[[change]]"):]  # the item itself keeps its exact value
+    assert "0.30000000000000004" not in log_text
+    (entry,) = tomllib.loads(text)["change"]
+    # exact arithmetic: the value read back is the double nearest to 3/10, within half an ulp
+    # of the exact decimal (IEEE 754 round-to-nearest; fractions.Fraction is exact)
+    for got in (entry["after"]["mass_kg"], entry["d_mass_kg"]):
+        assert abs(F(got) - F(3, 10)) <= F(math.ulp(0.3)) / 2
+    assert "mass_kg = 0.3," in log_text and "d_mass_kg = 0.3\n" in log_text
+    # ΔCG: the 0.3 kg part at 1 m joins 1 kg at 0: exactly 0.3/1.3 m (FAA-H-8083-1 weight addition),
+    # written to 6 significant figures: within half a unit of the 6th of the exact value
+    dx = F(entry["d_cg_m"][0])
+    assert abs(dx - F(3, 13)) <= F(1, 2) * F(1, 10**6) + F(math.ulp(0.23))  # 0.230769|23...: 6th figure at 1e-6
+
+
+def test_undefined_values_are_left_out_never_nan():
+    # the first item of an empty ledger: before it there is no mass, so no CG and no margin
+    empty = Ledger((), envelopes=(ENVELOPE,))
+    after = empty.with_item(Item("frame", 41.5, (3.10, 0.02, 0.40)))
+    h = History(empty)
+    h.apply(after, action="add", item="frame", summary="first", loadout=None, author="ana")
+    text = ledger_to_toml(ledger_with_log(after, h.log))
+    assert "nan" not in text
+    (entry,) = tomllib.loads(text)["change"]
+    assert "d_cg_m" not in entry and "d_margin_m" not in entry
+    (back,) = log_from_ledger(ledger_from_data(tomllib.loads(text), source="x"))
+    assert back.effect.d_mass == 41.5 and back.effect.d_margin == ()
+
+
+def test_an_edit_costs_one_line_per_key():
+    h = History(LEDGER)
+    h.apply(_edit(LEDGER, "motor", mass=13.0), action="edit", item="motor", summary="heavier motor",
+            loadout=None, author="ana", now="2026-05-04T09:12:33Z")
+    h.annotate("supplier data sheet rev C", "CR-0042")
+    text = ledger_to_toml(ledger_with_log(h.ledger, h.log))
+    block = text[text.index("[[change]]"):].strip().splitlines()
+    assert len(block) == 13, block  # the header and one line per key: 12 keys with reason and request
+    (entry,) = tomllib.loads(text)["change"]
+    assert entry["reason"] == "supplier data sheet rev C" and entry["request"] == "CR-0042"
+    assert entry["before"] == {"id": "motor", "mass_kg": 12.25} and entry["after"] == {"id": "motor", "mass_kg": 13.0}
+
+
+def test_annotate_skips_saved_changes_and_those_with_a_reason():
+    h = History(LEDGER)
+    a = h.apply(_edit(LEDGER, "motor", mass=13.0), action="edit", item="motor", summary="a", loadout=None, author="x")
+    saved = h.log
+    h.apply(_edit(h.ledger, "motor", mass=14.0), action="edit", item="motor", summary="b", loadout=None, author="x")
+    assert h.annotate("first reason", None, saved=saved) == 1
+    assert h.annotate("second", "CR-9") == 1  # only `a` is left without one
+    assert [(c.summary, c.reason, c.request) for c in h.log] == [("a", "second", "CR-9"), ("b", "first reason", None)]
+    assert h.annotate("  ", "") == 0
+    assert a.reason is None  # the change object handed out before is unchanged (frozen)
+    before = h.log[0]
+    h.undo()
+    h.undo()
+    assert h.ledger is LEDGER  # undo hands back the very ledger, whatever the notes
+    assert h.redo() == before
+
+
+@pytest.mark.parametrize("patch, field", [({"reason": 3}, "reason"), ({"request": ["CR-1"]}, "request")])
+def test_bad_reason_or_request_is_located(patch, field):
+    ledger = LEDGER.evolve(changes=({**GOOD, **patch},))
+    with pytest.raises(SteelyardError) as e:
+        log_from_ledger(ledger)
+    assert e.value.subject == "change #1" and e.value.field == field

@@ -514,3 +514,35 @@ def test_report_sends_no_raw_terminal_escapes(tmp_path, capsys):
     rc, out, _ = run_main(capsys, "diff", a, b)
     assert rc == 1
     assert "\x1b" not in out and "[b]bold[/b]" in out and "␛[31mred" in out
+
+
+def test_diff_lists_the_changes_logged_in_b_with_their_reasons(tmp_path, capsys):
+    # B is A after one more logged edit; the diff names it with its reason and change request
+    # (tomllib, the standard library, is the reference reading of both files)
+    import tomllib
+
+    base = TRAINER.read_text()
+    old = ('\n[[change]]\ntime = "2026-01-10T09:00:00Z"\nauthor = "ana"\naction = "edit"\nitem = "wing-l"\n'
+           'summary = "first"\nd_mass_kg = 0.0\n')
+    new = ('\n[[change]]\ntime = "2026-02-11T10:00:00Z"\nauthor = "bo"\naction = "edit"\nitem = "wing-l"\n'
+           'summary = "heavier wing"\nreason = "repair doubler <aft>"\nrequest = "CR-0107"\nd_mass_kg = 1.0\n')
+    a = tmp_path / "a.toml"
+    b = tmp_path / "b.toml"
+    a.write_text(base + old)
+    b.write_text(base + old + new)
+    assert len(tomllib.loads(b.read_text())["change"]) == 2
+    code, out, err = run_main(capsys, "diff", a, b)
+    assert code in (0, 1), err
+    code, out, err = run_main(capsys, "diff", a, b, "--json")
+    logged = json.loads(out)["logged"]
+    assert logged == [{"time": "2026-02-11T10:00:00Z", "author": "bo", "action": "edit", "item": "wing-l",
+                       "summary": "heavier wing", "reason": "repair doubler <aft>", "request": "CR-0107"}]
+    # the text form, with an item changed so the full report prints
+    b.write_text(b.read_text().replace("[[change]]", "[[item]]\nid = \"extra\"\nmass = 1.0\ncg = [0.0, 0.0, 0.0]\n\n"
+                                       "[[change]]", 1))
+    code, out, err = run_main(capsys, "diff", a, b)
+    assert code == 1, err
+    out = " ".join(out.split())  # the console wraps long lines
+    assert "Changes logged in B since A (1)" in out
+    assert "heavier wing (why: repair doubler <aft>; request CR-0107)" in out
+    assert "2026-01-10" not in out.split("Changes logged in B since A")[1]  # A's own entry is not listed

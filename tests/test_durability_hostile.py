@@ -428,17 +428,17 @@ def test_export_will_not_replace_a_read_only_output(ledger, tmp_path):
 
 # ----------------------------------------- finding 5: derived files and links
 def test_report_chart_symlinked_onto_the_ledger_is_refused(ledger, tmp_path):
-    (tmp_path / "r-chart-1.svg").symlink_to(ledger)
+    (tmp_path / "r-envelope-normal.svg").symlink_to(ledger)
     before = digest(ledger)
     r = run("report", ledger, "-o", tmp_path / "r.md")
     assert r.returncode == 2 and "symbolic link" in one_line(r.stderr)
     assert digest(ledger) == before
-    assert (tmp_path / "r-chart-1.svg").is_symlink()
-    assert not (tmp_path / "r.md").exists() and not (tmp_path / "r-chart-2.svg").exists()  # nothing half-written
+    assert (tmp_path / "r-envelope-normal.svg").is_symlink()
+    assert not (tmp_path / "r.md").exists() and not (tmp_path / "r-envelope-utility.svg").exists()  # nothing half-written
 
 
 def test_report_chart_hard_linked_to_the_ledger_is_refused(ledger, tmp_path):
-    os.link(ledger, tmp_path / "r-chart-2.svg")
+    os.link(ledger, tmp_path / "r-envelope-utility.svg")
     before = digest(ledger)
     r = run("report", ledger, "-o", tmp_path / "r.md")
     assert r.returncode == 2 and "input" in one_line(r.stderr)

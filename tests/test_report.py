@@ -84,6 +84,8 @@ author = "B. <Late>"
 action = "add"
 item = "oil-tank"
 summary = "added the tank & its oil"
+reason = "oil <system> & cooler"
+request = "CR-0007"
 d_mass_kg = 2.0
 d_cg_m = [0.0, 0.0, 0.0]
 
@@ -130,7 +132,8 @@ def test_markdown_report_writes_svgs_beside_it(ledger_path, tmp_path):
         assert md_escape(env) in text
     assert md_escape(NASTY_ITEM) in text and "<b>" not in text and "<script>" not in text
     svgs = sorted(p.name for p in out_path.parent.glob("*.svg"))
-    assert svgs == ["review-chart-1.svg", "review-chart-2.svg"]
+    # named after the report and the envelope ("normal & <wide>" -> "normal-wide")
+    assert svgs == ["review-envelope-lateral.svg", "review-envelope-normal-wide.svg"]
     for name in svgs:
         assert f"]({name})" in text
         ET.parse(out_path.parent / name)
@@ -176,6 +179,9 @@ def test_since_filters_the_change_log(ledger_path, tmp_path):
     assert run_cli("report", ledger_path, "-o", out_path, "--since", "2026-02-01", "--samples", "0")[0] == 0
     text = out_path.read_text()
     assert html.escape("added the tank & its oil") in text
+    # the reason and change request have their columns, escaped (html.escape, standard library)
+    assert "<th>reason</th>" in text.replace(' class="r"', "") and html.escape("oil <system> & cooler") in text
+    assert "CR-0007" in text
     assert "old change before the baseline" not in text
     assert run_cli("report", ledger_path, "-o", out_path, "--samples", "0")[0] == 0
     assert "old change before the baseline" in out_path.read_text()

@@ -101,6 +101,8 @@ user_values = st.recursive(
               st.dates(dt.date(1990, 1, 1), dt.date(2090, 1, 1))),
     lambda inner: st.one_of(st.lists(inner, max_size=3), st.dictionaries(names, inner, max_size=3)),
     max_leaves=8)
+#: free text of a change's reason and request: quotes, backslashes, control characters, any script
+notes = st.text(st.characters(blacklist_categories=("Cs",)), min_size=1, max_size=20)
 user_tables = st.dictionaries(names, user_values, min_size=1, max_size=3)
 
 
@@ -152,7 +154,16 @@ def documents(draw):
         {"name": "right", "at": [1.0, 1.0, 0.0], "reading": 10.0, "tare": 0.0},
         {"name": "nose", "at": [-1.0, 0.0, 0.0], "reading": 5.0, "tare": 0.5}]}
     doc["change"] = [{"time": "2026-05-04T09:12:33Z", "author": "tester", "action": "edit", "item": "part-0",
-                      "summary": "moved", "d_mass_kg": 0.0, "d_cg_m": [0.0, 0.0, 0.0], "d_margin_m": {"normal": 0.0}}]
+                      "summary": "moved", "d_mass_kg": 0.0, "d_cg_m": [0.0, 0.0, 0.0], "d_margin_m": {"normal": 0.0}},
+                     # the compact form: reason and change request, tables inline, undefined values left out
+                     {"time": "2026-05-05T10:00:00Z", "author": "tester", "action": "add", "item": "part-1",
+                      "summary": "added", "reason": draw(notes), "request": draw(notes), "d_mass_kg": 0.3,
+                      "after": {"id": "part-1", "mass_kg": 0.3, "cg_m": [1.0, 0.0, 0.0]}},
+                     # an old-style entry: float noise and sub-tables, kept as written
+                     {"time": "2026-05-06T11:00:00Z", "author": "tester", "action": "edit", "item": "part-0",
+                      "summary": "noise", "d_mass_kg": 0.1 + 0.2, "d_cg_m": [0.1 + 0.2, 0.0, -1e-17],
+                      "before": {"id": "part-0", "mass_kg": 0.30000000000000004},
+                      "after": {"id": "part-0", "mass_kg": 0.6000000000000001}}]
     doc["user"] = draw(user_tables)
     return doc
 
@@ -313,6 +324,10 @@ max_mass = 7.0
     ('[[envelope]]\nname = "n"\naxis = "x"\npoints = [[0, 1], [0, 2], [1, 2]]\nloadout = ["x"]\n',
      ("envelope 'n'", "loadout", "did you mean 'loadouts'")),
     ('[[limit]]\nname = "mtow"\nmax_mas = 7.0\n', ("limit 'mtow'", "max_mas", "did you mean 'max_mass'")),
+    ('[[change]]\ntime = "2026-05-04T09:12:33Z"\nauthor = "a"\naction = "edit"\nd_mass_kg = 0.0\nreasn = "x"\n',
+     ("change #1", "reasn", "did you mean 'reason'")),
+    ('[[change]]\ntime = "2026-05-04T09:12:33Z"\nauthor = "a"\naction = "edit"\nd_mass_kg = 0.0\nrequst = "CR-1"\n',
+     ("change #1", "requst", "did you mean 'request'")),
     ('[[item]]\nid = "b"\nmass = 1\ncg = [0, 0, 0]\nmaturty = "layout"\n', ("item 'b'", "did you mean 'maturity'")),
     ('[mac]\nlemac = 1.0\nlenght = 2.0\n', ("mac", "lenght", "did you mean 'length'")),
     ('[units]\nmas = "lb"\n', ("units", "did you mean 'mass'")),
@@ -362,3 +377,45 @@ user = { why = "placard" }
     assert written["loadout"][0]["user"] == original["loadout"][0]["user"]
     assert written["envelope"][0]["user"] == original["envelope"][0]["user"]
     assert written["limit"][0]["user"] == original["limit"][0]["user"]
+
+
+def test_an_old_change_log_reads_writes_and_reads_the_same():
+    """A log written before the compact form (sub-table headers, nan margins, float noise) still reads,
+    and a save keeps every value of it (tomllib is the reference reading; nan compared as nan)."""
+    text = '''steelyard = 1
+[[item]]
+id = "a"
+mass = 1
+cg = [0, 0, 0]
+[[envelope]]
+name = "normal"
+axis = "x"
+points = [[-1.0, 0.5], [-1.0, 10.0], [1.0, 10.0], [1.0, 0.5]]
+
+[[change]]
+time = "2026-05-04T09:12:33Z"
+author = "ana"
+action = "edit"
+item = "a"
+summary = "edit a"
+d_mass_kg = 0.2999999999999998
+d_cg_m = [nan, nan, nan]
+
+[change.d_margin_m]
+normal = nan
+
+[change.before]
+id = "a"
+mass_kg = 0.7000000000000002
+
+[change.after]
+id = "a"
+mass_kg = 1.0
+'''
+    ledger = ledger_from_data(tomllib.loads(text), source="old.toml")
+    written = ledger_to_toml(ledger)
+    again = ledger_from_data(tomllib.loads(written), source="new.toml")
+    a, b = tomllib.loads(text)["change"], tomllib.loads(written)["change"]
+    assert json.dumps(a, sort_keys=True) == json.dumps(b, sort_keys=True)  # json spells nan as NaN both sides
+    assert b[0]["d_mass_kg"] == 0.2999999999999998  # an old entry keeps its digits: a record is not rewritten
+    assert ledger_to_toml(again) == written

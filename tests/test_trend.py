@@ -339,6 +339,12 @@ def test_the_report_gains_the_history(repo, tmp_path):
         assert rev[:7] in text
     first = by_hand(T1)
     assert f"{float(first['mass'] / LB):,.2f}" in text  # the first commit's mass in the file's pounds
+    # Markdown: the history chart is a file named after the report, linked from it, and well-formed XML
+    assert "![mass history](r-mass-trend.svg)" in text
+    import xml.etree.ElementTree as ET
+
+    root = ET.parse(tmp_path / "r-mass-trend.svg").getroot()  # xml.etree: the standard library's XML parser
+    assert root.tag == "{http://www.w3.org/2000/svg}svg" and len(root.findall(".//{*}polyline")) == 3
 
 
 def test_a_report_outside_git_has_no_history(tmp_path, monkeypatch):
@@ -347,6 +353,7 @@ def test_a_report_outside_git_has_no_history(tmp_path, monkeypatch):
     code, _, err = run_cli("report", tmp_path / "f.toml", "-o", tmp_path / "r.md")
     assert code == 0, err
     assert "Mass history" not in (tmp_path / "r.md").read_text()
+    assert not (tmp_path / "r-mass-trend.svg").exists()
 
 
 async def test_the_editor_shows_the_history(repo):

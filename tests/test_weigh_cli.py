@@ -140,9 +140,10 @@ def test_apply_to_other_file_replaces_item_and_logs_change(tmp_path):
     assert len(log) == 1
     entry = log[0]
     assert (entry["action"], entry["item"], entry["author"]) == ("weighing", "empty-vehicle", "J. Tester")
-    assert entry["before"]["mass_kg"] == pytest.approx(float(1310 * LB), rel=1e-15)
-    assert entry["after"]["mass_kg"] == pytest.approx(float(empty * LB), rel=1e-15)
-    assert entry["d_mass_kg"] == pytest.approx(float((empty - 1310) * LB), rel=1e-12)
+    # the log holds 6 significant figures: within half a unit of the 6th (relative 5e-6)
+    assert entry["before"]["mass_kg"] == pytest.approx(float(1310 * LB), rel=5e-6)
+    assert entry["after"]["mass_kg"] == pytest.approx(float(empty * LB), rel=5e-6)
+    assert entry["d_mass_kg"] == pytest.approx(float((empty - 1310) * LB), rel=5e-6)
     # a second weighing in place keeps the first entry
     again = run("weigh", dst, "--apply")
     assert again.returncode == 0, again.stderr

@@ -95,3 +95,16 @@ async def cursor_to(app, pilot, item_id: str, limit: int = 400) -> None:
             return
         await pilot.press("down")
     raise AssertionError(f"{item_id!r} is not in the table")
+
+
+async def answer_reason(app, pilot, reason: str = "", request: str = "") -> None:
+    """Answer the question a save asks about unsaved changes (Enter alone skips it)."""
+    from steelyard.tui.screens.reason_prompt import ReasonPrompt
+
+    await wait_for_screen(app, pilot, ReasonPrompt, what="the save did not ask for a reason")
+    if reason:
+        await type_into(app, pilot, "reason-input", reason)
+    if request:
+        await type_into(app, pilot, "request-input", request)
+    await pilot.press("enter")
+    await pilot.pause()

@@ -29,7 +29,7 @@ from steelyard.tui.screens.confirm import ConfirmScreen
 from steelyard.tui.screens.restore_screen import RestoreScreen
 from support.exact import close, exact_totals
 from support.tmux import AVIONICS as LEDGER
-from support.tui import copy_fixture, editor, screen_text, settle, wait_loaded
+from support.tui import answer_reason, copy_fixture, editor, screen_text, settle, wait_loaded
 from support.units import LB
 
 
@@ -221,6 +221,7 @@ async def test_edits_are_journaled_and_a_save_starts_it_over(tmp_path):
         await settle(pilot, app)
         path_before = path.read_bytes()
         await pilot.press("ctrl+s")
+        await answer_reason(app, pilot)  # Enter: no reason given
         await settle(pilot, app)
         assert not isinstance(app.screen, ConfirmScreen)  # the fixture has comments: kept, nothing to ask
         assert path.read_bytes() != path_before and not s.dirty

@@ -43,7 +43,9 @@ def test_real_program_in_tmux_edit_one_value_save_and_quit(tmp_path, tmux):
     tmux.keys(name, "Enter")
     tmux.wait_for(name, "* ledger.toml")  # the unsaved marker in the title
     tmux.wait_for(name, "5.250")  # the row shows the new mass
-    tmux.keys(name, "C-s")  # the file has a comment: kept, nothing is asked
+    tmux.keys(name, "C-s")  # the file has a comment: kept; the one question is the change's reason
+    tmux.wait_for(name, "Save: reason")
+    tmux.keys(name, "Enter")  # skipped
     # the unsaved marker goes with the save (the "saved" notice lasts seconds: a busy machine may miss it)
     assert "* ledger.toml" not in tmux.wait_gone(name, "* ledger.toml", timeout=20)
     tmux.keys(name, "C-q")

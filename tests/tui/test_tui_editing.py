@@ -16,7 +16,7 @@ from steelyard.tui.app import SteelyardApp
 from steelyard.tui.screens.item_form import ItemForm
 from support.exact import close, exact_totals
 from support.paths import DEMO
-from support.tui import SIZE, copy_fixture, cursor_to, editor, screen_text, settle, type_into
+from support.tui import SIZE, answer_reason, copy_fixture, cursor_to, editor, screen_text, settle, type_into
 from support.units import LB
 
 
@@ -123,6 +123,7 @@ async def test_save_reopen_equal_and_change_log_kept(tmp_path):
         await pilot.press("d")  # duplicate
         await settle(pilot, app)
         await pilot.press("ctrl+s")
+        await answer_reason(app, pilot)
         await settle(pilot, app)
         assert not app.session.dirty
         assert [line for line in path.read_text().splitlines() if line.lstrip().startswith("#")] == comments
@@ -157,6 +158,7 @@ async def test_demo_save_asks_where_and_never_writes_the_package(tmp_path):
         target = tmp_path / "mine.toml"
         await type_into(app, pilot, "prompt-input", str(target))
         await pilot.press("enter")
+        await answer_reason(app, pilot)
         await settle(pilot, app)
         assert target.exists() and app.session.path == str(target) and not app.session.dirty
         assert "copy of the demo" not in app.title

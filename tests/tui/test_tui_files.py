@@ -11,7 +11,7 @@ from steelyard.io.durability.lock import acquire, lock_path, this_host
 from steelyard.tui.app import SteelyardApp
 from steelyard.tui.screens.item_form import ItemForm
 from support.ledgers import write_ledger
-from support.tui import SIZE, copy_fixture, cursor_to, editor, screen_text, settle, type_into, wait_loaded
+from support.tui import SIZE, answer_reason, copy_fixture, cursor_to, editor, screen_text, settle, type_into, wait_loaded
 
 
 async def test_lock_refuses_a_second_writer(tmp_path):
@@ -70,6 +70,7 @@ async def test_file_changed_on_disk_makes_save_ask(tmp_path):
         theirs = path.read_text() + "\n# edited elsewhere\n"
         path.write_text(theirs)  # someone else saved meanwhile
         await pilot.press("ctrl+s")
+        await answer_reason(app, pilot)
         await pilot.pause(0.3)
         assert "changed on disk" in screen_text(app).lower()
         await pilot.click("#answer-cancel")

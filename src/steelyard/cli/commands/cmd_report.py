@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-import io
 import os
-import re
 import sys
 
 NAME = "report"
@@ -14,7 +12,8 @@ DESCRIPTION = (
     "envelope (status, margins, Monte Carlo probability when items carry tolerances), a chart of "
     "every envelope with the loadouts on it, sequences, a weighing if the ledger has one, the "
     "items, and the change log (since --since). HTML is one file with the charts inside; Markdown "
-    "gets each chart as an SVG file beside it plus a text copy in the page. Loadouts: --loadout "
+    "gets each chart as an SVG file beside it, named after the report (REPORT-envelope-NAME.svg), "
+    "plus a text copy in the page. Loadouts: --loadout "
     "NAME (repeatable); --all for every loadout and the vehicle with variable items empty; by "
     "default every loadout. See docs/report.md.")
 
@@ -41,37 +40,6 @@ def _format(path: str) -> str:
     if ext in (".md", ".markdown"):
         return "md"
     raise SteelyardError("must end in .html or .md (the format follows the name)", file=path, field="--output")
-
-
-def chart_svg(chart) -> str:
-    """A text chart through rich's terminal recorder: SVG without an image library."""
-    from rich.console import Console
-    from rich.text import Text
-
-    from steelyard.io.report.text import clean
-
-    legend = [f"{m}  {t}" for m, t in chart.legend]
-    lines = [*chart.lines, "", *legend]
-    console = Console(record=True, file=io.StringIO(), width=max(len(s) for s in lines) + 1,
-                      force_terminal=True, color_system="truecolor", highlight=False, markup=False)
-    marks = {m for m, _ in chart.legend}
-    for n, line in enumerate(lines):
-        # marks are styled inside the plot (right of the axis) and as a legend line's first character
-        start = next((j + 1 for j, ch in enumerate(line) if ch in "│┤"), len(line)) if n < len(chart.lines) else 1
-        text = Text()
-        for j, ch in enumerate(line):
-            if "\u2800" <= ch <= "\u28ff":
-                text.append(ch, style="#4fa3e0")
-            elif ch in marks and (j >= start if n < len(chart.lines) else j == 0):
-                text.append(ch, style="bold #ffb000")
-            elif ch in "│┤└─┬":
-                text.append(ch, style="#888888")
-            else:
-                text.append(ch)
-        console.print(text, no_wrap=True, overflow="ignore", crop=False)
-    svg = console.export_svg(title=f"envelope {clean(chart.envelope)!r}")
-    # rich asks a CDN for its web font; a report must open offline and fetch nothing
-    return re.sub(r"@font-face\s*\{[^}]*\}", "", svg)
 
 
 def _loadouts(args, loaded) -> list:
@@ -104,20 +72,28 @@ def run(args) -> int:
     loaded = load_for_cli(args.file)
     report = build_report(loaded.ledger, source=loaded.path, loadouts=_loadouts(args, loaded),
                           system=args.units, since=since, samples=args.samples, seed=args.seed)
-    svgs = {c.envelope: chart_svg(c) for c in report.charts}
+    from steelyard.io.report.svg_envelope import envelope_svg
+
+    svgs = {c.envelope: envelope_svg(c) for c in report.charts}
     files: list[tuple[str, str]] = []
     if kind == "html":
         from steelyard.io.report.html import render_html
 
-        files.append((args.output, render_html(report, svgs)))
+        files.append((args.output, render_html(report, svgs)))  # the charts inline
     else:
+        from steelyard.io.report.chart_files import envelope_files, trend_file
         from steelyard.io.report.md import render_markdown
+        from steelyard.io.report.svg import standalone
+        from steelyard.io.report.trend import trend_svg
 
         stem = os.path.splitext(os.path.basename(args.output))[0]
         folder = os.path.dirname(args.output)
-        images = {c.envelope: f"{stem}-chart-{k + 1}.svg" for k, c in enumerate(report.charts)}
-        files += [(os.path.join(folder, images[name]), svg) for name, svg in svgs.items()]
-        files.append((args.output, render_markdown(report, images)))
+        images = envelope_files(stem, [c.envelope for c in report.charts])
+        files += [(os.path.join(folder, images[name]), standalone(svg)) for name, svg in svgs.items()]
+        trend = trend_svg(report.trend, report.units) if report.trend is not None else ""
+        if trend:
+            files.append((os.path.join(folder, trend_file(stem)), standalone(trend)))
+        files.append((args.output, render_markdown(report, images, trend_file(stem) if trend else None)))
     for path, _ in files:  # every output (charts too) is checked before any is written
         check_output(path, inputs=(loaded.path,))
     for path, text in files:  # all built before any is written

@@ -161,14 +161,29 @@ def _placements(console, diff: LedgerDiff, du) -> None:
         console.print(T(f"  {c.kind} {c.id} ({c.file})"))
         for key, (old, new) in c.fields.items():
             if key == "at":
-                old = None if old is None else "[" + ", ".join(fmt(du.l(v)) for v in old) + f"] {lu}"
-                new = None if new is None else "[" + ", ".join(fmt(du.l(v)) for v in new) + f"] {lu}"
+                old = None if old is None else "[" + ", ".join(du.num(v, "length") for v in old) + f"] {lu}"
+                new = None if new is None else "[" + ", ".join(du.num(v, "length") for v in new) + f"] {lu}"
             console.print(T(f"    {key}: {'—' if old is None else old} → {'—' if new is None else new}"))
         ma, mb = c.mass
-        console.print(T(f"    carries {'—' if ma is None else fmt(du.m(ma))} → {'—' if mb is None else fmt(du.m(mb))}"
+        console.print(T(f"    carries {'—' if ma is None else du.num(ma, "mass")} → {'—' if mb is None else du.num(mb, "mass")}"
                         f" {mu}; moves A's CG by [" + ", ".join(_signed(du.l(v)) for v in c.cg_shift) + f"] {lu}"))
         if c.folded:
             console.print(T(f"    ({c.folded:,} items of it moved with it; the file itself is unchanged)"))
+
+def _logged(console, diff: LedgerDiff, max_items: int) -> None:
+    """The change-log entries B holds and A does not: what the diff spans, each with its reason."""
+    from steelyard.core.history.changes import logged_since
+
+    logged = logged_since(diff.a.ledger, diff.b.ledger)
+    if not logged:
+        return
+    shown = _limit(len(logged), max_items)
+    console.print(T(f"Changes logged in B since A ({len(logged):,}), oldest first:"))
+    for c in logged[:shown]:
+        what = " ".join(x for x in (c.action, c.item or "") if x)
+        why = "; ".join(x for x in (c.reason and f"why: {c.reason}", c.request and f"request {c.request}") if x)
+        console.print(T(f"  {c.time}  {c.author}  {what}: {c.summary}" + (f"  ({why})" if why else "  (no reason given)")))
+    _more(console, len(logged), shown)
 
 
 def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None, max_items: int,
@@ -191,4 +206,5 @@ def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None,
     _totals(console, diff, du)
     _envelopes(console, diff, du)
     _definitions(console, diff, du)
+    _logged(console, diff, max_items)
 

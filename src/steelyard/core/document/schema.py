@@ -44,7 +44,7 @@ WEIGHING = {"point": WEIGHING_POINT, "on_board": WEIGHING_ADJUST, "missing": WEI
 STEP = {"name": VALUE, "samples": VALUE, "burn": VALUE, "remove": VALUE, "add": VALUE, "amount": VALUE}
 SEQUENCE = {"name": VALUE, "loadout": VALUE, "end_condition": VALUE, "samples": VALUE, "step": STEP, USER: OPEN}
 CHANGE = {"time": VALUE, "author": VALUE, "action": VALUE, "item": VALUE, "summary": VALUE, "reason": VALUE,
-          "d_mass_kg": VALUE, "d_cg_m": VALUE, "d_margin_m": OPEN, "before": OPEN, "after": OPEN}
+          "request": VALUE, "d_mass_kg": VALUE, "d_cg_m": VALUE, "d_margin_m": OPEN, "before": OPEN, "after": OPEN}
 SNAPSHOT = {"format": VALUE, "taken": VALUE, "author": VALUE, "source": VALUE, "source_sha256": VALUE,
             "loadout": VALUE, "condition": VALUE, "names": OPEN, "sources": VALUE, "steelyard_version": VALUE, "caution": VALUE, "content_sha256": VALUE, "totals": OPEN,
             "envelopes": OPEN}

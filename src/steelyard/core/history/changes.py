@@ -19,7 +19,7 @@ from __future__ import annotations
 import datetime as _dt
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 
 from steelyard.core.errors import SteelyardError
 from steelyard.core.physics.inertia import COMPONENTS
@@ -52,6 +52,10 @@ class Change:
     effect: Effect
     before: dict | None  # changed fields before (None: the thing did not exist)
     after: dict | None  # changed fields after (None: the thing is gone)
+    reason: str | None = None  # why, in the engineer's words (asked on save; optional)
+    request: str | None = None  # the change request / ticket number it answers (optional)
+    #: the [[change]] table as read from the file: written back as it was, so an old log keeps its bytes
+    table: dict | None = field(default=None, compare=False, repr=False)
 
 
 # --------------------------------------------------------------------------- effect
@@ -220,6 +224,27 @@ class History:
         written, its placed files' rows made again after one of them was saved."""
         self._ledger = ledger
 
+    def annotate(self, reason: str | None, request: str | None, *, saved: Sequence[Change] = ()) -> int:
+        """Give this session's changes that have no reason or request yet these two notes.
+
+        Changes in `saved` (by identity: already written to the file) keep what they
+        had, so a reason given on one save is not stamped on the changes of an earlier
+        one. Returns how many changes were annotated. Undo still hands back the same
+        ledgers: only the log entry changes.
+        """
+        reason = " ".join(str(reason or "").split()) or None
+        request = " ".join(str(request or "").split()) or None
+        if reason is None and request is None:
+            return 0
+        kept = {id(c) for c in saved}
+        n = 0
+        for k, (c, led) in enumerate(self._done):
+            if id(c) in kept or c.reason or c.request:
+                continue
+            self._done[k] = (replace(c, reason=reason, request=request), led)
+            n += 1
+        return n
+
     def undo(self) -> Change | None:
         """Go back one change; returns it, or None when there is nothing of this session to undo."""
         return self._step(self._done, self._undone)
@@ -251,20 +276,70 @@ def _tomlable(v: object) -> bool:
 # --------------------------------------------------------------------------- file form
 
 
+#: significant figures of every number a new [[change]] table holds: a log is read by people, and
+#: float noise (0.30000000000000004) or the 17 digits of a unit conversion say nothing to them
+LOG_DIGITS = 6
+
+
+def rounded(x: float, digits: int = LOG_DIGITS) -> float | None:
+    """`x` to `digits` significant figures (the shortest text that reads back to it); None if not finite."""
+    x = float(x)
+    if not math.isfinite(x):
+        return None
+    r = float(f"{x:.{digits}g}")
+    return 0.0 if r == 0 else r  # no "-0.0" in a log
+
+
+def compact_value(v):
+    """A TOML value with floats rounded (`rounded`) and non-finite numbers left out: a table loses
+    that key; a list holding one is dropped whole (None), since a list keeps no place for a gap."""
+    if isinstance(v, bool) or isinstance(v, int) or isinstance(v, str):
+        return v
+    if isinstance(v, float):
+        return rounded(v)
+    if isinstance(v, Mapping):
+        out = {}
+        for k, x in v.items():
+            y = compact_value(x)
+            if y is not None:
+                out[k] = y
+        return out
+    if isinstance(v, (list, tuple)):
+        out = [compact_value(x) for x in v]
+        return None if any(y is None for y in out) else out
+    return v
+
+
 def change_to_table(c: Change) -> dict:
-    """One `[[change]]` table. Undefined margins are written as nan (TOML has it)."""
+    """One `[[change]]` table, compact: numbers to `LOG_DIGITS` significant figures, and what is
+    undefined (a margin outside the envelope's mass range, a CG of no mass) left out rather than
+    written as nan. A change read from the file is written back as it was read."""
+    if c.table is not None:
+        return c.table
     t: dict = {"time": c.time, "author": c.author, "action": c.action}
     if c.item is not None:
         t["item"] = c.item
     t["summary"] = c.summary
-    t["d_mass_kg"] = float(c.effect.d_mass)
-    t["d_cg_m"] = [float(x) for x in c.effect.d_cg]
-    t["d_margin_m"] = {n: (math.nan if m is None else float(m)) for n, m in c.effect.d_margin}
-    if c.before is not None:
-        t["before"] = _plain(c.before)
-    if c.after is not None:
-        t["after"] = _plain(c.after)
+    if c.reason:
+        t["reason"] = c.reason
+    if c.request:
+        t["request"] = c.request
+    t["d_mass_kg"] = rounded(c.effect.d_mass) or 0.0
+    d_cg = compact_value([float(x) for x in c.effect.d_cg])
+    if d_cg is not None:
+        t["d_cg_m"] = d_cg
+    margins = compact_value({n: (math.nan if m is None else float(m)) for n, m in c.effect.d_margin})
+    if margins:
+        t["d_margin_m"] = margins
+    for key, side in (("before", c.before), ("after", c.after)):
+        if side is not None:
+            t[key] = compact_value(_plain(side))
     return t
+
+
+def compact(c: Change) -> Change:
+    """The change as its compact table reads back (what the file will hold)."""
+    return _table_to_change(change_to_table(c), 1)
 
 
 def _plain(v):
@@ -273,6 +348,10 @@ def _plain(v):
     if isinstance(v, (list, tuple)):
         return [_plain(x) for x in v]
     return v
+
+
+#: d_cg_m left out of a table: undefined on every axis (math.nan itself, so equal to itself in a tuple)
+_NO_CG = [math.nan, math.nan, math.nan]
 
 
 def _number(v: object) -> bool:
@@ -308,10 +387,16 @@ def _table_to_change(t: object, n: int) -> Change:
     summary = t.get("summary", "")
     if not isinstance(summary, str):
         raise fail("must be text", "summary")
+    notes = {}
+    for key in ("reason", "request"):
+        v = t.get(key)
+        if v is not None and not isinstance(v, str):
+            raise fail("must be text", key)
+        notes[key] = v or None
     dm = t.get("d_mass_kg")
     if not _number(dm):
         raise fail("missing or not a number", "d_mass_kg")
-    dcg = t.get("d_cg_m")
+    dcg = t.get("d_cg_m", _NO_CG)  # left out: undefined (no mass on a side)
     if not isinstance(dcg, list) or len(dcg) != 3 or not all(_number(x) for x in dcg):
         raise fail("must be three numbers [dx, dy, dz]", "d_cg_m")
     raw = t.get("d_margin_m", {})
@@ -329,8 +414,8 @@ def _table_to_change(t: object, n: int) -> Change:
             raise fail("must be a table", key)
         sides[key] = v
     return Change(time, texts["author"], texts["action"], item, summary,
-                  Effect(float(dm), tuple(float(x) for x in dcg), tuple(margins)),
-                  sides["before"], sides["after"])
+                  Effect(float(dm), tuple(x if x is math.nan else float(x) for x in dcg), tuple(margins)),
+                  sides["before"], sides["after"], notes["reason"], notes["request"], table=t)
 
 
 def log_from_ledger(ledger: Ledger) -> tuple[Change, ...]:
@@ -350,3 +435,20 @@ def ledger_with_log(ledger: Ledger, log: Sequence[Change]) -> Ledger:
     if "index" in ledger.__dict__:
         new.__dict__["index"] = ledger.index
     return new
+
+
+def logged_since(older: Ledger, newer: Ledger) -> tuple[Change, ...]:
+    """The changes `newer`'s log holds that `older`'s does not, oldest first: what a diff of the two spans.
+
+    Entries are matched by time, author, action, item and summary (a saved entry never changes,
+    so the same edit has the same five in both files); a log that cannot be read counts as empty.
+    """
+    def key(c: Change) -> tuple:
+        return (c.time, c.author, c.action, c.item, c.summary)
+
+    try:
+        old = {key(c) for c in log_from_ledger(older)}
+        new = log_from_ledger(newer)
+    except SteelyardError:
+        return ()
+    return tuple(c for c in new if key(c) not in old)

@@ -15,6 +15,7 @@ import math
 
 import numpy as np
 
+from steelyard.core.history.changes import logged_since
 from steelyard.core.history.diff import DefinitionChanges, LedgerDiff
 from steelyard.core.history.diff_tables import NAMED, SINGLE, TableChange, TableChanges
 from steelyard.io.exchange.rollup_json import record_from
@@ -112,6 +113,7 @@ def diff_record(diff: LedgerDiff, a_source: dict | None = None, b_source: dict |
         "envelope_definitions": _definitions(diff.envelope_definitions),
         "loadout_definitions": _definitions(diff.loadout_definitions),
         "definitions": _tables(diff.tables),
+        "logged": [logged_entry(c) for c in logged_since(a.ledger, b.ledger)],
     }
     if a.ledger.placed or b.ledger.placed:
         out["placements"] = [
@@ -124,3 +126,9 @@ def diff_record(diff: LedgerDiff, a_source: dict | None = None, b_source: dict |
              "cg_shift_m": _vec(c.cg_shift), "items_moved_with_it": c.folded}
             for c in diff.placements]
     return out
+
+
+def logged_entry(c) -> dict:
+    """A change-log entry of B that A's log lacks, with its reason and change request (None when not given)."""
+    return {"time": c.time, "author": c.author, "action": c.action, "item": c.item, "summary": c.summary,
+            "reason": c.reason, "request": c.request}

@@ -20,7 +20,7 @@ from dataclasses import fields as dc_fields, is_dataclass
 
 from steelyard.core.document.model import ITEM_MORE, FileUnits, Ledger
 from steelyard.io.ledger.toml_write import key, table_blocks, value
-from steelyard.io.ledger.write import (amount_text, envelope_fields, envelope_lines, frame_fields, item_fields,
+from steelyard.io.ledger.write import (amount_text, change_lines, envelope_fields, envelope_lines, frame_fields, item_fields,
                                        item_lines, loadout_fields, loadout_lines, table_lines, units_fields)
 
 #: arrays of tables: file name -> Ledger field
@@ -118,6 +118,8 @@ def entry_text(kind: str, entry: object, units: FileUnits) -> str:
         blocks = [table_lines("units", units_fields(entry))]
     elif kind == "frame":
         blocks = [table_lines("frame", frame_fields(entry))]
+    elif kind == "change":
+        blocks = [change_lines(entry)]
     else:
         blocks = table_blocks(key(kind), dict(entry), array=kind in ARRAYS)
     return "\n\n".join("\n".join(b) for b in blocks)

@@ -19,7 +19,7 @@ from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.document.model import Amount, Envelope, FileUnits, Frame, Item, Ledger, Loadout, document_of
 from steelyard.core.errors import UnitError
 from steelyard.core.units import parse_quantity, unit_factor
-from steelyard.io.ledger.toml_write import key, number, string, tables, value
+from steelyard.io.ledger.toml_write import is_table_array, key, number, string, table_blocks, value
 
 
 def _factor(unit: str, dimension: str) -> float:
@@ -170,6 +170,28 @@ def other_tables(ledger: Ledger, *, snapshot: bool = True) -> dict:
     return out
 
 
+def change_lines(entry) -> list[str]:
+    """One `[[change]]` entry, compact: every key on its own line, tables (`d_margin_m`, `before`,
+    `after`) inline, so an edit costs a dozen lines, not two dozen under sub-table headers."""
+    return ["[[change]]"] + [f"{key(k)} = {value(v)}" for k, v in entry.items()]
+
+
+def other_blocks(ledger: Ledger, *, snapshot: bool = True) -> list[list[str]]:
+    """The lines of every table `other_tables` lists, table by table, in that order."""
+    blocks: list[list[str]] = []
+    for name, v in other_tables(ledger, snapshot=snapshot).items():
+        if name == "change":
+            blocks.extend(change_lines(entry) for entry in v)
+        elif isinstance(v, dict):
+            blocks.extend(table_blocks(key(name), v))
+        elif is_table_array(v):
+            for entry in v:
+                blocks.extend(table_blocks(key(name), entry, array=True))
+        else:
+            raise TypeError(f"top-level {name!r} is not a table")
+    return blocks
+
+
 def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True) -> str:
     """The whole file; `snapshot=False` leaves out the [snapshot] record (what its hash covers).
 
@@ -183,7 +205,7 @@ def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True) -> str:
     blocks.extend(loadout_lines(lo) for lo in ledger.loadouts)
     blocks.extend(envelope_lines(env, u) for env in ledger.envelopes)
     text = "\n\n".join("\n".join(b) for b in blocks) + "\n"
-    rest = tables(other_tables(ledger, snapshot=snapshot))
+    rest = other_blocks(ledger, snapshot=snapshot)
     if rest:
-        text += "\n" + rest
+        text += "\n" + "\n\n".join("\n".join(b) for b in rest) + "\n"
     return text

@@ -270,10 +270,12 @@ def _changes(r: Report) -> list[Block]:
     title = "Change log" + (f" since {r.since}" if r.since else "")
     if not r.changes:
         return [Block("h2", title), Block("p", "No entries.")]
+    notes = [k for k in ("reason", "request") if any(c.get(k) for c in r.changes)]  # columns only when used
     rows = [[str(c["time"] if c["time"] is not None else "") + ("" if c["time_readable"] else " (unreadable time)"),
-             str(c["author"] or ""), str(c["action"] or ""), str(c["item"] or ""), str(c["summary"] or "")]
+             str(c["author"] or ""), str(c["action"] or ""), str(c["item"] or ""), str(c["summary"] or ""),
+             *(str(c.get(k) or "") for k in notes)]
             for c in r.changes]
-    return [Block("h2", title), _table(["time", "author", "action", "item", "summary"], rows, 99)]
+    return [Block("h2", title), _table(["time", "author", "action", "item", "summary", *notes], rows, 99)]
 
 
 def report_blocks(report: Report) -> list[Block]:

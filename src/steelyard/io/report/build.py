@@ -60,8 +60,15 @@ class LoadoutResult:
 class Chart:
     envelope: str
     axis: str
-    lines: list[str]
+    lines: list[str]  # the chart as text (Markdown shows it under the picture)
     legend: list[tuple[str, str]]  # (mark, text)
+    # the same figures as numbers, display units, for the vector chart (io.report.svg_envelope)
+    polygon: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))  # (k, 2) [cg, mass]
+    points: tuple = ()  # (mark, label, cg, mass, inside) per loading
+    regions: tuple = ()  # (k, 2) uncertainty outlines
+    paths: tuple = ()  # (mark, name, loadout, (n, 2) rows) per sequence
+    x_label: str = "CG"
+    y_label: str = "mass"
 
 
 @dataclass(frozen=True)
@@ -109,7 +116,7 @@ def changes_since(ledger: Ledger, since: dt.datetime | None) -> list[dict]:
     for entry in ledger.changes:
         if not isinstance(entry, dict):
             continue
-        row = {k: entry.get(k) for k in ("time", "author", "action", "item", "summary")}
+        row = {k: entry.get(k) for k in ("time", "author", "action", "item", "summary", "reason", "request")}
         try:
             when = _utc(entry.get("time")) if entry.get("time") is not None else None
         except SteelyardError:
@@ -199,8 +206,13 @@ def _chart(ledger: Ledger, env, results: list[LoadoutResult], du: DisplayUnits, 
                              f"{path.loadout!r}"))
     axis_word = f"CG {AXIS_NAMES[k]} (+{ledger.frame.direction(k)}) [{pretty_unit(du.length)}]"
     # loadings drawn last: where a sequence ends on a loading, the loading's mark shows
-    lines = text_chart(poly, ends + points, regions, paths, x_label=axis_word, y_label=f"mass [{pretty_unit(du.mass)}]")
-    return Chart(env.name, env.axis, lines, [(m, clean(t)) for m, t in legend])
+    y_word = f"mass [{pretty_unit(du.mass)}]"
+    lines = text_chart(poly, ends + points, regions, paths, x_label=axis_word, y_label=y_word)
+    loadings = tuple((r.mark, r.label, x, w, next(e for e in r.envelopes if e.name == env.name).inside)
+                     for r, (_m, x, w) in zip(results, points))
+    runs = tuple((m, p.name, p.loadout, rows) for (m, _x, _w), p, rows in zip(ends, sequences, paths))
+    return Chart(env.name, env.axis, lines, [(m, clean(t)) for m, t in legend], poly, loadings, tuple(regions),
+                 runs, axis_word, y_word)
 
 
 def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], system: str | None = None,

@@ -1,10 +1,10 @@
 """A CG envelope chart as lines of text: braille dots for edges, one glyph per loading.
 
-The report needs a picture of each envelope with the loadouts on it, but a
-hand-written image library is not worth its bugs. Text is enough: each
-character cell holds 2 x 4 braille dots, so a 64 x 18 cell chart has a
-128 x 72 dot raster. The CLI turns the lines into SVG through rich's
-terminal export; Markdown can show them as they are. Pure numpy and str.
+The text copy of each envelope chart a Markdown report shows under its
+vector picture (io.report.svg_envelope draws the same figures), readable
+in a terminal or a plain-text diff. Each character cell holds 2 x 4
+braille dots, so a 64 x 18 cell chart has a 128 x 72 dot raster. `ticks`
+(1, 2, 5 x 10^n steps) serves both charts. Pure numpy and str.
 """
 
 from __future__ import annotations

@@ -38,7 +38,9 @@ def _table(b: Block) -> str:
 def _chart(b: Block, svgs: dict[str, str]) -> str:
     c = b.chart
     svg = svgs.get(c.envelope)
-    picture = svg if svg else f'<pre class="chart">{escape(chr(10).join(c.lines))}</pre>'
+    if svg:  # the vector chart carries its own axes and legend
+        return f"<figure>\n{svg}\n</figure>"
+    picture = f'<pre class="chart">{escape(chr(10).join(c.lines))}</pre>'
     legend = "".join(f"<li><code>{escape(m)}</code> {escape(t)}</li>" for m, t in c.legend)
     return f"<figure>\n{picture}\n<figcaption><ul>{legend}</ul></figcaption>\n</figure>"
 

@@ -41,8 +41,13 @@ def _fence(lines: list[str]) -> list[str]:
     return [ticks + "text", *lines, ticks]
 
 
-def render_markdown(report: Report, images: dict[str, str] | None = None) -> str:
-    """`images`: envelope name -> relative path of its SVG chart, linked from the text."""
+def _link(path: str) -> str:
+    return path.replace(" ", "%20").replace("(", "%28").replace(")", "%29")
+
+
+def render_markdown(report: Report, images: dict[str, str] | None = None, trend_image: str | None = None) -> str:
+    """`images`: envelope name -> relative path of its SVG chart, linked from the text;
+    `trend_image`: that of the mass-history chart, when the report has one."""
     images = images or {}
     out: list[str] = []
     for b in report_blocks(report):
@@ -59,10 +64,11 @@ def render_markdown(report: Report, images: dict[str, str] | None = None) -> str
         elif b.kind == "chart":
             c = b.chart
             if c.envelope in images:
-                path = images[c.envelope].replace(" ", "%20").replace("(", "%28").replace(")", "%29")
-                out += [f"![chart of envelope {md_escape(c.envelope)}]({path})", ""]
+                out += [f"![chart of envelope {md_escape(c.envelope)}]({_link(images[c.envelope])})", ""]
             out += [*_fence(c.lines), ""]
             out += [f"- `{m}` {md_escape(t)}" for m, t in c.legend] + [""]
         elif b.kind == "list":
             out += [f"- {md_escape(t)}" for t in b.items] + [""]
+        elif b.kind == "svg" and b.text and trend_image:
+            out += [f"![mass history]({_link(trend_image)})", ""]
     return "\n".join(out).rstrip() + "\n"

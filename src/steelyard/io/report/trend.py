@@ -13,7 +13,7 @@ from __future__ import annotations
 import datetime as dt
 import math
 from dataclasses import dataclass
-from html import escape
+from steelyard.io.report.svg import esc as escape  # XML 1.0 safe, entities for & < > "
 
 import numpy as np
 

@@ -26,6 +26,7 @@ from steelyard.tui.screens.loading_screen import LoadingScreen
 from steelyard.tui.widgets.log_view import when
 from steelyard.tui.messages import Loaded, LoadFailed, LoadProgress
 from steelyard.tui.screens.prompt import TextPrompt
+from steelyard.tui.screens.reason_prompt import ReasonPrompt
 from steelyard.tui.state.session import Session
 from steelyard.tui.text import clean
 
@@ -176,6 +177,8 @@ class FileFlows:
                 if await self._ask(f"{path} exists. Replace it?", [("replace", "Replace"),
                                                                    ("cancel", "Cancel")]) != "replace":
                     return False
+        if (path is not None or not s.read_only) and not await self._ask_reason():
+            return False
         flags: dict[str, bool] = {}
         old_path = s.path
         while True:
@@ -210,6 +213,21 @@ class FileFlows:
             self.notify(f"saved {written}", markup=False, timeout=5)
         self.update_title()
         self.refresh_views()
+        return True
+
+    async def _ask_reason(self) -> bool:
+        """Ask why (and under which change request) for the changes this save writes; False: cancelled.
+
+        Asked only when some unsaved change has no reason yet; Enter with nothing typed saves
+        without one."""
+        s = self.session
+        waiting = s.unexplained()
+        if not waiting:
+            return True
+        answer = await self.push_screen_wait(ReasonPrompt(len(waiting)))
+        if answer is None:
+            return False
+        s.annotate(*answer)
         return True
 
     # ------------------------------------------------------------ open, quit

@@ -56,6 +56,7 @@ class Session:
         self.demo = demo
         self.author = author or who_am_i()
         self.saved: Ledger = self.history.ledger  # a demo copy is unsaved only once it is edited
+        self.saved_log: tuple[Change, ...] = self.history.log  # the log as the file holds it
         self.loadout: str | None = None
         self.system: UnitChoice = _saved_units()  # the person's own display units (not the ledger's)
         self.lock: Lock | None = None
@@ -268,6 +269,16 @@ class Session:
             return effect_of(known[id(old)], known[id(new)])
         return None
 
+    def unexplained(self) -> list[Change]:
+        """Changes of this session not saved yet and without a reason or request: what a save asks about."""
+        kept = {id(c) for c in self.saved_log}
+        return [c for c in self.log if id(c) not in kept and not c.reason and not c.request]
+
+    def annotate(self, reason: str | None, request: str | None) -> int:
+        """Give the unsaved changes without a reason this reason and change request (both optional)."""
+        self.flush()
+        return self.history.annotate(reason, request, saved=self.saved_log)
+
     # -------------------------------------------------------------- journal
     def _change(self, action: str, item: str | None, summary: str) -> dict:
         """What the journal keeps beside an edit, so a restore rebuilds the change log."""
@@ -385,6 +396,7 @@ class Session:
             raise
         self.loaded = record
         self.saved = ledger
+        self.saved_log = tuple(log)
         if new_lock is not None:
             self.release_lock()
             self.lock, self.holder, self.no_lock, self.path, self.demo = new_lock, None, None, target, False

@@ -32,8 +32,20 @@ def effect_text(effect, du: DisplayUnits) -> str:
     parts = [f"Δmass {signed(du.m(effect.d_mass))} {pretty_unit(du.mass)}"]
     parts.append("ΔCG " + " ".join(f"{AXIS_NAMES[k]} {signed(du.l(effect.d_cg[k]))}" for k in range(3)) + f" {lu}")
     for name, d in effect.d_margin:
+        if d is None:  # undefined (outside the envelope's mass range): the file leaves it out too
+            continue
         parts.append(f"Δmargin {clean(name)} {signed(None if d is None else du.l(d))} {lu}")
     return "; ".join(parts)
+
+
+def reason_text(c) -> str:
+    """'why: <reason> (request CR-12)', or '' when the change carries neither."""
+    parts = []
+    if c.reason:
+        parts.append(f"why: {clean(c.reason)}")
+    if c.request:
+        parts.append(f"(request {clean(c.request)})" if parts else f"request {clean(c.request)}")
+    return " ".join(parts)
 
 
 def log_text(history, du: DisplayUnits) -> Text:
@@ -49,6 +61,9 @@ def log_text(history, du: DisplayUnits) -> Text:
         if c.item:
             t.append(f" {clean(c.item)}")
         t.append("\n    " + clean(c.summary) + "\n")
+        note = reason_text(c)
+        if note:
+            t.append("    " + note + "\n", style="italic")
         eff = effect_text(c.effect, du)
         if eff:
             t.append("    " + eff + "\n")
