@@ -165,7 +165,7 @@ def _placements(console, diff: LedgerDiff, du) -> None:
                 new = None if new is None else "[" + ", ".join(du.num(v, "length") for v in new) + f"] {lu}"
             console.print(T(f"    {key}: {'—' if old is None else old} → {'—' if new is None else new}"))
         ma, mb = c.mass
-        console.print(T(f"    carries {'—' if ma is None else du.num(ma, "mass")} → {'—' if mb is None else du.num(mb, "mass")}"
+        console.print(T(f"    carries {'—' if ma is None else du.num(ma, 'mass')} → {'—' if mb is None else du.num(mb, 'mass')}"
                         f" {mu}; moves A's CG by [" + ", ".join(_signed(du.l(v)) for v in c.cg_shift) + f"] {lu}"))
         if c.folded:
             console.print(T(f"    ({c.folded:,} items of it moved with it; the file itself is unchanged)"))
