@@ -20,6 +20,9 @@ COMPONENTS = ("xx", "yy", "zz", "xy", "xz", "yz")
 #: Relative tolerance of the realisability check, as a fraction of the trace.
 #: Values typed with six significant figures pass; real violations do not.
 REALISABLE_RTOL = 1e-6
+#: Below this (kg·m², about 1e-300) components are at or near the subnormal range, where floats keep
+#: too few digits for the test to mean anything: such a tensor is taken as zero.
+TINY_INERTIA = 2.0 ** -997
 
 
 def tensor_from_six(six: np.ndarray) -> np.ndarray:
@@ -138,6 +141,8 @@ def realisability_problem(tensor: np.ndarray, rtol: float = REALISABLE_RTOL) -> 
     # the test is scale-free: run it on the tensor scaled by a power of two (exact), so entries
     # near the float limit cannot overflow the trace; moments are scaled back for the message
     peak = float(np.abs(t).max())
+    if peak < TINY_INERTIA:  # subnormal floats carry no relative precision: such a tensor is zero
+        return None
     shift = math.frexp(peak)[1] if peak > 0 else 0
     t = np.ldexp(t, -shift)
     trace = float(np.trace(t))
