@@ -491,6 +491,7 @@ def test_zero_where_physical():
 def test_a_shape_of_subnormal_mass_is_not_called_impossible():
     # float arithmetic (IEEE 754): 5e-324 is the smallest subnormal; a disc that light has a tensor of
     # rounded subnormals, which is zero for any physical purpose, never "not physically possible"
-    t = shape_tensor("cylinder", {"radius": 0.3, "length": 0.01}, "z", 5e-324)
-    assert realisability_problem(t) is None
+    for kind, mass, radius in (("disc", 1e-323, 7.0), ("disc", 3e-322, 0.3), ("ring", 5e-324, 7.0)):
+        t = shape_tensor(kind, {"radius": radius}, "x", mass)
+        assert realisability_problem(t) is None, (kind, mass)
     assert realisability_problem(np.diag([1.0, 1.0, 3.0])) is not None  # the check still bites
