@@ -272,3 +272,22 @@ async def test_keys_typed_as_the_form_opens_land_in_its_first_field(tmp_path):
         await pilot.press("enter", *"avionics", "tab", *"60", "ctrl+s")  # no pause after Enter
         await settle(pilot, app)
         assert app.session.ledger.allocations == ({"group": "avionics", "mass": 60},)
+
+
+async def test_a_burst_of_keys_in_a_set_up_form_lands_field_by_field(tmp_path):
+    # keys posted all at once, as a fast typist or an unbracketed paste over SSH delivers them: the Tabs
+    # must move focus between the characters, not after them (common practice: type-ahead is kept in order)
+    from textual import events
+
+    path = copy_fixture(tmp_path)
+    async with editor(path) as (app, pilot):
+        await open_entry(app, pilot, "limit:new")
+        chars = {"tab": "\t", "space": " "}
+        for key in [*"mtow", "tab", "tab", "tab", "tab", *"7.2", "space", *"kg"]:
+            app.post_message(events.Key(key, chars.get(key, key)))
+        await settle(pilot, app)
+        from steelyard.tui.screens.setup_form import _fid
+
+        assert app.screen.query_one(f"#{_fid('name')}").value == "mtow"
+        assert app.screen.query_one(f"#{_fid('max_mass')}").value == "7.2 kg"
+        await pilot.press("escape")

@@ -19,6 +19,7 @@ from textual import on
 from textual.binding import Binding
 from textual.containers import Grid, Horizontal, VerticalScroll
 from textual.screen import ModalScreen
+from steelyard.tui.widgets.ordered_input import OrderedInput
 from textual.widgets import Button, Input, Label, Select, Static
 
 from steelyard.core.display import pretty_unit
@@ -54,7 +55,10 @@ class AssemblyForm(ModalScreen[PlacementResult | None]):
     #asm-buttons { height: 1; margin-top: 1; }
     #asm-buttons Button { margin-right: 2; }
     """
-    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+    # Tab moves focus in the order keys arrive (a burst or a paste over SSH lands field by field)
+    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+                Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
+                Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
     def __init__(self, ledger: Ledger, parent_path: str, table: dict | None, preview: Callable[[Ledger], Text]):
         super().__init__()
@@ -78,7 +82,7 @@ class AssemblyForm(ModalScreen[PlacementResult | None]):
                                          ("x", f"at x [{lu}]", ""), ("y", f"at y [{lu}]", ""),
                                          ("z", f"at z [{lu}]", "")):
                     yield Label(Text(label), classes="asm-label")
-                    yield Input(self.start[key], id=f"a-{key}", compact=True, placeholder=hint)
+                    yield OrderedInput(self.start[key], id=f"a-{key}", compact=True, placeholder=hint)
                 yield Label("mirror", classes="asm-label")
                 yield Select([("none", ""), ("negate x", "x"), ("negate y", "y"), ("negate z", "z")],
                              value=self.start["mirror"], allow_blank=False, compact=True, id="a-mirror")

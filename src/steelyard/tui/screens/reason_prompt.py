@@ -13,13 +13,17 @@ from textual import on
 from textual.binding import Binding
 from textual.containers import Vertical
 from textual.screen import ModalScreen
+from steelyard.tui.widgets.ordered_input import OrderedInput
 from textual.widgets import Input, Static
 
 
 class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
     """Enter answers (reason, request), either maybe empty; Escape gives None (the save is not made)."""
 
-    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+    # Tab moves focus in the order keys arrive (a burst or a paste over SSH lands field by field)
+    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+                Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
+                Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
     def __init__(self, count: int) -> None:
         super().__init__()
@@ -32,9 +36,9 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
             yield Static(Text(f"Recorded with the {what} of this save. Optional: Enter skips.", style="dim"),
                          classes="dialog-text")
             yield Static("Reason (why):", classes="dialog-text")
-            yield Input(placeholder="e.g. supplier data sheet rev C", id="reason-input")
+            yield OrderedInput(placeholder="e.g. supplier data sheet rev C", id="reason-input")
             yield Static("Change request:", classes="dialog-text")
-            yield Input(placeholder="e.g. CR-0107", id="request-input")
+            yield OrderedInput(placeholder="e.g. CR-0107", id="request-input")
             yield Static("Enter to save, Tab for the next field, Escape to cancel", classes="dialog-text")
 
     def on_mount(self) -> None:

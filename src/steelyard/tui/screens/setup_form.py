@@ -21,6 +21,7 @@ from textual import on
 from textual.binding import Binding
 from textual.containers import Grid, Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen
+from steelyard.tui.widgets.ordered_input import OrderedInput
 from textual.widgets import Button, Input, Label, Static, TextArea
 
 from steelyard.core.display import pretty_unit
@@ -74,7 +75,10 @@ class SetupForm(ModalScreen[SetupDone | None]):
     #setup-buttons Button { margin-right: 2; }
     SetupForm Input.bad, SetupForm TextArea.bad { background: $error 30%; }
     """
-    BINDINGS = [Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "apply", "Apply", show=False)]
+    # Tab moves focus in the order keys arrive (a burst or a paste over SSH lands field by field)
+    BINDINGS = [Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "apply", "Apply", show=False),
+                Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
+                Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
     def __init__(self, ledger: Ledger, kind: str, at: int | None,
                  preview: Callable[[Ledger, str | None], Text]) -> None:
@@ -107,7 +111,7 @@ class SetupForm(ModalScreen[SetupDone | None]):
                             if f.kind == "rows":
                                 continue
                             yield Label(Text(f.key), classes="form-label")
-                            yield Input(self._initial(f), id=_fid(f.key), compact=True,
+                            yield OrderedInput(self._initial(f), id=_fid(f.key), compact=True,
                                         placeholder=hint(f, self.ledger)[:40])
                     if self.rows is not None:
                         yield Label(Text(f"{self.rows.key}: {hint(self.rows, self.ledger)}"), classes="form-label")
