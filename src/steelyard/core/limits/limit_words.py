@@ -7,7 +7,7 @@ them in the display units, so every place that shows a limit says the same.
 
 from __future__ import annotations
 
-from steelyard.core.display import DisplayUnits, fmt, fmt_sig, pretty_unit
+from steelyard.core.display import DisplayUnits, pretty_unit
 from steelyard.core.limits.status import RoomLeft
 
 #: what each kind of limit is called where a user reads it
@@ -24,14 +24,11 @@ def scope_words(scope) -> str:
 
 
 def quantity(du: DisplayUnits, dimension: str, x: float | None) -> str:
-    """An SI figure in the display unit, with the unit: '2.6530 kg'."""
+    """An SI figure in the display unit by the number rule (docs/numbers.md), with the unit: '2.653 kg'."""
     if x is None:
         return "—"
-    if dimension == "mass":
-        return f"{fmt(du.m(x))} {pretty_unit(du.mass)}"
-    if dimension == "length":
-        return f"{fmt(du.l(x))} {pretty_unit(du.length)}"
-    return f"{fmt_sig(du.i(x), 4)} {pretty_unit(du.inertia)}"
+    unit = {"mass": du.mass, "length": du.length}.get(dimension, du.inertia)
+    return f"{du.num(x, dimension if dimension in ('mass', 'length') else 'inertia')} {pretty_unit(unit)}"
 
 
 def _bounds(f, du: DisplayUnits) -> str:

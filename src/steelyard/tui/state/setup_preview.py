@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from rich.text import Text
 
-from steelyard.core.display import DisplayUnits, fmt, pretty_unit
+from steelyard.core.display import DisplayUnits, pretty_unit
 from steelyard.core.document.model import Ledger
 from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.checks import check_ledger
@@ -34,12 +34,12 @@ def _finding_line(state: str, f, du: DisplayUnits) -> Text:
         return t + Text("does not apply (scope)", style="dim")
     conv, unit = _scale(du, f.dimension)
     what = f"{f.axis} " if f.kind == "inertia" and f.axis else ""
-    lo = None if f.lo is None else fmt(conv(f.lo))
-    hi = None if f.hi is None else fmt(conv(f.hi))
+    lo = None if f.lo is None else du.num(f.lo, f.dimension)
+    hi = None if f.hi is None else du.num(f.hi, f.dimension)
     rng = f"{lo} to {hi}" if lo and hi else f"max {hi}" if hi else f"min {lo}" if lo else "no bound here"
-    t.append(f"{what}{fmt(conv(f.value)) if f.value is not None else '—'} {unit} ({rng})")
+    t.append(f"{what}{du.num(f.value, f.dimension) if f.value is not None else '—'} {unit} ({rng})")
     if f.margin is not None:
-        t.append(f" margin {fmt(conv(f.margin))} ")
+        t.append(f" margin {du.num(f.margin, f.dimension)} ")
     t.append("within" if f.ok else "BROKEN", style="bold" if f.ok else "bold red")
     return t
 
@@ -62,8 +62,8 @@ def effect_lines(kind: str, name: str | None, ledger: Ledger, loadout: str | Non
             if kind == "growth" or a.group == name:
                 ok = a.ok
                 lines.append(Text(f"{clean(a.group or '(whole vehicle)')}: ", style="bold") + Text(
-                    f"predicted {fmt(du.m(a.predicted))} {mu} (basic {fmt(du.m(a.basic))}) of "
-                    f"{fmt(du.m(a.allocation))} {mu}, margin {fmt(du.m(a.margin))}  ") + Text(
+                    f"predicted {du.num(a.predicted, 'mass')} {mu} (basic {du.num(a.basic, 'mass')}) of "
+                    f"{du.num(a.allocation, 'mass')} {mu}, margin {du.num(a.margin, 'mass')}  ") + Text(
                     "within" if ok else "OVER", style="bold" if ok else "bold red"))
         if not lines and kind == "growth":
             lines.append(Text("no [[allocation]] to compare the predicted mass with", style="dim"))
@@ -74,13 +74,13 @@ def effect_lines(kind: str, name: str | None, ledger: Ledger, loadout: str | Non
     elif kind == "fuel":
         for s in report.states:
             if s.kind == "zero-fuel":
-                lines.append(Text(f"{clean(s.name)}: ", style="bold") + Text(f"{fmt(du.m(s.mass))} {mu}"))
+                lines.append(Text(f"{clean(s.name)}: ", style="bold") + Text(f"{du.num(s.mass, 'mass')} {mu}"))
     elif kind == "loadout":
         for s in report.states:
             if s.loadout == name:
                 broken = [f.name for f in s.findings if f.applies and not f.ok]
                 lines.append(Text(f"{clean(s.name)}: ", style="bold") + Text(
-                    f"{fmt(du.m(s.mass))} {mu}, ") + Text(
+                    f"{du.num(s.mass, 'mass')} {mu}, ") + Text(
                     f"{len(broken)} broken: {clean(', '.join(broken))}" if broken else "every check within",
                     style="bold red" if broken else "bold"))
     if not lines:
