@@ -17,8 +17,8 @@ from steelyard.tui.app import SteelyardApp
 ROOT = Path(__file__).resolve().parents[1]
 
 
-async def shoot(out: Path, size: tuple[int, int], loadout: str | None) -> Path:
-    app = SteelyardApp(None)
+async def shoot(out: Path, size: tuple[int, int], loadout: str | None, ledger: str | None = None) -> Path:
+    app = SteelyardApp(ledger)
     async with app.run_test(size=size) as pilot:
         while app.session is None:
             await pilot.pause(0.05)
@@ -37,10 +37,11 @@ def main(argv: list[str] | None = None) -> int:
     p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     p.add_argument("out", nargs="?", default=str(ROOT / "docs" / "screenshot.svg"))
     p.add_argument("--size", default="100x32", help="columns x rows (default 100x32)")
-    p.add_argument("--loadout", default="takeoff", help="loadout to show (default takeoff)")
+    p.add_argument("--loadout", default="takeoff", help="loadout to show (default takeoff; '' for none)")
+    p.add_argument("--ledger", help="a ledger file instead of the bundled demo")
     args = p.parse_args(argv)
     cols, rows = (int(v) for v in args.size.lower().split("x"))
-    out = asyncio.run(shoot(Path(args.out), (cols, rows), args.loadout or None))
+    out = asyncio.run(shoot(Path(args.out), (cols, rows), args.loadout or None, args.ledger))
     print(f"wrote {out}")
     return 0
 
