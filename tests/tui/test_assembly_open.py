@@ -9,7 +9,7 @@ import steelyard.io.durability.journal as J
 from steelyard.io.durability.lock import lock_path
 from steelyard.tui.screens.confirm import ConfirmScreen
 from support.assembly import as_floats, close, copy_tree, said, totals
-from support.tui import cursor_to, editor, settle, type_into, wait_for_screen, wait_loaded
+from support.tui import answer_reason, cursor_to, editor, settle, type_into, wait_for_screen, wait_loaded
 
 
 async def _open_pod(app, pilot):
@@ -44,6 +44,7 @@ async def test_open_edit_save_back_refreshes_the_parent_by_the_exact_change(tmp_
         await _motor_mass(app, pilot, "500")
         assert J.pending(pod) is not None and J.pending(path) is None  # the child's journal, not the parent's
         await pilot.press("ctrl+s")
+        await answer_reason(app, pilot)
         await settle(pilot, app)
         assert not child.dirty
         await pilot.press("backspace")
@@ -102,6 +103,7 @@ async def test_undo_after_a_placed_file_was_saved_keeps_its_new_contents(tmp_pat
         await _open_pod(app, pilot)
         await _motor_mass(app, pilot, "500")
         await pilot.press("ctrl+s")
+        await answer_reason(app, pilot)
         await settle(pilot, app)
         await pilot.press("backspace")
         await settle(pilot, app)

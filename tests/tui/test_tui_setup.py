@@ -20,7 +20,7 @@ from steelyard.tui.screens.setup_form import SetupForm
 from steelyard.tui.screens.setup_screen import SetupScreen
 from steelyard.tui.screens.setup_units import UnitsForm
 from support.exact import carried
-from support.tui import copy_fixture, editor, screen_text, settle, type_into, wait_for_screen
+from support.tui import answer_reason, copy_fixture, editor, screen_text, settle, type_into, wait_for_screen
 from support.units import LB
 
 
@@ -64,6 +64,7 @@ async def apply_and_save(app, pilot, path) -> dict:
     await pilot.press("escape")  # back from the set-up list
     await settle(pilot, app)
     await pilot.press("ctrl+s")  # save the ledger
+    await answer_reason(app, pilot)
     await settle(pilot, app)
     assert not app.session.dirty
     open_ledger(path)  # the strict reader takes what the form made
@@ -236,6 +237,7 @@ async def test_new_ledger_dialog_units_and_frame(tmp_path):
         await settle(pilot, app)
         assert not isinstance(app.screen, UnitsForm)
         await pilot.press("ctrl+s")  # save: the first save writes the file
+        await answer_reason(app, pilot)
         await settle(pilot, app)
     data = tomllib.loads(path.read_text())
     assert data["units"] == {"mass": "g", "length": "mm", "inertia": "g*mm**2"}
