@@ -16,9 +16,9 @@ from __future__ import annotations
 
 from steelyard.core.document.model import FileUnits, Item, Ledger
 from steelyard.core.units import unit_factor
-from steelyard.io.ledger.toml_write import _NEEDS_ESCAPE, number, string, tables, value
+from steelyard.io.ledger.toml_write import _NEEDS_ESCAPE, number, string, value
 from steelyard.io.ledger.write import (envelope_lines, frame_fields, item_lines, ledger_to_toml, loadout_lines,
-                                       other_tables, table_lines, units_fields)
+                                       other_text, table_lines, units_fields)
 
 _DIMENSIONS = (("mass", "mass"), ("length", "length"), ("inertia", "inertia"))
 
@@ -77,8 +77,4 @@ def content_text(ledger: Ledger) -> str:
     blocks.extend(_item_text(it) if _plain(it) else "\n".join(item_lines(it, u)) for it in ledger.items)
     blocks.extend("\n".join(loadout_lines(lo)) for lo in ledger.loadouts)
     blocks.extend("\n".join(envelope_lines(env, u)) for env in ledger.envelopes)
-    text = "\n\n".join(blocks) + "\n"
-    rest = tables(other_tables(ledger, snapshot=False))
-    if rest:
-        text += "\n" + rest
-    return text
+    return "\n\n".join(blocks) + "\n" + other_text(ledger, snapshot=False)

@@ -204,8 +204,13 @@ def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True) -> str:
     blocks.extend(item_lines(it, u) for it in ledger.items)
     blocks.extend(loadout_lines(lo) for lo in ledger.loadouts)
     blocks.extend(envelope_lines(env, u) for env in ledger.envelopes)
-    text = "\n\n".join("\n".join(b) for b in blocks) + "\n"
+    return "\n\n".join("\n".join(b) for b in blocks) + "\n" + other_text(ledger, snapshot=snapshot)
+
+
+def other_text(ledger: Ledger, *, snapshot: bool = True) -> str:
+    """The text after the envelopes (a blank line, then every other table), "" when there are none.
+
+    Shared with the snapshot hash's quick text (io.ledger.snapshot_content), so the two cannot drift.
+    """
     rest = other_blocks(ledger, snapshot=snapshot)
-    if rest:
-        text += "\n" + "\n\n".join("\n".join(b) for b in rest) + "\n"
-    return text
+    return "\n" + "\n\n".join("\n".join(b) for b in rest) + "\n" if rest else ""
