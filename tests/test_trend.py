@@ -13,6 +13,7 @@ allocation - predicted. Commits, dates and subjects come from `git log`.
 from __future__ import annotations
 
 import json
+from decimal import ROUND_HALF_EVEN, Decimal
 import os
 import subprocess
 import tomllib
@@ -338,7 +339,9 @@ def test_the_report_gains_the_history(repo, tmp_path):
     for rev, _, _ in history(repo):
         assert rev[:7] in text
     first = by_hand(T1)
-    assert f"{float(first['mass'] / LB):,.2f}" in text  # the first commit's mass in the file's pounds
+    # the first commit's mass in the file's pounds, by the number rule (docs/numbers.md): 5 significant
+    # figures of the column's largest value (every mass here is in the thousands of pounds: 1 decimal)
+    assert f"{Decimal(repr(float(first['mass'] / LB))).quantize(Decimal('0.1'), ROUND_HALF_EVEN):,f}" in text
     # Markdown: the history chart is a file named after the report, linked from it, and well-formed XML
     assert "![mass history](r-mass-trend.svg)" in text
     import xml.etree.ElementTree as ET
