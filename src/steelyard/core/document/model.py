@@ -20,9 +20,11 @@ make a new `Ledger`; the old one stays valid, which is what undo and diff need.
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field, replace
+from collections import deque
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field, fields, replace
 from functools import cached_property
+from itertools import repeat
 
 import numpy as np
 
@@ -47,9 +49,44 @@ class Shape:
         return shape_tensor(self.kind, dict(self.params), self.axis, mass)
 
 
-@dataclass(frozen=True)
+class _NoUnits(Mapping):
+    """The one shared, immutable, empty `given_units`: a million items need not hold a million empty dicts."""
+
+    __slots__ = ()
+
+    def __getitem__(self, key):
+        raise KeyError(key)
+
+    def __iter__(self):
+        return iter(())
+
+    def __len__(self) -> int:
+        return 0
+
+    def __hash__(self) -> int:
+        return 0
+
+    def __repr__(self) -> str:
+        return "{}"
+
+    def __reduce__(self):  # unpickles as the same shared object
+        return (_no_units, ())
+
+
+NO_UNITS = _NoUnits()
+
+
+def _no_units() -> _NoUnits:
+    return NO_UNITS
+
+
+@dataclass(frozen=True, slots=True)
 class Item:
-    """One line of the ledger. `mass` is per unit; for a variable item, its full amount."""
+    """One line of the ledger. `mass` is per unit; for a variable item, its full amount.
+
+    Slotted: a ledger may hold a million of these, and a per-instance dict
+    would double their memory.
+    """
 
     id: str
     mass: float
@@ -63,7 +100,7 @@ class Item:
     variable: bool = False
     density: float | None = None
     #: field -> unit the user wrote that field in ("41.5 lb"), kept on save
-    given_units: Mapping[str, str] = field(default_factory=dict)
+    given_units: Mapping[str, str] = NO_UNITS
     # -- keys beyond the v1 contract, held as written (validated by the reader) --
     #: design maturity category (core.control.growth)
     maturity: str | None = None
@@ -101,6 +138,36 @@ class Item:
 
     def evolve(self, **changes) -> "Item":
         return replace(self, **changes)
+
+
+#: Item's fields in order, and a setter for each that bypasses the frozen check (slot descriptors)
+ITEM_FIELDS = tuple(f.name for f in fields(Item))
+_SETTERS = {name: getattr(Item, name).__set__ for name in ITEM_FIELDS}
+_DEFAULTS = {f.name: f.default for f in fields(Item) if f.name not in ("id", "mass", "cg")}
+
+
+def items_from_columns(n: int, columns: Mapping[str, Iterable], **same) -> list[Item]:
+    """`n` plain Items at once: `columns` maps field -> one value per item, `same` field -> one value for all.
+
+    Fields given in neither take their defaults. Skips the per-item keyword
+    handling of `Item(...)`; the values are taken as given (the caller has
+    checked them), as the constructor would.
+    """
+    out = list(map(object.__new__, repeat(Item, n)))
+    for name, values in columns.items():
+        deque(map(_SETTERS[name], out, values), maxlen=0)  # the loop runs in C
+    for name, v in {**_DEFAULTS, **same}.items():
+        if name not in columns:
+            deque(map(_SETTERS[name], out, repeat(v, n)), maxlen=0)
+    return out
+
+
+def item_with(item: Item, **changes) -> Item:
+    """A copy of `item` with some fields replaced, without `replace`'s per-call set-up (bulk use)."""
+    new = object.__new__(Item)
+    for name in ITEM_FIELDS:
+        _SETTERS[name](new, changes[name] if name in changes else getattr(item, name))
+    return new
 
 
 @dataclass(frozen=True)
