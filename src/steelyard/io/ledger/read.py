@@ -352,13 +352,13 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
     units = read_units(data.get("units"), source)
     frame = read_frame(data.get("frame"), source)
     if read_items is not None:  # read piece by piece already (io.ledger.read_stream)
-        items, arrays, bare_inertia = read_items
+        items, arrays, bare_inertia, index = read_items
     else:
         raw_items = data.get("item", [])
         if type(raw_items) is not list:
             raise SteelyardError("must be an array of tables [[item]]", file=source, subject="item")
         items, arrays = ItemsReader(raw_items, units, source, progress).read()
-        bare_inertia = None
+        bare_inertia = index = None
     assemblies = _assemblies(data, source)
     placed = ()
     foreign: tuple[str, ...] = ()
@@ -372,7 +372,8 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
             raise exc.located(file=source)
     elif assemblies:
         items, arrays, placed = _placed(assemblies, items, arrays, units, frame, source, tree, tree_source)
-    index = {it.id: i for i, it in enumerate(items)}
+    if index is None or placed:
+        index = {it.id: i for i, it in enumerate(items)}
     loadouts = read_loadouts(data.get("loadout"), index, arrays.variable, source, foreign)
     envelopes = read_envelopes(data.get("envelope"), units, source)
     ledger = Ledger(tuple(items), units, frame, loadouts, envelopes, **_other_tables(data, source),

@@ -52,6 +52,8 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
     parts: list[ItemArrays] = []
     bare = False
     total = max(len(text), 1)
+    if progress is not None:
+        progress("parsing", 0.0)
     for k, (tables, raw, end) in enumerate(toml_chunks.pieces(text, at, fast)):
         if k == 0:
             units = read_units(tables.get("units"), source)
@@ -72,7 +74,7 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
         parts.append(arrays)
         del raw, got, tables
         if progress is not None:
-            progress("reading items", end / total)
+            progress("checking items", end / total)
     if not parts:
         raise toml_chunks.NotChunkable("no items")
     arrays = ItemArrays(np.concatenate([a.unit_mass for a in parts]), np.concatenate([a.quantity for a in parts]),
@@ -81,4 +83,4 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
                         np.concatenate([a.variable for a in parts]))
     del parts
     return _ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source,
-                             read_items=(items, arrays, bare))
+                             read_items=(items, arrays, bare, seen))  # seen: id -> row, the index
