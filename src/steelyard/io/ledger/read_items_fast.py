@@ -12,7 +12,8 @@ changes speed, never meaning.
 
 from __future__ import annotations
 
-from itertools import chain, repeat
+from itertools import chain, compress, repeat
+from operator import not_
 
 import numpy as np
 
@@ -82,11 +83,15 @@ def _read(reader) -> tuple[list, ItemArrays] | None:
             and np.all(quantity >= 1) and np.all(quantity < 2.0 ** 53)):
         return None
     own = np.zeros((n, 3, 3))
-    inertia: list = [None] * n
-    rows = [i for i, has in enumerate(map(dict.__contains__, raw, repeat("inertia"))) if has]
-    if rows and not _inertia(reader, raw, rows, inertia, own):
-        return None
-    odd = [i for i, plain in enumerate(map(_PLAIN.issuperset, raw)) if not plain]
+    has = list(map(dict.__contains__, raw, repeat("inertia")))
+    rows = list(compress(range(n), has))
+    if rows:
+        inertia = _inertia(reader, list(map(dict.get, compress(raw, has), repeat("inertia"))), rows, own)
+        if inertia is None:
+            return None
+    else:
+        inertia = [None] * n
+    odd = list(compress(range(n), map(not_, map(_PLAIN.issuperset, raw))))
     columns = {"id": ids, "mass": mass.tolist(), "cg": list(map(tuple, cg.tolist())), "name": names,
                "group": groups, "quantity": qs, "inertia": inertia, "variable": var}
     items = items_from_columns(n, columns, given_units=NO_UNITS)
@@ -97,31 +102,29 @@ def _read(reader) -> tuple[list, ItemArrays] | None:
     return items, ItemArrays(mass, quantity, cg, own, np.array(var, dtype=bool))
 
 
-def _inertia(reader, raw: list, rows: list, inertia: list, own: np.ndarray) -> bool:
-    """Bare-number inertia tables of `rows` into `inertia` (six, SI) and `own`; False if any is not one."""
+def _inertia(reader, tables: list, rows: list, own: np.ndarray) -> list | None:
+    """The inertia column (six, SI, None where not given) of bare-number tables at `rows`, their tensors
+    into `own`; None if any table is not one of those."""
     from steelyard.core.physics.inertia import COMPONENTS
 
     keys = frozenset(COMPONENTS)
-    tables = [raw[i]["inertia"] for i in rows]
     if _types(tables) != {dict} or not all(map(keys.issuperset, tables)):
-        return False
+        return None
     if not all(all(map(dict.__contains__, tables, repeat(k))) for k in ("xx", "yy", "zz")):
-        return False
+        return None
     values = [_column(tables, k, 0.0) for k in COMPONENTS]
     if not _types(chain.from_iterable(values)) <= _NUMBERS:
-        return False
+        return None
     with np.errstate(over="raise", invalid="raise"):
         six = np.array(values, dtype=float).T * unit_factor(reader.units.inertia, "inertia")
     if not np.all(np.isfinite(six)):
-        return False
+        return None
     t = tensor_from_six(six)
     if realisability_problems(t).any():
-        return False
-    r = np.array(rows)
-    own[r] = t
-    for i, v in zip(rows, map(tuple, six.tolist())):
-        inertia[i] = v
-    return True
+        return None
+    own[np.array(rows)] = t
+    given = dict(zip(rows, map(tuple, six.tolist())))
+    return list(map(given.get, range(own.shape[0])))
 
 
 def _odd_row(reader, i: int, item, own: np.ndarray):
