@@ -210,3 +210,28 @@ def test_items_from_columns_are_the_constructors_items():
     assert made == [Item("a", 1.0, (0.0, 0.0, 0.0), group="g"), Item("b", 2.0, (1.0, 2.0, 3.0), group="g",
                                                                          quantity=4)]
     assert made[1].evolve(mass=3.0).mass == 3.0 and made[1].mass == 2.0
+
+
+def test_standard_library_parser_still_reads_everything(tmp_path):
+    """STEELYARD_TOML=tomllib (no compiled parser): same roll-up, same refusal words."""
+    import os
+
+    from support.cli import run_process
+
+    env = {**os.environ, "STEELYARD_TOML": "tomllib", "PYTHONPATH": os.pathsep.join(
+        p for p in (str(Path(__file__).resolve().parents[1] / "src"), os.environ.get("PYTHONPATH")) if p)}
+    path = tmp_path / "gen.toml"
+    make_ledger.write_ledger(path, 300, seed=5)
+    plain = run_process("rollup", "--json", path, env=env)
+    fast = run_process("rollup", "--json", path)
+    assert plain.returncode == fast.returncode == 0, plain.stderr
+    assert plain.stdout == fast.stdout
+    bad = tmp_path / "bad.toml"
+    bad.write_text(HEAD + _items("a") + "[units]\nlength = 'm'\n" + _items("b"), encoding="utf-8")
+    try:
+        tomllib.loads(bad.read_text(encoding="utf-8"))
+    except tomllib.TOMLDecodeError as exc:
+        words = str(exc)
+    refused = [run_process("rollup", "--json", bad, env=env), run_process("rollup", "--json", bad)]
+    for out in refused:
+        assert out.returncode == 2 and words in out.stderr and str(bad) in out.stderr, out.stderr
