@@ -237,15 +237,63 @@ class Frame:
         return (self.x, self.y, self.z)[axis]
 
 
+def _dense_own(n: int, rows: np.ndarray, values: np.ndarray) -> np.ndarray:
+    out = np.zeros((n, 3, 3))
+    if len(rows):
+        out[rows] = values
+    return out
+
+
+def sparse_own(own: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(rows, tensors) of the non-zero rows of a dense (n, 3, 3) own-inertia column."""
+    rows = np.flatnonzero(np.any(own.reshape(-1, 9) != 0, axis=1))
+    return rows, own[rows]
+
+
 @dataclass(frozen=True)
 class ItemArrays:
-    """Per-item columns, SI. Own inertia is per unit, body axes."""
+    """Per-item columns, SI. Own inertia is per unit, body axes.
+
+    Own inertia is kept sparse where it can be (`own_rows`, ascending, and
+    their tensors `own_values`): in a big ledger most items have none, and a
+    dense (n, 3, 3) column is 72 MB a million rows. `own` gives the dense
+    column all the same (made on first use and kept); columns built dense
+    (`dense_own`, e.g. placed items) stay dense.
+    """
 
     unit_mass: np.ndarray  # (n,)
     quantity: np.ndarray  # (n,) float
     cg: np.ndarray  # (n, 3), column-major: the roll-up reads it as (3, n)
-    own: np.ndarray  # (n, 3, 3)
+    dense_own: np.ndarray | None  # (n, 3, 3), or None: sparse only
     variable: np.ndarray  # (n,) bool
+    own_rows: np.ndarray | None = None  # (k,) rows with an own inertia, ascending
+    own_values: np.ndarray | None = None  # (k, 3, 3)
+
+    @classmethod
+    def sparse(cls, unit_mass, quantity, cg, variable, own_rows, own_values) -> "ItemArrays":
+        return cls(unit_mass, quantity, cg, None, variable, np.asarray(own_rows, dtype=np.intp),
+                   np.asarray(own_values, dtype=float).reshape(-1, 3, 3))
+
+    @property
+    def own(self) -> np.ndarray:
+        """(n, 3, 3) dense own inertia (zeros where an item has none)."""
+        if self.dense_own is not None:
+            return self.dense_own
+        dense = self.__dict__.get("_own")
+        if dense is None:
+            dense = _dense_own(len(self.unit_mass), self.own_rows, self.own_values)
+            object.__setattr__(self, "_own", dense)
+        return dense
+
+    def own_sparse(self) -> tuple[np.ndarray, np.ndarray]:
+        """(rows, tensors) of the items with an own inertia: what a roll-up adds up."""
+        if self.own_rows is not None:
+            return self.own_rows, self.own_values
+        got = self.__dict__.get("_sparse")
+        if got is None:
+            got = sparse_own(self.dense_own)
+            object.__setattr__(self, "_sparse", got)
+        return got
 
     @classmethod
     def from_items(cls, items: Sequence[Item]) -> "ItemArrays":
@@ -254,22 +302,34 @@ class ItemArrays:
         quantity = np.fromiter((it.quantity for it in items), float, n)
         cg = np.asfortranarray(np.array([it.cg for it in items], dtype=float).reshape(n, 3))
         variable = np.fromiter((it.variable for it in items), bool, n)
-        own = np.zeros((n, 3, 3))
-        for i, it in enumerate(items):
-            if it.inertia is not None or it.shape is not None:
-                own[i] = it.own_tensor()
-        return cls(unit_mass, quantity, cg, own, variable)
+        rows = [i for i, it in enumerate(items) if it.inertia is not None or it.shape is not None]
+        values = np.array([items[i].own_tensor() for i in rows], dtype=float).reshape(-1, 3, 3)
+        return cls.sparse(unit_mass, quantity, cg, variable, rows, values)
 
     def with_row(self, i: int, item: Item) -> "ItemArrays":
         """A copy with row i replaced: cheap enough for an edit on 100k items."""
-        out = ItemArrays(self.unit_mass.copy(), self.quantity.copy(), self.cg.copy(order="F"),
-                         self.own.copy(), self.variable.copy())
-        out.unit_mass[i] = item.mass
-        out.quantity[i] = item.quantity
-        out.cg[i] = item.cg
-        out.own[i] = item.own_tensor()
-        out.variable[i] = item.variable
-        return out
+        unit_mass, quantity, cg, variable = (self.unit_mass.copy(), self.quantity.copy(), self.cg.copy(order="F"),
+                                             self.variable.copy())
+        unit_mass[i] = item.mass
+        quantity[i] = item.quantity
+        cg[i] = item.cg
+        variable[i] = item.variable
+        t = item.own_tensor()
+        if self.dense_own is not None:
+            own = self.dense_own.copy()
+            own[i] = t
+            return ItemArrays(unit_mass, quantity, cg, own, variable)
+        rows, values = self.own_rows, self.own_values
+        k = int(np.searchsorted(rows, i))
+        present = k < len(rows) and rows[k] == i
+        if present and np.any(t != 0):
+            values = values.copy()
+            values[k] = t
+        elif present:
+            rows, values = np.delete(rows, k), np.delete(values, k, axis=0)
+        elif np.any(t != 0):
+            rows, values = np.insert(rows, k, i), np.insert(values, k, t, axis=0)
+        return ItemArrays.sparse(unit_mass, quantity, cg, variable, rows, values)
 
 
 @dataclass(frozen=True)

@@ -12,7 +12,7 @@ from collections.abc import Callable
 
 import numpy as np
 
-from steelyard.core.document.model import NO_UNITS, Item, ItemArrays, FileUnits, Shape
+from steelyard.core.document.model import NO_UNITS, Item, ItemArrays, FileUnits, Shape, sparse_own
 from steelyard.core.errors import SteelyardError, item_subject, said
 from steelyard.core.physics.groups import group_depth_problem
 from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, realisability_problems, tensor_from_six
@@ -222,7 +222,8 @@ class ItemsReader:
             if item.rotate:
                 r = rotation_matrix(item.rotate)
                 own[i] = r @ own[i] @ r.T
-        return items, ItemArrays(mass, quantity, np.asfortranarray(cg), own, variable)
+        rows, values = sparse_own(own)
+        return items, ItemArrays.sparse(mass, quantity, np.asfortranarray(cg), variable, rows, values)
 
     def _more(self, i: int, it: dict) -> dict:
         """The item keys beyond v1, type-checked here; their meaning is checked in core.validation."""

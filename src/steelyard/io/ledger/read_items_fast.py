@@ -17,7 +17,7 @@ from operator import not_
 
 import numpy as np
 
-from steelyard.core.document.model import NO_UNITS, ItemArrays, items_from_columns
+from steelyard.core.document.model import NO_UNITS, ItemArrays, items_from_columns, sparse_own
 from steelyard.core.errors import SteelyardError
 from steelyard.core.physics.groups import group_depth_problem
 from steelyard.core.physics.inertia import realisability_problems, tensor_from_six
@@ -99,7 +99,8 @@ def _read(reader) -> tuple[list, ItemArrays] | None:
         items[i] = _odd_row(reader, i, items[i], own)
     seen.update(zip(ids, range(len(seen), len(seen) + n)))
     cg = np.asfortranarray(cg)
-    return items, ItemArrays(mass, quantity, cg, own, np.array(var, dtype=bool))
+    rows, values = sparse_own(own)
+    return items, ItemArrays.sparse(mass, quantity, cg, np.array(var, dtype=bool), rows, values)
 
 
 def _inertia(reader, tables: list, rows: list, own: np.ndarray) -> list | None:

@@ -77,10 +77,17 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
             progress("checking items", end / total)
     if not parts:
         raise toml_chunks.NotChunkable("no items")
-    arrays = ItemArrays(np.concatenate([a.unit_mass for a in parts]), np.concatenate([a.quantity for a in parts]),
-                        np.asfortranarray(np.concatenate([a.cg for a in parts]).reshape(-1, 3)),
-                        np.concatenate([a.own for a in parts]).reshape(-1, 3, 3),
-                        np.concatenate([a.variable for a in parts]))
+    rows, values, start = [], [], 0
+    for a in parts:  # own inertia stays sparse: each piece's rows moved to the file's row numbers
+        r, v = a.own_sparse()
+        rows.append(r + start)
+        values.append(v)
+        start += len(a.unit_mass)
+    arrays = ItemArrays.sparse(np.concatenate([a.unit_mass for a in parts]),
+                               np.concatenate([a.quantity for a in parts]),
+                               np.asfortranarray(np.concatenate([a.cg for a in parts]).reshape(-1, 3)),
+                               np.concatenate([a.variable for a in parts]), np.concatenate(rows),
+                               np.concatenate(values).reshape(-1, 3, 3))
     del parts
     return _ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source,
                              read_items=(items, arrays, bare, seen))  # seen: id -> row, the index
