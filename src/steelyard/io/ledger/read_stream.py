@@ -7,9 +7,11 @@ items and columns plus one piece's tree, not the whole file's tree.
 
 This path only ever says yes. Whatever it cannot vouch for — a piece the
 parser refuses, a table in two pieces, [units] after the items, or any
-problem in the data — sends the file through the whole-file path
-(`ledger_from_data(parse_toml(text))`), so every error is worded, and every
-file means, exactly what the whole-file reading says.
+problem in the data — sends the file through the whole-document path
+(`ledger_from_data` of the parsed document, the item-by-item reader), so
+every error is worded, and every file means, exactly what the whole-file
+reading says. That document is still parsed in pieces when the pieces give
+the same tables (`toml_chunks.parse_chunked`, else `parse_toml` at once).
 """
 
 from __future__ import annotations
@@ -39,7 +41,9 @@ def ledger_from_text(text: str, *, source: str, progress: Progress | None = None
             pass  # the whole-file reading decides, and words any error
     if progress is not None:
         progress("parsing", 0.0)
-    data = parse_toml(text, source=source, fast=fast)
+    # the whole document, parsed in pieces where that gives the same tables (a lower peak), else at once
+    data = parse_toml(text, source=source, fast=fast) if at is None else toml_chunks.parse_chunked(
+        text, source=source, fast=fast, size=chunk_chars)
     return ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source)
 
 
