@@ -21,7 +21,7 @@ import numpy as np
 
 from steelyard.core.assembly.placement import Placement
 from steelyard.core.control.uncertainty import parse_tolerances
-from steelyard.core.document.model import NO_UNITS, FileUnits, Frame, Item, ItemArrays, Ledger, item_with
+from steelyard.core.document.model import NO_UNITS, FileUnits, Frame, Item, ItemArrays, Ledger, item_with, items_replaced
 from steelyard.core.document.pinning import pin_units
 from steelyard.core.loading.tank import tank_tables
 from steelyard.core.physics.inertia import six_from_tensor
@@ -96,10 +96,8 @@ def place(child: Ledger, p: Placement, parent_units: FileUnits, parent_frame: Fr
     inertia = [tuple(x) for x in six] if six is not None else [None] * len(items)
     if six is not None and not has_own.all():
         inertia = [x if h else None for x, h in zip(inertia, has_own.tolist())]
-    out = []
-    for it, ident, group, cg, own, src in zip(items, ids, groups, map(tuple, cgs), inertia, sources):
-        out.append(item_with(it, id=ident, group=group, cg=cg, inertia=own, shape=None, rotate=(),
-                             given_units=NO_UNITS, source=src))
+    out = items_replaced(items, {"id": ids, "group": groups, "cg": map(tuple, cgs), "inertia": inertia,
+                                 "source": sources}, shape=None, rotate=(), given_units=NO_UNITS)
     for i in tanks:
         pos = tanks[i].cg @ t.T + p.at
         out[i] = item_with(out[i], cg_table=[[float(f), *(float(x) / length_f for x in row)]
