@@ -21,7 +21,7 @@ import numpy as np
 
 from steelyard.core.assembly.placement import Placement
 from steelyard.core.control.uncertainty import parse_tolerances
-from steelyard.core.document.model import FileUnits, Frame, Item, ItemArrays, Ledger
+from steelyard.core.document.model import NO_UNITS, FileUnits, Frame, Item, ItemArrays, Ledger, item_with, items_replaced
 from steelyard.core.document.pinning import pin_units
 from steelyard.core.loading.tank import tank_tables
 from steelyard.core.physics.inertia import six_from_tensor
@@ -52,14 +52,11 @@ def group_prefix(p: Placement) -> str:
     return f"{p.group}/{p.id}" if p.group else p.id
 
 
-_EMPTY: dict = {}
 _ID, _GROUP, _SOURCE = (operator.attrgetter(k) for k in ("id", "group", "source"))
 
 
 def _TOLERANCE(item: Item) -> bool:  # noqa: N802 - used like the attrgetters beside it
     return item.tolerance is not None
-_new = object.__new__
-_set = object.__setattr__
 
 
 def _clean(six: np.ndarray) -> np.ndarray:
@@ -99,20 +96,16 @@ def place(child: Ledger, p: Placement, parent_units: FileUnits, parent_frame: Fr
     inertia = [tuple(x) for x in six] if six is not None else [None] * len(items)
     if six is not None and not has_own.all():
         inertia = [x if h else None for x, h in zip(inertia, has_own.tolist())]
-    out = []
-    for it, ident, group, cg, own, src in zip(items, ids, groups, map(tuple, cgs), inertia, sources):
-        d = it.__dict__.copy()
-        d.update(id=ident, group=group, cg=cg, inertia=own, shape=None, rotate=(), given_units=_EMPTY, source=src)
-        new = _new(Item)
-        _set(new, "__dict__", d)
-        out.append(new)
+    out = items_replaced(items, {"id": ids, "group": groups, "cg": map(tuple, cgs), "inertia": inertia,
+                                 "source": sources}, shape=None, rotate=(), given_units=NO_UNITS)
     for i in tanks:
         pos = tanks[i].cg @ t.T + p.at
-        out[i].__dict__["cg_table"] = [[float(f), *(float(x) / length_f for x in row)]
-                                       for f, row in zip(tanks[i].fraction, pos)]
+        out[i] = item_with(out[i], cg_table=[[float(f), *(float(x) / length_f for x in row)]
+                                             for f, row in zip(tanks[i].fraction, pos)])
     for i, it in enumerate(items):
         if it.tolerance is not None:
-            out[i].__dict__["tolerance"] = _placed_tolerance(it.tolerance, i, tolerances, t, child.units, length_f)
+            out[i] = item_with(out[i], tolerance=_placed_tolerance(it.tolerance, i, tolerances, t, child.units,
+                                                                   length_f))
     return out, arrays
 
 

@@ -20,9 +20,11 @@ make a new `Ledger`; the old one stays valid, which is what undo and diff need.
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field, replace
+from collections import deque
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field, fields, replace
 from functools import cached_property
+from itertools import repeat
 
 import numpy as np
 
@@ -47,9 +49,44 @@ class Shape:
         return shape_tensor(self.kind, dict(self.params), self.axis, mass)
 
 
-@dataclass(frozen=True)
+class _NoUnits(Mapping):
+    """The one shared, immutable, empty `given_units`: a million items need not hold a million empty dicts."""
+
+    __slots__ = ()
+
+    def __getitem__(self, key):
+        raise KeyError(key)
+
+    def __iter__(self):
+        return iter(())
+
+    def __len__(self) -> int:
+        return 0
+
+    def __hash__(self) -> int:
+        return 0
+
+    def __repr__(self) -> str:
+        return "{}"
+
+    def __reduce__(self):  # unpickles as the same shared object
+        return (_no_units, ())
+
+
+NO_UNITS = _NoUnits()
+
+
+def _no_units() -> _NoUnits:
+    return NO_UNITS
+
+
+@dataclass(frozen=True, slots=True)
 class Item:
-    """One line of the ledger. `mass` is per unit; for a variable item, its full amount."""
+    """One line of the ledger. `mass` is per unit; for a variable item, its full amount.
+
+    Slotted: a ledger may hold a million of these, and a per-instance dict
+    would double their memory.
+    """
 
     id: str
     mass: float
@@ -63,7 +100,7 @@ class Item:
     variable: bool = False
     density: float | None = None
     #: field -> unit the user wrote that field in ("41.5 lb"), kept on save
-    given_units: Mapping[str, str] = field(default_factory=dict)
+    given_units: Mapping[str, str] = NO_UNITS
     # -- keys beyond the v1 contract, held as written (validated by the reader) --
     #: design maturity category (core.control.growth)
     maturity: str | None = None
@@ -101,6 +138,46 @@ class Item:
 
     def evolve(self, **changes) -> "Item":
         return replace(self, **changes)
+
+
+#: Item's fields in order, and a setter for each that bypasses the frozen check (slot descriptors)
+ITEM_FIELDS = tuple(f.name for f in fields(Item))
+_SETTERS = {name: getattr(Item, name).__set__ for name in ITEM_FIELDS}
+_GETTERS = {name: getattr(Item, name).__get__ for name in ITEM_FIELDS}
+_DEFAULTS = {f.name: f.default for f in fields(Item) if f.name not in ("id", "mass", "cg")}
+
+
+def items_from_columns(n: int, columns: Mapping[str, Iterable], **same) -> list[Item]:
+    """`n` plain Items at once: `columns` maps field -> one value per item, `same` field -> one value for all.
+
+    Fields given in neither take their defaults. Skips the per-item keyword
+    handling of `Item(...)`; the values are taken as given (the caller has
+    checked them), as the constructor would.
+    """
+    out = list(map(object.__new__, repeat(Item, n)))
+    for name, values in columns.items():
+        deque(map(_SETTERS[name], out, values), maxlen=0)  # the loop runs in C
+    for name, v in {**_DEFAULTS, **same}.items():
+        if name not in columns:
+            deque(map(_SETTERS[name], out, repeat(v, n)), maxlen=0)
+    return out
+
+
+def items_replaced(items: Sequence[Item], columns: Mapping[str, Iterable], **same) -> list[Item]:
+    """Copies of `items` with some fields replaced: `columns` field -> one value per item, `same` field -> one
+    value for all; the other fields are copied. Each loop runs in C (bulk use: placed assemblies)."""
+    n = len(items)
+    given = {**{k: repeat(v, n) for k, v in same.items()}, **columns}
+    return items_from_columns(n, {name: given[name] if name in given else map(_GETTERS[name], items)
+                                  for name in ITEM_FIELDS})
+
+
+def item_with(item: Item, **changes) -> Item:
+    """A copy of `item` with some fields replaced, without `replace`'s per-call set-up (bulk use)."""
+    new = object.__new__(Item)
+    for name in ITEM_FIELDS:
+        _SETTERS[name](new, changes[name] if name in changes else getattr(item, name))
+    return new
 
 
 @dataclass(frozen=True)
@@ -170,15 +247,63 @@ class Frame:
         return (self.x, self.y, self.z)[axis]
 
 
+def _dense_own(n: int, rows: np.ndarray, values: np.ndarray) -> np.ndarray:
+    out = np.zeros((n, 3, 3))
+    if len(rows):
+        out[rows] = values
+    return out
+
+
+def sparse_own(own: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(rows, tensors) of the non-zero rows of a dense (n, 3, 3) own-inertia column."""
+    rows = np.flatnonzero(np.any(own.reshape(-1, 9) != 0, axis=1))
+    return rows, own[rows]
+
+
 @dataclass(frozen=True)
 class ItemArrays:
-    """Per-item columns, SI. Own inertia is per unit, body axes."""
+    """Per-item columns, SI. Own inertia is per unit, body axes.
+
+    Own inertia is kept sparse where it can be (`own_rows`, ascending, and
+    their tensors `own_values`): in a big ledger most items have none, and a
+    dense (n, 3, 3) column is 72 MB a million rows. `own` gives the dense
+    column all the same (made on first use and kept); columns built dense
+    (`dense_own`, e.g. placed items) stay dense.
+    """
 
     unit_mass: np.ndarray  # (n,)
     quantity: np.ndarray  # (n,) float
     cg: np.ndarray  # (n, 3), column-major: the roll-up reads it as (3, n)
-    own: np.ndarray  # (n, 3, 3)
+    dense_own: np.ndarray | None  # (n, 3, 3), or None: sparse only
     variable: np.ndarray  # (n,) bool
+    own_rows: np.ndarray | None = None  # (k,) rows with an own inertia, ascending
+    own_values: np.ndarray | None = None  # (k, 3, 3)
+
+    @classmethod
+    def sparse(cls, unit_mass, quantity, cg, variable, own_rows, own_values) -> "ItemArrays":
+        return cls(unit_mass, quantity, cg, None, variable, np.asarray(own_rows, dtype=np.intp),
+                   np.asarray(own_values, dtype=float).reshape(-1, 3, 3))
+
+    @property
+    def own(self) -> np.ndarray:
+        """(n, 3, 3) dense own inertia (zeros where an item has none)."""
+        if self.dense_own is not None:
+            return self.dense_own
+        dense = self.__dict__.get("_own")
+        if dense is None:
+            dense = _dense_own(len(self.unit_mass), self.own_rows, self.own_values)
+            object.__setattr__(self, "_own", dense)
+        return dense
+
+    def own_sparse(self) -> tuple[np.ndarray, np.ndarray]:
+        """(rows, tensors) of the items with an own inertia: what a roll-up adds up."""
+        if self.own_rows is not None:
+            return self.own_rows, self.own_values
+        got = self.__dict__.get("_sparse")
+        if got is None:
+            got = sparse_own(self.dense_own)
+            object.__setattr__(self, "_sparse", got)
+        return got
 
     @classmethod
     def from_items(cls, items: Sequence[Item]) -> "ItemArrays":
@@ -187,22 +312,34 @@ class ItemArrays:
         quantity = np.fromiter((it.quantity for it in items), float, n)
         cg = np.asfortranarray(np.array([it.cg for it in items], dtype=float).reshape(n, 3))
         variable = np.fromiter((it.variable for it in items), bool, n)
-        own = np.zeros((n, 3, 3))
-        for i, it in enumerate(items):
-            if it.inertia is not None or it.shape is not None:
-                own[i] = it.own_tensor()
-        return cls(unit_mass, quantity, cg, own, variable)
+        rows = [i for i, it in enumerate(items) if it.inertia is not None or it.shape is not None]
+        values = np.array([items[i].own_tensor() for i in rows], dtype=float).reshape(-1, 3, 3)
+        return cls.sparse(unit_mass, quantity, cg, variable, rows, values)
 
     def with_row(self, i: int, item: Item) -> "ItemArrays":
         """A copy with row i replaced: cheap enough for an edit on 100k items."""
-        out = ItemArrays(self.unit_mass.copy(), self.quantity.copy(), self.cg.copy(order="F"),
-                         self.own.copy(), self.variable.copy())
-        out.unit_mass[i] = item.mass
-        out.quantity[i] = item.quantity
-        out.cg[i] = item.cg
-        out.own[i] = item.own_tensor()
-        out.variable[i] = item.variable
-        return out
+        unit_mass, quantity, cg, variable = (self.unit_mass.copy(), self.quantity.copy(), self.cg.copy(order="F"),
+                                             self.variable.copy())
+        unit_mass[i] = item.mass
+        quantity[i] = item.quantity
+        cg[i] = item.cg
+        variable[i] = item.variable
+        t = item.own_tensor()
+        if self.dense_own is not None:
+            own = self.dense_own.copy()
+            own[i] = t
+            return ItemArrays(unit_mass, quantity, cg, own, variable)
+        rows, values = self.own_rows, self.own_values
+        k = int(np.searchsorted(rows, i))
+        present = k < len(rows) and rows[k] == i
+        if present and np.any(t != 0):
+            values = values.copy()
+            values[k] = t
+        elif present:
+            rows, values = np.delete(rows, k), np.delete(values, k, axis=0)
+        elif np.any(t != 0):
+            rows, values = np.insert(rows, k, i), np.insert(values, k, t, axis=0)
+        return ItemArrays.sparse(unit_mass, quantity, cg, variable, rows, values)
 
 
 @dataclass(frozen=True)

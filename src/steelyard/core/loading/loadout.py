@@ -35,8 +35,23 @@ class State:
     name: str | None
     mass: np.ndarray  # (n,)
     cg: np.ndarray  # (n, 3)
-    own: np.ndarray  # (n, 3, 3)
+    own_rows: np.ndarray  # (k,) rows with an own inertia (sparse: most items have none)
+    own_values: np.ndarray  # (k, 3, 3) their tensors, quantity and fill applied
     fill: np.ndarray  # (n,) 1 for fixed items, 0..1 for variable ones
+
+    def own_sparse(self) -> tuple[np.ndarray, np.ndarray]:
+        return self.own_rows, self.own_values
+
+    @property
+    def own(self) -> np.ndarray:
+        """(n, 3, 3) dense own inertia, made on first use."""
+        dense = self.__dict__.get("_own")
+        if dense is None:
+            dense = np.zeros((len(self.mass), 3, 3))
+            if len(self.own_rows):
+                dense[self.own_rows] = self.own_values
+            object.__setattr__(self, "_own", dense)
+        return dense
 
 
 def amount_fraction(ledger: Ledger, item_id: str, amount: Amount, where: str) -> float:
@@ -170,7 +185,9 @@ def loadout_condition(ledger: Ledger, name: str | None) -> str:
 def state_from_fill(ledger: Ledger, fill: np.ndarray, name: str | None = None) -> State:
     a = ledger.arrays
     scale = a.quantity * fill
-    return State(name, a.unit_mass * scale, cg_for_fill(ledger, fill), a.own * scale[:, None, None], fill)
+    rows, values = a.own_sparse()
+    return State(name, a.unit_mass * scale, cg_for_fill(ledger, fill), rows, values * scale[rows][:, None, None],
+                 fill)
 
 
 def resolve(ledger: Ledger, name: str | None = None) -> State:

@@ -126,17 +126,24 @@ def _sym(t: np.ndarray) -> np.ndarray:
     return 0.5 * t + 0.5 * t.T  # equal to 0.5 (t + tᵀ), without overflowing near the float limit
 
 
-def rollup(mass: np.ndarray, cg: np.ndarray, own: np.ndarray | None = None) -> MassProperties:
+def rollup(mass: np.ndarray, cg: np.ndarray, own: np.ndarray | None = None,
+           own_rows: np.ndarray | None = None) -> MassProperties:
     """Mass properties of rows with masses (n,), CGs (n, 3), own inertia (n, 3, 3).
 
-    Never raises and never warns: figures beyond a float come back infinite
-    with `overflow` set (see `check_finite_rollup`).
+    With `own_rows`, `own` holds only those rows' tensors (k, 3, 3): the
+    items with an own inertia, added by index. Never raises and never warns:
+    figures beyond a float come back infinite with `overflow` set (see
+    `check_finite_rollup`).
     """
     with np.errstate(over="ignore", invalid="ignore", under="ignore", divide="ignore"):
         mass = np.ascontiguousarray(mass, dtype=float)
         cg = np.asarray(cg, dtype=float).reshape(-1, 3)
         own_arr = None if own is None else np.ascontiguousarray(own, dtype=float)
         own_sum = np.zeros((3, 3)) if own_arr is None else sum_tensors(own_arr)
+        if own_rows is not None and own_arr is not None:  # the rare overflow search wants every row
+            dense = np.zeros((mass.shape[0], 3, 3))
+            dense[np.asarray(own_rows, dtype=np.intp)] = own_arr
+            own_arr = dense
         total = float(mass.sum())
         if total <= 0.0 and math.isfinite(total):
             mp = MassProperties(total, np.full(3, np.nan), own_sum, own_sum.copy())
@@ -266,5 +273,6 @@ def _culprit(mass, cg, own, mp: MassProperties, first) -> Overflow:
 
 
 def rollup_state(state) -> MassProperties:
-    """Roll-up of a loadout state (see core.loadout.State)."""
-    return rollup(state.mass, state.cg, state.own)
+    """Roll-up of a loadout state (see core.loadout.State): own inertia added by index where sparse."""
+    rows, values = state.own_sparse()
+    return rollup(state.mass, state.cg, values, own_rows=rows)

@@ -28,8 +28,9 @@ from steelyard.io.durability.atomic import (  # noqa: F401 - ChangedOnDisk re-ex
     ABSENT, ChangedOnDisk, check_output, file_sha256, mark_failed, mark_loaded, same_file, writable_check,
     write_atomic,
 )
-from steelyard.io.ledger.read import Progress, ledger_from_data
-from steelyard.io.ledger.toml_read import decode, parse_toml
+from steelyard.io.ledger.read import Progress
+from steelyard.io.ledger.read_stream import ledger_from_text
+from steelyard.io.ledger.toml_read import decode
 
 if TYPE_CHECKING:
     from steelyard.io.durability.lock import Lock
@@ -85,10 +86,7 @@ def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = N
         if not data.strip():
             raise FormatError("empty file (a ledger starts with 'steelyard = 1')", file=source)
         text = decode(data, source=source)
-        if progress is not None:
-            progress("parsing", 0.0)
-        parsed = parse_toml(text, source=source, fast=fast)
-        return ledger_from_data(parsed, source=source, progress=progress, tree=tree,
+        return ledger_from_text(text, source=source, progress=progress, fast=fast, tree=tree,
                                 tree_source=tree_source), text
     except (RecursionError, MemoryError):
         raise FormatError("too deeply nested or too large to read", file=source) from None

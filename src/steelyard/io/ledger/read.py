@@ -243,7 +243,7 @@ def _other_tables(data: dict, source: str) -> dict:
     return out
 
 
-def _unit_notes(data: dict, units: FileUnits) -> tuple[str, ...]:
+def _unit_notes(data: dict, units: FileUnits, bare_inertia: bool | None = None) -> tuple[str, ...]:
     """What a reader should be told although the file is valid.
 
     With no `inertia` in [units], bare inertia numbers are kg·m² (the v1
@@ -255,12 +255,21 @@ def _unit_notes(data: dict, units: FileUnits) -> tuple[str, ...]:
         return ()
     if (units.mass, units.length) == ("kg", "m"):
         return ()
-    for it in data.get("item", ()):
+    if bare_inertia is None:
+        bare_inertia = has_bare_inertia(data.get("item", ()))
+    if bare_inertia:
+        return (f"[units] gives mass in {units.mass} and length in {units.length} but no inertia unit: "
+                "bare inertia numbers are read as kg*m**2; write inertia = \"...\" in [units] to say which",)
+    return ()
+
+
+def has_bare_inertia(raw_items) -> bool:
+    """Whether some item gives an inertia component as a bare number (see `_unit_notes`)."""
+    for it in raw_items:
         t = it.get("inertia") if isinstance(it, dict) else None
         if isinstance(t, dict) and any(type(v) in (int, float) for v in t.values()):
-            return (f"[units] gives mass in {units.mass} and length in {units.length} but no inertia unit: "
-                    "bare inertia numbers are read as kg*m**2; write inertia = \"...\" in [units] to say which",)
-    return ()
+            return True
+    return False
 
 
 def reading_notes(ledger: Ledger) -> tuple[str, ...]:
@@ -323,7 +332,7 @@ def _placed(assemblies: tuple, items: list, arrays, units: FileUnits, frame: Fra
 
 
 def _ledger_from_data(data: object, *, source: str, progress: Progress | None = None, tree=None,
-                      tree_source=None) -> Ledger:
+                      tree_source=None, read_items=None) -> Ledger:
     if not isinstance(data, dict):
         raise FormatError("not a steelyard ledger", file=source)
     version = data.get("steelyard")
@@ -342,10 +351,14 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
         raise exc.located(file=source)
     units = read_units(data.get("units"), source)
     frame = read_frame(data.get("frame"), source)
-    raw_items = data.get("item", [])
-    if type(raw_items) is not list:
-        raise SteelyardError("must be an array of tables [[item]]", file=source, subject="item")
-    items, arrays = ItemsReader(raw_items, units, source, progress).read()
+    if read_items is not None:  # read piece by piece already (io.ledger.read_stream)
+        items, arrays, bare_inertia, index = read_items
+    else:
+        raw_items = data.get("item", [])
+        if type(raw_items) is not list:
+            raise SteelyardError("must be an array of tables [[item]]", file=source, subject="item")
+        items, arrays = ItemsReader(raw_items, units, source, progress).read()
+        bare_inertia = index = None
     assemblies = _assemblies(data, source)
     placed = ()
     foreign: tuple[str, ...] = ()
@@ -359,14 +372,15 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
             raise exc.located(file=source)
     elif assemblies:
         items, arrays, placed = _placed(assemblies, items, arrays, units, frame, source, tree, tree_source)
-    index = {it.id: i for i, it in enumerate(items)}
+    if index is None or placed:
+        index = {it.id: i for i, it in enumerate(items)}
     loadouts = read_loadouts(data.get("loadout"), index, arrays.variable, source, foreign)
     envelopes = read_envelopes(data.get("envelope"), units, source)
     ledger = Ledger(tuple(items), units, frame, loadouts, envelopes, **_other_tables(data, source),
                     assemblies=assemblies, placed=placed)
     ledger.__dict__["index"] = index
     ledger = with_arrays(ledger, arrays)
-    notes = _unit_notes(data, units)
+    notes = _unit_notes(data, units, bare_inertia)
     if notes:
         ledger.__dict__["_read_notes"] = notes
     if foreign:  # read alone: what refers into its assemblies is checked when the tree is read

@@ -12,7 +12,7 @@ from collections.abc import Callable
 
 import numpy as np
 
-from steelyard.core.document.model import Item, ItemArrays, FileUnits, Shape
+from steelyard.core.document.model import NO_UNITS, Item, ItemArrays, FileUnits, Shape, sparse_own
 from steelyard.core.errors import SteelyardError, item_subject, said
 from steelyard.core.physics.groups import group_depth_problem
 from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, realisability_problems, tensor_from_six
@@ -34,8 +34,11 @@ _ITEM_MORE = {"maturity": (str,), "growth": (int, float, str), "tolerance": (dic
 class ItemsReader:
     """Bulk reader of the [[item]] array."""
 
-    def __init__(self, raw_items: list, units: FileUnits, source: str, progress: Progress | None):
+    def __init__(self, raw_items: list, units: FileUnits, source: str, progress: Progress | None,
+                 seen: dict[str, int] | None = None):
         self.raw = raw_items
+        #: id -> row of the ids read so far (shared by the pieces of one file)
+        self.seen: dict[str, int] = {} if seen is None else seen
         self.units = units
         self.source = source
         self.progress = progress
@@ -47,6 +50,11 @@ class ItemsReader:
         return SteelyardError(message, file=self.source, subject=subject, field=field)
 
     def read(self) -> tuple[list[Item], ItemArrays]:
+        from steelyard.io.ledger.read_items_fast import read_fast
+
+        done = read_fast(self)  # column passes when every row is regular; None: read item by item
+        if done is not None:
+            return done
         raw = self.raw
         n = len(raw)
         src = self.source
@@ -60,7 +68,8 @@ class ItemsReader:
         quantity = np.ones(n)
         variable = np.zeros(n, dtype=bool)
         ids: list[str] = [""] * n
-        seen: dict[str, int] = {}
+        seen = self.seen
+        base = len(seen)
         given: list[dict[str, str] | None] = [None] * n
         step = max(1, n // 20)
         for i, it in enumerate(raw):
@@ -73,7 +82,7 @@ class ItemsReader:
                 raise self.fail(i, "id", "required: a non-empty string")
             if ident in seen:
                 raise self.fail(i, "id", f"duplicate id (first used by item #{seen[ident] + 1})")
-            seen[ident] = i
+            seen[ident] = base + i
             ids[i] = ident
             m = it.get("mass")
             if type(m) is float or type(m) is int:
@@ -190,7 +199,7 @@ class ItemsReader:
                 if not density > 0:
                     raise self.fail(i, "density", f"must be > 0, got {it['density']!r}")
             item = Item(ident, mass_l[i], tuple(cg_l[i]), name, group, int(q_l[i]), inertia, shape, rotate,
-                        bool(variable[i]), density, g or {}, **(more or {}))
+                        bool(variable[i]), density, g or NO_UNITS, **(more or {}))
             items.append(item)
             if shape is not None:
                 try:
@@ -213,7 +222,8 @@ class ItemsReader:
             if item.rotate:
                 r = rotation_matrix(item.rotate)
                 own[i] = r @ own[i] @ r.T
-        return items, ItemArrays(mass, quantity, np.asfortranarray(cg), own, variable)
+        rows, values = sparse_own(own)
+        return items, ItemArrays.sparse(mass, quantity, np.asfortranarray(cg), variable, rows, values)
 
     def _more(self, i: int, it: dict) -> dict:
         """The item keys beyond v1, type-checked here; their meaning is checked in core.validation."""

@@ -1,7 +1,7 @@
 """Reading TOML text, fast when we can and exactly like tomllib always.
 
-A compiled parser (rtoml) is tried first: at 100,000 items tomllib spends
-seconds where rtoml spends a fraction. Whenever rtoml refuses a text, the
+A compiled parser (rtoml, a required dependency) is tried first: at 100,000
+items tomllib spends seconds where rtoml spends a fraction. Whenever rtoml refuses a text, the
 text is handed to tomllib, whose verdict (and error message) is final, so a
 file means the same thing with or without the fast parser.
 """
@@ -15,11 +15,11 @@ from steelyard.io.ledger.conflicts import conflict_marker_line, conflict_message
 
 import os
 
-try:  # optional speed-up, see pyproject's "fast" extra
+try:  # a required dependency (docs/performance.md, "Big ledgers"); tomllib still reads everything
     import rtoml as _rtoml
 except ImportError:  # pragma: no cover - exercised where rtoml is absent
     _rtoml = None
-if os.environ.get("STEELYARD_TOML") == "tomllib":  # benchmarks and bug hunts
+if os.environ.get("STEELYARD_TOML") == "tomllib":  # benchmarks and bug hunts: the standard library only
     _rtoml = None
 
 PARSER = "rtoml" if _rtoml is not None else "tomllib"

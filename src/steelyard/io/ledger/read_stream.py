@@ -1,0 +1,97 @@
+"""Ledger text -> `Ledger`, a piece at a time: a million items without a million-item parse tree.
+
+The text is cut at `[[item]]` headers (io.ledger.toml_chunks); each piece is
+parsed, its items checked and turned into Items and numpy columns, and its
+parse tree dropped before the next piece is parsed. The peak is then the
+items and columns plus one piece's tree, not the whole file's tree.
+
+This path only ever says yes. Whatever it cannot vouch for — a piece the
+parser refuses, a table in two pieces, [units] after the items, or any
+problem in the data — sends the file through the whole-document path
+(`ledger_from_data` of the parsed document, the item-by-item reader), so
+every error is worded, and every file means, exactly what the whole-file
+reading says. That document is still parsed in pieces when the pieces give
+the same tables (`toml_chunks.parse_chunked`, else `parse_toml` at once).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from steelyard.core.document.model import ItemArrays, Ledger
+from steelyard.core.document.schema import ITEM
+from steelyard.core.errors import SteelyardError
+from steelyard.io.ledger import toml_chunks
+from steelyard.io.ledger.read import Progress, _ledger_from_data, has_bare_inertia, ledger_from_data, read_units
+from steelyard.io.ledger.read_items import ItemsReader
+from steelyard.io.ledger.toml_read import conflict_marker_line, parse_toml
+
+_ITEM_KEYS = frozenset(ITEM)
+
+
+def ledger_from_text(text: str, *, source: str, progress: Progress | None = None, fast: bool = True,
+                     tree=None, tree_source=None, chunk_chars: int | None = None) -> Ledger:
+    """The ledger a TOML text describes; read piece by piece when that is safe, else as a whole."""
+    at = toml_chunks.cuts(text, chunk_chars)
+    if at is not None and conflict_marker_line(text) is None:
+        try:
+            return _streamed(text, at, source=source, progress=progress, fast=fast, tree=tree,
+                             tree_source=tree_source)
+        except (toml_chunks.NotChunkable, SteelyardError, OverflowError):
+            pass  # the whole-file reading decides, and words any error
+    if progress is not None:
+        progress("parsing", 0.0)
+    # the whole document, parsed in pieces where that gives the same tables (a lower peak), else at once
+    data = parse_toml(text, source=source, fast=fast) if at is None else toml_chunks.parse_chunked(
+        text, source=source, fast=fast, size=chunk_chars)
+    return ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source)
+
+
+def _streamed(text: str, at: list[int], *, source: str, progress: Progress | None, fast: bool, tree,
+              tree_source) -> Ledger:
+    data: dict = {}
+    units = None
+    seen: dict[str, int] = {}
+    items: list = []
+    parts: list[ItemArrays] = []
+    bare = False
+    total = max(len(text), 1)
+    if progress is not None:
+        progress("parsing", 0.0)
+    for k, (tables, raw, end) in enumerate(toml_chunks.pieces(text, at, fast)):
+        if k == 0:
+            units = read_units(tables.get("units"), source)
+        elif "units" in tables:
+            raise toml_chunks.NotChunkable("[units] after the first item")
+        if k == 1:
+            data["item"] = []  # read below; the key keeps its place in the document's order
+        data.update(tables)
+        if not raw:
+            continue
+        for entry in raw:
+            if type(entry) is not dict or not _ITEM_KEYS.issuperset(entry):
+                raise toml_chunks.NotChunkable("an item the schema check must word")
+        if not bare:
+            bare = has_bare_inertia(raw)
+        got, arrays = ItemsReader(raw, units, source, None, seen).read()
+        items.extend(got)
+        parts.append(arrays)
+        del raw, got, tables
+        if progress is not None:
+            progress("checking items", end / total)
+    if not parts:
+        raise toml_chunks.NotChunkable("no items")
+    rows, values, start = [], [], 0
+    for a in parts:  # own inertia stays sparse: each piece's rows moved to the file's row numbers
+        r, v = a.own_sparse()
+        rows.append(r + start)
+        values.append(v)
+        start += len(a.unit_mass)
+    arrays = ItemArrays.sparse(np.concatenate([a.unit_mass for a in parts]),
+                               np.concatenate([a.quantity for a in parts]),
+                               np.asfortranarray(np.concatenate([a.cg for a in parts]).reshape(-1, 3)),
+                               np.concatenate([a.variable for a in parts]), np.concatenate(rows),
+                               np.concatenate(values).reshape(-1, 3, 3))
+    del parts
+    return _ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source,
+                             read_items=(items, arrays, bare, seen))  # seen: id -> row, the index
