@@ -100,6 +100,15 @@ def _ignore_file_size_signal() -> None:
 
 
 def main(argv: list[str] | None = None) -> int:
+    try:
+        return _main(argv)
+    finally:  # --no-cache holds for one command line (main may run again in the same process)
+        cache = sys.modules.get("steelyard.io.ledger.cache")
+        if cache is not None:
+            cache.turn_off(False)
+
+
+def _main(argv: list[str] | None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     _ignore_file_size_signal()
     try:

@@ -43,10 +43,10 @@ _LENGTH = struct.Struct(">I")
 _off = False  # set by --no-cache
 
 
-def turn_off() -> None:
-    """No reads or writes of the cache for the rest of this process (the CLI's --no-cache)."""
+def turn_off(off: bool = True) -> None:
+    """No reads or writes of the cache in this process from now on (the CLI's --no-cache); False: again."""
     global _off
-    _off = True
+    _off = off
 
 
 def enabled() -> bool:
