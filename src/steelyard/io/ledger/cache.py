@@ -28,7 +28,6 @@ import json
 import os
 import struct
 import sys
-import tempfile
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -222,6 +221,8 @@ def store(source: str, data: bytes, ledger: Ledger, *, had_comments: bool, files
         "had_comments": bool(had_comments), "size": len(payload), "sha256": _sha(payload),
     }).encode("utf-8")
     blob = b"".join((MAGIC, _LENGTH.pack(len(header)), header, hashlib.sha256(header).digest(), payload))
+    import tempfile  # here: a hit never needs it
+
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
         fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=path.parent)

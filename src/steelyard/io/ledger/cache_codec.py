@@ -14,6 +14,8 @@ from __future__ import annotations
 import dataclasses
 import io
 import pickle
+from itertools import chain, repeat
+from operator import attrgetter, is_
 
 import numpy as np
 
@@ -68,18 +70,19 @@ def _encode(values: list) -> tuple:
         return ("list", values)
     first = values[0]
     if type(first) in _CONSTANT_TYPES or first == ():
-        if all(v is first for v in values):
+        if all(map(is_, values, repeat(first))):
             return ("same", first)
-    if all(type(v) is str for v in values):
+    types = set(map(type, values))
+    if types == {str}:
         joined = "\0".join(values)
         if joined.count("\0") == len(values) - 1:  # no value holds the separator
             return ("text", len(values), joined)
-    rows = [v for v in values if v is not None]
-    if rows and type(rows[0]) is tuple:
-        k = len(rows[0])
-        if k and all(type(r) is tuple and len(r) == k and all(type(x) is float for x in r) for r in rows):
+    if types == {tuple} or types == {tuple, type(None)}:
+        rows = [v for v in values if v is not None]
+        lengths = set(map(len, rows))
+        if len(lengths) == 1 and 0 not in lengths and set(map(type, chain.from_iterable(rows))) == {float}:
             nones = [i for i, v in enumerate(values) if v is None]
-            return ("floats", len(values), k, nones, np.array(rows, dtype=np.float64).reshape(len(rows), k))
+            return ("floats", len(values), len(rows[0]), nones, np.array(rows, dtype=np.float64))
     return ("list", values)
 
 
@@ -150,9 +153,10 @@ def dumps(ledger: Ledger) -> bytes | None:
     names = _fields()
     state = dict(ledger.__dict__)
     state.pop("items", None)
-    if "index" in state and state["index"] == {it.id: i for i, it in enumerate(items)}:
+    values = [list(c) for c in zip(*map(attrgetter(*names), items))] if items else [[] for _ in names]
+    if "index" in state and state["index"] == dict(zip(values[names.index("id")], range(len(items)))):
         state["index"] = None  # rebuilt on reading: quicker than unpickling 100,000 entries
-    columns = [_encode([getattr(it, n) for it in items]) for n in names]
+    columns = [_encode(v) for v in values]
     out = io.BytesIO()
     pickle.Pickler(out, protocol=PROTOCOL).dump((names, len(items), columns, state))
     return out.getvalue()
@@ -177,5 +181,5 @@ def loads(data: bytes) -> Ledger:
     ledger.__dict__.update(state)
     ledger.__dict__["items"] = items
     if "index" in state and state["index"] is None:
-        ledger.__dict__["index"] = {it.id: i for i, it in enumerate(items)}
+        ledger.__dict__["index"] = dict(zip(map(attrgetter("id"), items), range(n)))
     return ledger
