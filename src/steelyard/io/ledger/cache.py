@@ -37,7 +37,7 @@ from steelyard.core.document.model import Ledger
 MAGIC = b"steelyard ledger cache\n"
 SUFFIX = ".ledger-cache"
 MAX_ENTRIES = 32
-MAX_BYTES = 512 * 1024 * 1024
+MAX_BYTES = 256 * 1024 * 1024
 _LENGTH = struct.Struct(">I")
 _off = False  # set by --no-cache
 
@@ -209,10 +209,15 @@ def store(source: str, data: bytes, ledger: Ledger, *, had_comments: bool, files
         return
     from steelyard.io.ledger.cache_codec import dumps
 
+    collecting = gc.isenabled()
+    gc.disable()  # millions of short-lived containers: a collection pass would walk the whole ledger
     try:
         payload = dumps(ledger)
     except Exception:  # noqa: BLE001 - something unpicklable: not cached, the read stands
         return
+    finally:
+        if collecting:
+            gc.enable()
     if payload is None or len(payload) > MAX_BYTES // 2:
         return
     header = json.dumps({
