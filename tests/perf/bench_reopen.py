@@ -1,7 +1,7 @@
 """Reopening an unchanged ledger: the read cache (io.ledger.cache) against a fresh read of the same file.
 
 Prints ratios, each pair taken in the same run:
-- open_ledger in this process: a hit / a fresh parse, and a miss that writes the entry / a fresh parse
+- open_ledger alone, timed inside a fresh process each time: a hit / a fresh parse, and a miss that writes the entry / a fresh parse
   (the price the first open pays for the second);
 - whole `steelyard rollup --json` processes (interpreter, imports and the roll-up included), CPU and
   wall: the hit / `--no-cache`, runs alternating so the machine's drift touches both alike;
@@ -15,7 +15,6 @@ Whole commands also: farm-bench --vs 'python -m steelyard rollup --json --no-cac
 
 from __future__ import annotations
 
-import gc
 import os
 import resource
 import statistics
@@ -31,13 +30,16 @@ sys.path.insert(0, str(HERE))
 from make_ledger import write_ledger  # noqa: E402
 
 
-def _timed(fn) -> tuple[float, float]:
-    gc.collect()
-    c, w = time.process_time(), time.perf_counter()
-    kept = fn()  # freed after the clock is read: a command keeps its ledger to its end
-    took = time.process_time() - c, time.perf_counter() - w
-    del kept
-    return took
+_OPEN = ("import sys, time; from steelyard.io.ledger.file import open_ledger; "
+         "c, w = time.process_time(), time.perf_counter(); kept = open_ledger(sys.argv[1], cache=sys.argv[2] == '1'); "
+         "print(time.process_time() - c, time.perf_counter() - w)")
+
+
+def _timed(path: Path, cache: bool) -> tuple[float, float]:
+    """(CPU, wall) seconds of open_ledger alone, in a fresh process (as a command or the editor opens)."""
+    out = subprocess.run([sys.executable, "-c", _OPEN, str(path), "1" if cache else "0"], check=True,
+                         capture_output=True, text=True).stdout.split()
+    return float(out[0]), float(out[1])
 
 
 def _process(args: list[str]) -> tuple[float, float]:
@@ -57,15 +59,14 @@ def main(n: int = 100_000, repeat: int = 3) -> None:
         path = Path(tmp) / "big.toml"
         write_ledger(path, n, seed=1)
         from steelyard.io.ledger import cache
-        from steelyard.io.ledger.file import open_ledger
 
-        fresh = [_timed(lambda: open_ledger(path)) for _ in range(repeat)]
-        miss = []
+        fresh, miss, hit = [], [], []
         for _ in range(repeat):
+            fresh.append(_timed(path, False))
             for e in Path(os.environ["STEELYARD_CACHE_DIR"]).glob("*"):
                 e.unlink()
-            miss.append(_timed(lambda: open_ledger(path, cache=True)))
-        hit = [_timed(lambda: open_ledger(path, cache=True)) for _ in range(repeat)]
+            miss.append(_timed(path, True))
+            hit.append(_timed(path, True))
         entry = cache.entry_path(str(path))
         med = lambda runs, i: statistics.median(r[i] for r in runs)  # noqa: E731
         print(f"file: {n:,} items, {path.stat().st_size / 1e6:.1f} MB; cache entry {entry.stat().st_size / 1e6:.1f} MB")
