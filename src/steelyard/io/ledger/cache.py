@@ -114,8 +114,8 @@ def _sha(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
 
 
-def _split(blob: bytes) -> tuple[dict, bytes]:
-    """(header, payload) of a whole, undamaged entry; ValueError otherwise."""
+def _split(blob: bytes) -> tuple[dict, int]:
+    """(header, where the payload starts) of a whole, undamaged entry; ValueError otherwise."""
     if not blob.startswith(MAGIC):
         raise ValueError("not a cache entry")
     at = len(MAGIC)
@@ -127,10 +127,11 @@ def _split(blob: bytes) -> tuple[dict, bytes]:
     header = json.loads(raw.decode("utf-8"))
     if type(header) is not dict:
         raise ValueError("damaged header")
-    payload = memoryview(blob)[at + n + 32:]
+    start = at + n + 32
+    payload = memoryview(blob)[start:]
     if len(payload) != header.get("size") or _sha(payload) != header.get("sha256"):
         raise ValueError("damaged payload")
-    return header, payload
+    return header, start
 
 
 def _same_files(files: object) -> bool:
@@ -170,7 +171,7 @@ def lookup(source: str, data: bytes, *, fast: bool = True, sha256: str | None = 
     except OSError:
         return None
     try:
-        header, payload = _split(blob)
+        header, start = _split(blob)
     except (ValueError, struct.error, UnicodeDecodeError):
         _discard(path)  # damaged: rebuilt by this read
         return None
@@ -184,7 +185,7 @@ def lookup(source: str, data: bytes, *, fast: bool = True, sha256: str | None = 
     collecting = gc.isenabled()
     gc.disable()  # the ledger holds no cycles: collection passes over its objects are pure cost
     try:
-        ledger = loads(payload)
+        ledger = loads(blob, start)
     except Exception:  # noqa: BLE001 - anything a foreign payload makes the unpickler do is a miss
         _discard(path)
         return None

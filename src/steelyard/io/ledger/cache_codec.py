@@ -162,9 +162,12 @@ def dumps(ledger: Ledger) -> bytes | None:
     return out.getvalue()
 
 
-def loads(data: bytes) -> Ledger:
-    """The ledger `dumps` stored; raises (pickle.UnpicklingError, ValueError, ...) on anything else."""
-    names, n, columns, state = _Restricted(io.BytesIO(data)).load()
+def loads(data: bytes, start: int = 0) -> Ledger:
+    """The ledger `dumps` stored at `data[start:]`; raises (pickle.UnpicklingError, ValueError, ...) on
+    anything else."""
+    stream = io.BytesIO(data)  # shares the bytes (no copy) until written to
+    stream.seek(start)
+    names, n, columns, state = _Restricted(stream).load()
     if (type(names) is not tuple or names != _fields() or type(n) is not int or type(columns) is not list
             or len(columns) != len(names) or type(state) is not dict
             or not all(type(c) is tuple and c for c in columns)):
