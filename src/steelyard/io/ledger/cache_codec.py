@@ -14,6 +14,7 @@ from __future__ import annotations
 import dataclasses
 import io
 import pickle
+from collections import deque
 from itertools import chain, repeat
 from operator import attrgetter, is_
 
@@ -100,11 +101,16 @@ def _decode(column: tuple, n: int) -> tuple[bool, object]:
     if kind == "floats" and len(column) == 5 and column[1] == n and type(column[4]) is np.ndarray:
         _, _, k, nones, array = column
         if array.dtype == np.float64 and array.shape == (n - len(nones), k) and type(nones) is list:
-            rows = list(map(tuple, array.tolist()))
+            rows = list(zip(*array.T.tolist())) if len(array) else []
             if nones:
-                gaps = set(nones)
-                given = iter(rows)
-                rows = [None if i in gaps else next(given) for i in range(n)]
+                gaps = np.asarray(nones, dtype=np.int64)
+                if gaps.min() < 0 or gaps.max() >= n:
+                    raise ValueError("damaged item column")
+                present = np.ones(n, dtype=bool)
+                present[gaps] = False
+                out = [None] * n
+                deque(map(out.__setitem__, np.flatnonzero(present).tolist(), rows), maxlen=0)  # a loop in C
+                rows = out
             if len(rows) == n:
                 return False, rows
     raise ValueError("damaged item column")
