@@ -82,3 +82,14 @@ def pytest_terminal_summary(terminalreporter, config):
 @pytest.fixture
 def fixtures_dir() -> Path:
     return FIXTURES
+
+
+_CACHE_DIRS = iter(range(1 << 62))
+
+
+@pytest.fixture(autouse=True)
+def _ledger_cache_dir(tmp_path_factory, monkeypatch):
+    """Each test has its own, empty read cache (io.ledger.cache): never the person's own cache folder,
+    and never an entry another test left. The folder is made only if a read writes to it."""
+    folder = tmp_path_factory.getbasetemp() / "ledger-cache" / str(next(_CACHE_DIRS))
+    monkeypatch.setenv("STEELYARD_CACHE_DIR", str(folder))

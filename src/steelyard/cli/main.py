@@ -22,6 +22,14 @@ from steelyard import __version__
 from steelyard.core.errors import SteelyardError
 
 EXIT_OK, EXIT_LIMIT, EXIT_INPUT = 0, 1, 2
+NO_CACHE_HELP = ("read every ledger afresh: neither read nor write the read cache (also: environment "
+                 "STEELYARD_NO_CACHE=1)")
+
+
+def _no_cache() -> None:
+    from steelyard.io.ledger.cache import turn_off
+
+    turn_off()
 
 
 class _Parser(argparse.ArgumentParser):
@@ -53,10 +61,13 @@ def build_parser(only: str | None = None) -> argparse.ArgumentParser:
         "Weight and mass-properties ledger: roll-ups, loadouts, CG envelopes. "
         "Run with no command to open the full-screen editor."))
     parser.add_argument("--version", action="version", version=f"steelyard {__version__}")
+    parser.add_argument("--no-cache", action="store_true", help=NO_CACHE_HELP)
     subs = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for mod in _commands(only):
         p = subs.add_parser(mod.NAME, help=mod.HELP, description=getattr(mod, "DESCRIPTION", mod.HELP))
         mod.add_arguments(p)
+        # accepted after the command too; SUPPRESS: absent here, it leaves the main parser's value alone
+        p.add_argument("--no-cache", action="store_true", default=argparse.SUPPRESS, help=NO_CACHE_HELP)
         p.set_defaults(run=mod.run)
     return parser
 
@@ -89,9 +100,21 @@ def _ignore_file_size_signal() -> None:
 
 
 def main(argv: list[str] | None = None) -> int:
+    try:
+        return _main(argv)
+    finally:  # --no-cache holds for one command line (main may run again in the same process)
+        cache = sys.modules.get("steelyard.io.ledger.cache")
+        if cache is not None:
+            cache.turn_off(False)
+
+
+def _main(argv: list[str] | None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     _ignore_file_size_signal()
     try:
+        while argv and argv[0] == "--no-cache":  # before the command: taken here, so the one-command parser is kept
+            argv = argv[1:]
+            _no_cache()
         names = _names() if argv else set()
         if not argv or (len(argv) == 1 and not argv[0].startswith("-") and argv[0] not in names):
             from steelyard.cli.open_default import run_default
@@ -99,6 +122,8 @@ def main(argv: list[str] | None = None) -> int:
             return run_default(argv[0] if argv else None)
         parser = build_parser(argv[0] if argv[0] in names else None)
         args = parser.parse_args(argv)
+        if getattr(args, "no_cache", False):
+            _no_cache()
         if getattr(args, "run", None) is None:
             parser.print_help()
             return EXIT_INPUT

@@ -100,7 +100,7 @@ def run(args) -> int:
 
     target = args.output or args.file
     with rewriting(target, source=args.file, force=args.force) as w:
-        loaded = load_for_cli(args.file)
+        loaded = load_for_cli(args.file, cache=False)  # it rewrites the ledger: read afresh
         w.replaces(loaded)
         units = new_units(loaded.ledger.units, args)
         with located(loaded):

@@ -49,7 +49,7 @@ def run(args) -> int:
         raise SteelyardError("already exists; pass --force to replace it (or --into it to merge)", file=target,
                              field="--output")
     with rewriting(target, source=args.into, force=args.force) as out:  # the editor's lock, held to the end
-        loaded = load_for_cli(args.into) if args.into else None
+        loaded = load_for_cli(args.into, cache=False) if args.into else None
         if loaded is not None:
             out.replaces(loaded)
         imp = read_csv_file(args.csv, decimal_comma=args.decimal_comma, into=loaded.ledger if loaded else None,

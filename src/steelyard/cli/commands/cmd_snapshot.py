@@ -62,7 +62,7 @@ def _text(args):
     from steelyard.io.ledger.snapshot import snapshot_info, snapshot_text, verify_snapshot
     from steelyard.cli.loading import check_loadout, load_for_cli, located
 
-    loaded = load_for_cli(args.file)
+    loaded = load_for_cli(args.file, cache=False)  # a ledger (file or stdout) is made from it: read afresh
     if snapshot_info(loaded.ledger, file=loaded.path) is not None:
         verify_snapshot(loaded.ledger, file=loaded.path)  # never re-issue an altered snapshot
     check_loadout(loaded, args.loadout)

@@ -75,7 +75,7 @@ def _load(args, out):
     from steelyard.io.report.weighing import weigh_ledger
     from steelyard.cli.loading import load_for_cli
 
-    loaded = load_for_cli(args.file)
+    loaded = load_for_cli(args.file, cache=out is None)  # --apply writes the ledger: read afresh
     w = weigh_ledger(loaded.ledger, source=loaded.path)
     if out is not None:
         out.replaces(loaded)

@@ -96,10 +96,13 @@ def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = N
 
 
 def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
-                fast: bool = True) -> LoadedLedger:
+                fast: bool = True, cache: bool = False) -> LoadedLedger:
     """Read and check a ledger file. On any error the file is marked never to be overwritten.
 
     FILE@REV reads the file as committed at a git revision (`io.vcs`); nothing is marked then.
+    With `cache` (read-only uses: never a read a write is made from), an unchanged file and tree
+    come from the read cache (io.ledger.cache) and a fresh read is stored there; FILE@REV is
+    never cached.
     """
     spec = os.fspath(path)
     if isinstance(spec, str) and "@" in spec and not os.path.lexists(spec):  # maybe FILE@REV (revision.py)
@@ -109,15 +112,52 @@ def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
         if at is not None:
             return at
     source = str(path)
+    tree = None
     try:
         data = read_bytes(path)
-        ledger, text = ledger_from_bytes(data, source=source, progress=progress, fast=fast)
+        if cache:
+            hit = _from_cache(source, data, fast)
+            if hit is not None:
+                return hit
+            from steelyard.io.ledger.tree import DiskSource, tree_for
+
+            tree = tree_for(DiskSource(source))  # the same reader the parse would make; it lists what it read
+        ledger, text = ledger_from_bytes(data, source=source, progress=progress, fast=fast, tree=tree)
     except SteelyardError:
         if os.path.isfile(source):
             mark_failed(source)
         raise
     mark_loaded(source)
-    return LoadedLedger(ledger, source, hashlib.sha256(data).hexdigest(), has_comments(text), time.time())
+    loaded = LoadedLedger(ledger, source, hashlib.sha256(data).hexdigest(), has_comments(text), time.time())
+    if cache:
+        from steelyard.io.ledger import cache as _cache
+
+        _cache.store(source, data, ledger, had_comments=loaded.had_comments, files=tree.files, fast=fast)
+    return loaded
+
+
+def _from_cache(source: str, data: bytes, fast: bool) -> LoadedLedger | None:
+    from steelyard.io.ledger import cache as _cache
+
+    sha = hashlib.sha256(data).hexdigest()
+    hit = _cache.lookup(source, data, fast=fast, sha256=sha)
+    if hit is None:
+        return None
+    mark_loaded(source)
+    return LoadedLedger(hit.ledger, source, sha, hit.had_comments, time.time())
+
+
+def cached_open(path: str | os.PathLike, *, fast: bool = True) -> LoadedLedger | None:
+    """The ledger at `path` from the read cache if it is there and valid for the file as it is now,
+    else None (nothing is parsed; nothing raises). For a quick first look; a write reads afresh."""
+    source = os.fspath(path)
+    if not isinstance(source, str):
+        return None
+    try:
+        data = read_bytes(source)
+    except SteelyardError:
+        return None
+    return _from_cache(source, data, fast)
 
 
 def load_ledger(path: str | os.PathLike, **kw) -> Ledger:
