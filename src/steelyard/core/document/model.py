@@ -69,15 +69,19 @@ class _NoUnits(Mapping):
     def __repr__(self) -> str:
         return "{}"
 
-    def __reduce__(self):  # unpickles as the same shared object
-        return (_no_units, ())
+    def __new__(cls):  # one shared object: calling the class (as unpickling does) gives it again
+        global NO_UNITS
+        try:
+            return NO_UNITS
+        except NameError:
+            NO_UNITS = super().__new__(cls)
+            return NO_UNITS
+
+    def __reduce__(self):  # unpickles as the same shared object, through the class alone
+        return (_NoUnits, ())
 
 
 NO_UNITS = _NoUnits()
-
-
-def _no_units() -> _NoUnits:
-    return NO_UNITS
 
 
 @dataclass(frozen=True, slots=True)
