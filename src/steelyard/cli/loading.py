@@ -22,11 +22,12 @@ T = TypeVar("T")
 
 
 def load_for_cli(path: str) -> LoadedLedger:
-    with LoadProgress(f"loading {path}") as progress:
+    with gc_paused(), LoadProgress(f"loading {path}") as progress:
         loaded = open_ledger(path, progress=progress)
-    # A command keeps the ledger to its end: moving what was just read out of the cyclic collector's
-    # reach spares it scanning every item again (memory is still freed by reference counting).
-    gc.freeze()
+        # A command keeps the ledger to its end: moving what was just read out of the cyclic collector's
+        # reach before the collector runs spares it scanning every item (a tree of assemblies holds each
+        # item twice: in its own file's ledger and placed); memory is still freed by reference counting.
+        gc.freeze()
     from steelyard.io.ledger.read import reading_notes
 
     for note in reading_notes(loaded.ledger):  # stderr: stdout stays data for scripts

@@ -8,12 +8,12 @@ carry lengths or masses in the child's units are carried with their meaning:
 a tank's CG table is moved like any CG, a tolerance's CG spread is taken
 through T (exact for the usual quarter turns and mirrors), its mass keeps the
 child's unit. Columns are transformed in bulk; only the Item objects are
-made one by one.
+made one by one, from what a child's items give once (`_Plan`, kept with the
+child's ledger: a file placed four times is gathered once).
 """
 
 from __future__ import annotations
 
-import operator
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 
@@ -53,13 +53,10 @@ def group_prefix(p: Placement) -> str:
 
 
 _EMPTY: dict = {}
-_ID, _GROUP, _SOURCE = (operator.attrgetter(k) for k in ("id", "group", "source"))
-
-
-def _TOLERANCE(item: Item) -> bool:  # noqa: N802 - used like the attrgetters beside it
-    return item.tolerance is not None
 _new = object.__new__
 _set = object.__setattr__
+#: an Item keeps its fields in a per-object dict (no __slots__): placed copies are made from that dict
+_DICT_ITEMS = "__slots__" not in vars(Item)
 
 
 def _clean(six: np.ndarray) -> np.ndarray:
@@ -76,44 +73,101 @@ def transform_columns(arrays: ItemArrays, t: np.ndarray, at: np.ndarray) -> Item
     return ItemArrays(arrays.unit_mass, arrays.quantity, cg, own, arrays.variable)
 
 
+@dataclass(frozen=True)
+class _Plan:
+    """What placing a child needs from its items, gathered once per child ledger (placed many times)."""
+
+    ids: list  # item ids
+    groups: list  # item groups
+    group_set: tuple  # the distinct groups
+    sources: list  # item sources (None: the child's own item)
+    source_set: tuple
+    own_rows: np.ndarray  # rows with an own inertia (inertia or shape)
+    tolerance_rows: tuple  # rows with a tolerance
+
+
+def _plan(child: Ledger) -> _Plan:
+    cached = child.__dict__.get("_placing")
+    if cached is not None:
+        return cached
+    items = child.items
+    ids = [it.id for it in items]
+    groups = [it.group for it in items]
+    sources = [it.source for it in items]
+    own = np.flatnonzero(np.fromiter((it.inertia is not None or it.shape is not None for it in items), bool,
+                                     len(items)))
+    tol = tuple(i for i, it in enumerate(items) if it.tolerance is not None)
+    plan = _Plan(ids, groups, tuple(set(groups)), sources, tuple(set(sources)), own, tol)
+    child.__dict__["_placing"] = plan  # a ledger is immutable; an edit makes a new one
+    return plan
+
+
 def place(child: Ledger, p: Placement, parent_units: FileUnits, parent_frame: Frame
           ) -> tuple[list[Item], ItemArrays]:
     """Items and columns of `child` (a resolved ledger, SI) placed by `p` into the parent."""
     t = p.matrix(child.frame, parent_frame)
     arrays = transform_columns(child.arrays, t, p.at)
-    prefix = group_prefix(p)
-    has_own = np.fromiter((it.inertia is not None or it.shape is not None for it in child.items), bool,
-                          len(child.items))
-    six = _clean(six_from_tensor(arrays.own)).tolist() if has_own.any() else None
-    cgs = arrays.cg.tolist()
-    tanks = tank_tables(child)
-    tolerances = parse_tolerances(child) if any(map(_TOLERANCE, child.items)) else None
-    length_f = unit_factor(parent_units.length, "length")
-    pid = p.id
+    plan = _plan(child)
     items = child.items
-    ids = [f"{pid}/{i}" for i in map(_ID, items)]
-    prefixed: dict[str, str] = {}
-    groups = [prefixed.get(g) or prefixed.setdefault(g, f"{prefix}/{g}" if g else prefix)
-              for g in map(_GROUP, items)]
-    sources = [f"{pid}/{s}" if s else pid for s in map(_SOURCE, items)]
-    inertia = [tuple(x) for x in six] if six is not None else [None] * len(items)
-    if six is not None and not has_own.all():
-        inertia = [x if h else None for x, h in zip(inertia, has_own.tolist())]
-    out = []
-    for it, ident, group, cg, own, src in zip(items, ids, groups, map(tuple, cgs), inertia, sources):
-        d = it.__dict__.copy()
-        d.update(id=ident, group=group, cg=cg, inertia=own, shape=None, rotate=(), given_units=_EMPTY, source=src)
-        new = _new(Item)
-        _set(new, "__dict__", d)
-        out.append(new)
+    n = len(items)
+    pid = p.id
+    head = pid + "/"
+    prefix = group_prefix(p)
+    ids = [head + i for i in plan.ids]
+    group_of = {g: f"{prefix}/{g}" if g else prefix for g in plan.group_set}
+    groups = list(map(group_of.__getitem__, plan.groups))
+    source_of = {s: head + s if s else pid for s in plan.source_set}
+    sources = list(map(source_of.__getitem__, plan.sources))
+    cgs = list(map(tuple, arrays.cg.tolist()))
+    inertia: list = [None] * n
+    if len(plan.own_rows):
+        six = _clean(six_from_tensor(arrays.own[plan.own_rows])).tolist()
+        for i, x in zip(plan.own_rows.tolist(), six):
+            inertia[i] = tuple(x)
+    out = _copies(items, ids, groups, cgs, inertia, sources)
+    length_f = unit_factor(parent_units.length, "length")
+    tanks = tank_tables(child)
     for i in tanks:
         pos = tanks[i].cg @ t.T + p.at
-        out[i].__dict__["cg_table"] = [[float(f), *(float(x) / length_f for x in row)]
-                                       for f, row in zip(tanks[i].fraction, pos)]
-    for i, it in enumerate(items):
-        if it.tolerance is not None:
-            out[i].__dict__["tolerance"] = _placed_tolerance(it.tolerance, i, tolerances, t, child.units, length_f)
+        out[i] = _evolved(out[i], cg_table=[[float(f), *(float(x) / length_f for x in row)]
+                                            for f, row in zip(tanks[i].fraction, pos)])
+    if plan.tolerance_rows:
+        tolerances = parse_tolerances(child)
+        for i in plan.tolerance_rows:
+            out[i] = _evolved(out[i], tolerance=_placed_tolerance(items[i].tolerance, i, tolerances, t,
+                                                                  child.units, length_f))
     return out, arrays
+
+
+def _copies(items, ids, groups, cgs, inertia, sources) -> list[Item]:
+    """Read-only copies of `items` with these ids, groups, CGs, own inertias and sources, in the parent."""
+    if not _DICT_ITEMS:  # an Item with __slots__: the plain (slower) way
+        return [it.evolve(id=i, group=g, cg=c, inertia=o, shape=None, rotate=(), given_units=_EMPTY, source=s)
+                for it, i, g, c, o, s in zip(items, ids, groups, cgs, inertia, sources)]
+    out = []
+    append = out.append
+    for it, ident, group, cg, own, src in zip(items, ids, groups, cgs, inertia, sources):
+        d = it.__dict__.copy()
+        d["id"] = ident
+        d["group"] = group
+        d["cg"] = cg
+        d["inertia"] = own
+        d["shape"] = None
+        d["rotate"] = ()
+        d["given_units"] = _EMPTY
+        d["source"] = src
+        new = _new(Item)
+        _set(new, "__dict__", d)
+        append(new)
+    return out
+
+
+def _evolved(item: Item, **changes) -> Item:
+    if not _DICT_ITEMS:
+        return item.evolve(**changes)
+    new = _new(Item)
+    _set(new, "__dict__", {**item.__dict__, **changes})
+    return new
 
 
 def _placed_tolerance(tol, i: int, parsed, t: np.ndarray, child_units: FileUnits, length_f: float) -> dict:
