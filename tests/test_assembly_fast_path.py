@@ -292,3 +292,14 @@ def test_bad_value_inside_a_placed_file_names_file_item_and_field(tmp_path, caps
     assert old in POD
     code, _, err = run_main(capsys, "rollup", _pod_tree(tmp_path, POD.replace(old, new)))
     one_line_error(code, err, "pods/pod.toml", item, field)
+
+
+def test_the_plain_copy_path_gives_the_same_items(tree, monkeypatch):
+    # The per-field copy (taken when Item has __slots__) must equal the dict copy, item for item.
+    import steelyard.core.assembly.flatten as flatten
+
+    fast = open_ledger(tree / "top.toml").ledger
+    monkeypatch.setattr(flatten, "_DICT_ITEMS", False)
+    plain = open_ledger(tree / "top.toml").ledger
+    assert plain.items == fast.items
+    assert any(it.inertia is not None for it in plain.items)
