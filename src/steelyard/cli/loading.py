@@ -25,11 +25,12 @@ def load_for_cli(path: str, *, cache: bool = True) -> LoadedLedger:
     """Open `path` for a command. `cache=False` for a command that writes a ledger made from what it
     reads: a write never comes from the read cache (io.ledger.cache), which --no-cache and
     STEELYARD_NO_CACHE=1 turn off for every command."""
-    with LoadProgress(f"loading {path}") as progress:
+    with gc_paused(), LoadProgress(f"loading {path}") as progress:
         loaded = open_ledger(path, progress=progress, cache=cache)
-    # A command keeps the ledger to its end: moving what was just read out of the cyclic collector's
-    # reach spares it scanning every item again (memory is still freed by reference counting).
-    gc.freeze()
+        # A command keeps the ledger to its end: moving what was just read out of the cyclic collector's
+        # reach before the collector runs spares it scanning every item (a tree of assemblies holds each
+        # item twice: in its own file's ledger and placed); memory is still freed by reference counting.
+        gc.freeze()
     from steelyard.io.ledger.read import reading_notes
 
     for note in reading_notes(loaded.ledger):  # stderr: stdout stays data for scripts

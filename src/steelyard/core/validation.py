@@ -10,6 +10,7 @@ the commands that use it.
 
 from __future__ import annotations
 
+from steelyard.core.assembly.checked import own_part, own_rows, seed_tables, top_records
 from steelyard.core.control.growth import allocations, growth_fractions
 from steelyard.core.control.uncertainty import parse_tolerances
 from steelyard.core.document.model import Ledger
@@ -19,10 +20,19 @@ from steelyard.core.loading.tank import tank_tables
 
 
 def validate_document(ledger: Ledger) -> None:
-    """Raise the first SteelyardError any table of `ledger` gives (located by table and key)."""
+    """Raise the first SteelyardError any table of `ledger` gives (located by table and key).
+
+    In a tree, the rows placed from other files were checked when each file was
+    read: only the file's own rows are looked at one by one (core.assembly.checked).
+    """
     mac_reference(ledger)
     fuel_rows(ledger)
-    for it in ledger.items:
+    own = ledger
+    records = top_records(ledger) if ledger.placed else None
+    if records:
+        rows = own_rows(ledger, records)
+        own = own_part(ledger, rows)
+    for it in own.items:
         if it.removable:
             is_removable(it)
     for lo in ledger.loadouts:
@@ -34,10 +44,12 @@ def validate_document(ledger: Ledger) -> None:
         from steelyard.core.loading.sequence import sequence_specs
 
         sequence_specs(ledger)
+    if records:
+        seed_tables(ledger, records, own, rows)  # tanks, then growth: the order of the two calls below
     tank_tables(ledger)
     growth_fractions(ledger)
     allocations(ledger)
-    parse_tolerances(ledger)
+    parse_tolerances(own)
     if ledger.weighing is not None:
         from steelyard.core.control.weighing import parse_weighing
 

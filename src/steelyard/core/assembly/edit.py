@@ -25,8 +25,10 @@ def top_placements(ledger: Ledger) -> list[Placed]:
 
 
 def _slice(a: ItemArrays, start: int, stop: int) -> ItemArrays:
-    return ItemArrays(a.unit_mass[start:stop], a.quantity[start:stop], a.cg[start:stop], a.own[start:stop],
-                      a.variable[start:stop])
+    rows, values = a.own_sparse()
+    keep = (rows >= start) & (rows < stop)
+    return ItemArrays.sparse(a.unit_mass[start:stop], a.quantity[start:stop], a.cg[start:stop],
+                             a.variable[start:stop], rows[keep] - start, values[keep])
 
 
 def _splice(ledger: Ledger, start: int, stop: int, items: list, arrays: ItemArrays | None,
@@ -46,15 +48,8 @@ def _splice(ledger: Ledger, start: int, stop: int, items: list, arrays: ItemArra
     new_items = old[:start] + tuple(items) + old[stop:]
     new = ledger.evolve(items=new_items, placed=tuple(placed), assemblies=assemblies)
     a = ledger.arrays
-    if shift == 0 and arrays is not None:  # the same number of rows (a placed file saved): copy, then overwrite
-        cols = ItemArrays(a.unit_mass.copy(), a.quantity.copy(), a.cg.copy(order="F"), a.own.copy(),
-                          a.variable.copy())
-        for name in ("unit_mass", "quantity", "cg", "own", "variable"):
-            getattr(cols, name)[start:stop] = getattr(arrays, name)
-        new.__dict__["arrays"] = cols
-    else:
-        parts = [_slice(a, 0, start)] + ([arrays] if arrays is not None else []) + [_slice(a, stop, len(old))]
-        new.__dict__["arrays"] = concatenate(parts)
+    parts = [_slice(a, 0, start)] + ([arrays] if arrays is not None else []) + [_slice(a, stop, len(old))]
+    new.__dict__["arrays"] = concatenate(parts)
     _carry_tanks(ledger, new, start, stop, shift)
     if shift == 0 and all(o.id == n.id for o, n in zip(old[start:stop], items)):
         new.__dict__["index"] = ledger.index  # same ids in the same rows

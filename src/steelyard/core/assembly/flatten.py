@@ -8,12 +8,12 @@ carry lengths or masses in the child's units are carried with their meaning:
 a tank's CG table is moved like any CG, a tolerance's CG spread is taken
 through T (exact for the usual quarter turns and mirrors), its mass keeps the
 child's unit. Columns are transformed in bulk; only the Item objects are
-made one by one.
+made one by one, from what a child's items give once (`_Plan`, kept with the
+child's ledger: a file placed four times is gathered once).
 """
 
 from __future__ import annotations
 
-import operator
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 
@@ -52,13 +52,6 @@ def group_prefix(p: Placement) -> str:
     return f"{p.group}/{p.id}" if p.group else p.id
 
 
-_ID, _GROUP, _SOURCE = (operator.attrgetter(k) for k in ("id", "group", "source"))
-
-
-def _TOLERANCE(item: Item) -> bool:  # noqa: N802 - used like the attrgetters beside it
-    return item.tolerance is not None
-
-
 def _clean(six: np.ndarray) -> np.ndarray:
     """Rounding noise of a turn (1e-21 products beside 1e-4 moments, -0.0) set to exact zero."""
     scale = np.abs(six[:, :3]).max(axis=1, keepdims=True)
@@ -69,8 +62,38 @@ def _clean(six: np.ndarray) -> np.ndarray:
 def transform_columns(arrays: ItemArrays, t: np.ndarray, at: np.ndarray) -> ItemArrays:
     """The child's columns in the parent's frame: cg -> at + T·cg, own -> T·own·Tᵀ."""
     cg = np.asfortranarray(arrays.cg @ t.T + at)
-    own = np.einsum("ij,njk,lk->nil", t, arrays.own, t, optimize=True)
-    return ItemArrays(arrays.unit_mass, arrays.quantity, cg, own, arrays.variable)
+    rows, values = arrays.own_sparse()
+    own = np.einsum("ij,njk,lk->nil", t, values, t, optimize=True) if len(rows) else values
+    return ItemArrays.sparse(arrays.unit_mass, arrays.quantity, cg, arrays.variable, rows, own)
+
+
+@dataclass(frozen=True)
+class _Plan:
+    """What placing a child needs from its items, gathered once per child ledger (placed many times)."""
+
+    ids: list  # item ids
+    groups: list  # item groups
+    group_set: tuple  # the distinct groups
+    sources: list  # item sources (None: the child's own item)
+    source_set: tuple
+    own_rows: np.ndarray  # rows with an own inertia (inertia or shape)
+    tolerance_rows: tuple  # rows with a tolerance
+
+
+def _plan(child: Ledger) -> _Plan:
+    cached = child.__dict__.get("_placing")
+    if cached is not None:
+        return cached
+    items = child.items
+    ids = [it.id for it in items]
+    groups = [it.group for it in items]
+    sources = [it.source for it in items]
+    own = np.flatnonzero(np.fromiter((it.inertia is not None or it.shape is not None for it in items), bool,
+                                     len(items)))
+    tol = tuple(i for i, it in enumerate(items) if it.tolerance is not None)
+    plan = _Plan(ids, groups, tuple(set(groups)), sources, tuple(set(sources)), own, tol)
+    child.__dict__["_placing"] = plan  # a ledger is immutable; an edit makes a new one
+    return plan
 
 
 def place(child: Ledger, p: Placement, parent_units: FileUnits, parent_frame: Frame
@@ -78,35 +101,45 @@ def place(child: Ledger, p: Placement, parent_units: FileUnits, parent_frame: Fr
     """Items and columns of `child` (a resolved ledger, SI) placed by `p` into the parent."""
     t = p.matrix(child.frame, parent_frame)
     arrays = transform_columns(child.arrays, t, p.at)
-    prefix = group_prefix(p)
-    has_own = np.fromiter((it.inertia is not None or it.shape is not None for it in child.items), bool,
-                          len(child.items))
-    six = _clean(six_from_tensor(arrays.own)).tolist() if has_own.any() else None
-    cgs = arrays.cg.tolist()
-    tanks = tank_tables(child)
-    tolerances = parse_tolerances(child) if any(map(_TOLERANCE, child.items)) else None
-    length_f = unit_factor(parent_units.length, "length")
-    pid = p.id
+    plan = _plan(child)
     items = child.items
-    ids = [f"{pid}/{i}" for i in map(_ID, items)]
-    prefixed: dict[str, str] = {}
-    groups = [prefixed.get(g) or prefixed.setdefault(g, f"{prefix}/{g}" if g else prefix)
-              for g in map(_GROUP, items)]
-    sources = [f"{pid}/{s}" if s else pid for s in map(_SOURCE, items)]
-    inertia = [tuple(x) for x in six] if six is not None else [None] * len(items)
-    if six is not None and not has_own.all():
-        inertia = [x if h else None for x, h in zip(inertia, has_own.tolist())]
-    out = items_replaced(items, {"id": ids, "group": groups, "cg": map(tuple, cgs), "inertia": inertia,
-                                 "source": sources}, shape=None, rotate=(), given_units=NO_UNITS)
+    n = len(items)
+    pid = p.id
+    head = pid + "/"
+    prefix = group_prefix(p)
+    ids = [head + i for i in plan.ids]
+    group_of = {g: f"{prefix}/{g}" if g else prefix for g in plan.group_set}
+    groups = list(map(group_of.__getitem__, plan.groups))
+    source_of = {s: head + s if s else pid for s in plan.source_set}
+    sources = list(map(source_of.__getitem__, plan.sources))
+    cgs = list(map(tuple, arrays.cg.tolist()))
+    inertia: list = [None] * n
+    if len(plan.own_rows):
+        six = _clean(six_from_tensor(arrays.own[plan.own_rows])).tolist()
+        for i, x in zip(plan.own_rows.tolist(), six):
+            inertia[i] = tuple(x)
+    out = _copies(items, ids, groups, cgs, inertia, sources)
+    length_f = unit_factor(parent_units.length, "length")
+    tanks = tank_tables(child)
     for i in tanks:
         pos = tanks[i].cg @ t.T + p.at
-        out[i] = item_with(out[i], cg_table=[[float(f), *(float(x) / length_f for x in row)]
-                                             for f, row in zip(tanks[i].fraction, pos)])
-    for i, it in enumerate(items):
-        if it.tolerance is not None:
-            out[i] = item_with(out[i], tolerance=_placed_tolerance(it.tolerance, i, tolerances, t, child.units,
-                                                                   length_f))
+        out[i] = _evolved(out[i], cg_table=[[float(f), *(float(x) / length_f for x in row)]
+                                            for f, row in zip(tanks[i].fraction, pos)])
+    if plan.tolerance_rows:
+        tolerances = parse_tolerances(child)
+        for i in plan.tolerance_rows:
+            out[i] = _evolved(out[i], tolerance=_placed_tolerance(items[i].tolerance, i, tolerances, t,
+                                                                  child.units, length_f))
     return out, arrays
+
+
+def _copies(items, ids, groups, cgs, inertia, sources) -> list[Item]:
+    """Read-only copies of `items` with these ids, groups, CGs, own inertias and sources, in the parent."""
+    return items_replaced(items, {"id": ids, "group": groups, "cg": cgs, "inertia": inertia, "source": sources},
+                          shape=None, rotate=(), given_units=NO_UNITS)
+
+
+_evolved = item_with
 
 
 def _placed_tolerance(tol, i: int, parsed, t: np.ndarray, child_units: FileUnits, length_f: float) -> dict:
@@ -123,10 +156,15 @@ def _placed_tolerance(tol, i: int, parsed, t: np.ndarray, child_units: FileUnits
 
 
 def concatenate(parts: Sequence[ItemArrays]) -> ItemArrays:
-    return ItemArrays(np.concatenate([a.unit_mass for a in parts]), np.concatenate([a.quantity for a in parts]),
-                      np.asfortranarray(np.concatenate([a.cg for a in parts]).reshape(-1, 3)),
-                      np.concatenate([a.own for a in parts]).reshape(-1, 3, 3),
-                      np.concatenate([a.variable for a in parts]))
+    """One ledger's columns after another's; own inertia stays sparse (rows shifted by each part's start)."""
+    starts = np.cumsum([0] + [len(a.unit_mass) for a in parts[:-1]])
+    sparse = [a.own_sparse() for a in parts]
+    rows = np.concatenate([np.empty(0, np.intp)] + [r + s for (r, _), s in zip(sparse, starts)])
+    values = np.concatenate([np.empty((0, 3, 3))] + [v for _, v in sparse]).reshape(-1, 3, 3)
+    return ItemArrays.sparse(np.concatenate([a.unit_mass for a in parts]),
+                             np.concatenate([a.quantity for a in parts]),
+                             np.asfortranarray(np.concatenate([a.cg for a in parts]).reshape(-1, 3)),
+                             np.concatenate([a.variable for a in parts]), rows, values)
 
 
 def nested_records(child: Ledger, p: Placement, file: str, sha256: str, start: int) -> list[Placed]:

@@ -11,6 +11,7 @@ assemblies at the same revision). Nothing here writes.
 from __future__ import annotations
 
 import hashlib
+import operator
 import os
 import posixpath
 from dataclasses import dataclass, field
@@ -19,6 +20,8 @@ from steelyard.core.assembly.flatten import Placed, concatenate, nested_records,
 from steelyard.core.assembly.placement import read_placements
 from steelyard.core.document.model import Item, ItemArrays, Ledger
 from steelyard.core.errors import SteelyardError, said
+
+_ID = operator.attrgetter("id")
 
 #: deeper than this is surely a mistake (and keeps error chains readable)
 MAX_TREE_DEPTH = 32
@@ -116,11 +119,12 @@ class TreeReader:
             child, sha = self._read(child_source, p, source)
             start = len(all_items)
             new_items, new_arrays = self._place(child, p, document, source, child_source)
-            for it in new_items:
-                if it.id in ids:
-                    raise SteelyardError(f"id {said(it.id)} of a placed item clashes with another item's id",
-                                         file=source.label, subject=f"assembly {said(p.id)}", field="id")
-            ids.update(it.id for it in new_items)
+            new_ids = list(map(_ID, new_items))
+            if not ids.isdisjoint(new_ids):  # (ids within one file are unique: its reader checked)
+                clash = next(i for i in new_ids if i in ids)
+                raise SteelyardError(f"id {said(clash)} of a placed item clashes with another item's id",
+                                     file=source.label, subject=f"assembly {said(p.id)}", field="id")
+            ids.update(new_ids)
             all_items.extend(new_items)
             parts.append(new_arrays)
             placed.extend(nested_records(child, p, child_source.shown, sha, start))

@@ -21,7 +21,7 @@ from steelyard.core.display import AXIS_NAMES, fmt, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.tui.screens.assembly_form import AssemblyForm, PlacementResult
 from steelyard.tui.screens.choice_screen import ChoiceScreen
-from steelyard.tui.state.assembly import group_files, placement, refusal, top_of
+from steelyard.tui.state.assembly import group_files, nested_saved, placement, refusal, top_of
 from steelyard.tui.state.shown import signed
 from steelyard.tui.text import clean
 from steelyard.tui.widgets.ledger_table import LedgerTable
@@ -186,21 +186,25 @@ class AssemblyFlows:
         if os.path.realpath(child.path) != os.path.realpath(frame.path):
             return ""  # another file was opened meanwhile
         sha = child.loaded.sha256
-        if not any(q.file == frame.file and q.sha256 != sha for q in parent.ledger.placed if q.depth == 1):
+        if any(q.file == frame.file and q.sha256 != sha for q in parent.ledger.placed if q.depth == 1):
+            what = f"{frame.file} was saved"
+        elif nested_saved(parent.ledger, frame.file, child.saved):  # a file placed in it, saved from there
+            what = f"a file placed in {frame.file} was saved"
+        else:
             return ""
         before = parent.totals()
         try:
             parent.placed_file_saved(frame.file, child.saved, sha)
         except SteelyardError as exc:
-            return f"{frame.file} was saved, but it cannot be placed again here ({exc}); reopen {parent.name}."
+            return f"{what}, but {frame.file} cannot be placed again here ({exc}); reopen {parent.name}."
         after = parent.totals()
         if before.mp is None or after.mp is None:
-            return f"{frame.file} was saved: {parent.name}'s totals are refreshed."
+            return f"{what}: {parent.name}'s totals are refreshed."
         du = parent.units
         mu, lu = pretty_unit(du.mass), pretty_unit(du.length)
         b, a = before.mp, after.mp
         cg = "  ".join(f"{AXIS_NAMES[k]} {fmt(du.l(a.cg[k]))} ({signed(du.l(a.cg[k] - b.cg[k]))})" for k in range(3))
-        return (f"{frame.file} was saved: {parent.name} now {fmt(du.m(a.mass))} {mu} "
+        return (f"{what}: {parent.name} now {fmt(du.m(a.mass))} {mu} "
                 f"({signed(du.m(a.mass - b.mass))} {mu}), CG {cg} {lu}.")
 
     async def action_quit(self) -> None:

@@ -282,10 +282,24 @@ def _tables_moved(cached: dict, old: Ledger, new: Ledger, file: str) -> dict:
     return tables
 
 
+def nested_saved(parent: Ledger, file: str, child: Ledger) -> bool:
+    """True when a file placed inside `file` (at any depth) has other contents in `child` (the file's
+    resolved ledger as saved) than in `parent`'s placements of `file`: saved through `file`, opened
+    from here. Compared by placement id and hash (each file names the others from its own folder)."""
+    inner = {(q.id, q.sha256) for q in child.placed}
+    for top in top_placements(parent):
+        if top.file == file:
+            head = top.id + "/"
+            held = {(q.id[len(head):], q.sha256) for q in parent.placed if q.depth > 1 and q.id.startswith(head)}
+            if held != inner:
+                return True
+    return False
+
+
 def stale_files(ledger: Ledger, fresh: dict[str, tuple[Ledger, str]]) -> Ledger:
     """`ledger` with every top placement whose file has newer contents in `fresh` placed again."""
     out = ledger
     for file, (child, sha) in fresh.items():
-        if any(q.file == file and q.sha256 != sha for q in top_placements(out)):
+        if any(q.file == file and q.sha256 != sha for q in top_placements(out)) or nested_saved(out, file, child):
             out = with_placed_file(out, file, child, sha)
     return out
