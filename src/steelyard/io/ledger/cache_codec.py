@@ -20,7 +20,7 @@ from operator import attrgetter, is_
 
 import numpy as np
 
-from steelyard.core.document.model import Item, Ledger
+from steelyard.core.document.model import Item, Ledger, items_from_columns
 
 PROTOCOL = 5
 
@@ -116,39 +116,6 @@ def _decode(column: tuple, n: int) -> tuple[bool, object]:
     raise ValueError("damaged item column")
 
 
-_BUILDERS: dict = {}
-
-
-def _builder(names: tuple[str, ...], same: tuple[bool, ...], defaulted: frozenset = frozenset()):
-    """A function (constants, *columns) -> list of Item: one generated loop, no per-field call.
-
-    `defaulted`: positions of constant columns whose value is the class attribute itself."""
-    fn = _BUILDERS.get((names, same, defaulted))
-    if fn is not None:
-        return fn
-    slots = "__dict__" not in dir(Item) and hasattr(Item, "__slots__")
-    varying = [i for i in range(len(names)) if not same[i]]
-    args = ", ".join(f"c{i}" for i in varying)
-    lines = [f"def build(k, {args}):", "    out = []", "    add = out.append", "    new = object.__new__"]
-    lines += [f"    k{i} = k[{i}]" for i in range(len(names)) if same[i]]
-    value = {i: (f"k{i}" if same[i] else f"v{i}") for i in range(len(names))}
-    lines.append(f"    for {''.join(f'v{i}, ' for i in varying)} in zip({args}):" if varying
-                 else "    for _ in range(k[-1]):")
-    lines.append("        o = new(Item)")
-    if slots:
-        lines += [f"        set{i}(o, {value[i]})" for i in range(len(names))]
-    else:  # a field every item holds at the class's own default is left to the class (as for a default)
-        lines.append("        d = o.__dict__")
-        lines += [f"        d[{n!r}] = {value[i]}" for i, n in enumerate(names) if not (same[i] and i in defaulted)]
-    lines += ["        add(o)", "    return out"]
-    env: dict = {"Item": Item}
-    if slots:
-        env.update({f"set{i}": getattr(Item, n).__set__ for i, n in enumerate(names)})
-    exec("\n".join(lines), env)  # noqa: S102 - text built here from the dataclass's own field names
-    fn = _BUILDERS[(names, same, defaulted)] = env["build"]
-    return fn
-
-
 def dumps(ledger: Ledger) -> bytes | None:
     """The ledger as bytes; None when it holds something this codec does not store by column."""
     if not hasattr(ledger, "__dict__") or type(ledger) is not Ledger:
@@ -179,11 +146,8 @@ def loads(data: bytes, start: int = 0) -> Ledger:
             or not all(type(c) is tuple and c for c in columns)):
         raise ValueError("not a ledger cache payload")
     decoded = [_decode(c, n) for c in columns]
-    same = tuple(s for s, _ in decoded)
-    constants = [v if s else None for s, v in decoded] + [n]
-    missing = object()
-    defaulted = frozenset(i for i, (s, v) in enumerate(decoded) if s and Item.__dict__.get(names[i], missing) is v)
-    items = tuple(_builder(names, same, defaulted)(constants, *(v for s, v in decoded if not s)))
+    items = tuple(items_from_columns(n, {k: v for k, (s, v) in zip(names, decoded) if not s},
+                                     **{k: v for k, (s, v) in zip(names, decoded) if s}))
     if len(items) != n:
         raise ValueError("damaged item columns")
     ledger = object.__new__(Ledger)
