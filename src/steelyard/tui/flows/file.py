@@ -20,7 +20,7 @@ from steelyard.core.physics.groups import subtotals
 from steelyard.core.loading.loadout import resolve
 from steelyard.core.document.model import Ledger
 from steelyard.io.ledger.demo import demo_path
-from steelyard.io.ledger.file import ChangedOnDisk, open_ledger
+from steelyard.io.ledger.file import ChangedOnDisk, LoadedLedger, open_ledger
 from steelyard.tui.screens.confirm import ConfirmScreen
 from steelyard.tui.screens.loading_screen import LoadingScreen
 from steelyard.tui.widgets.log_view import when
@@ -36,6 +36,15 @@ def groups_of(ledger: Ledger, state) -> list:
     if state is None:
         return []
     return subtotals([it.group for it in ledger.items], state.mass, state.cg, state.own)
+
+
+def read_ledger(path: str, progress=None) -> LoadedLedger:
+    """Every ledger the editor opens for editing is read here (one place for a read cache to go).
+
+    A cached read must never feed a write: if one is plugged in here, the
+    editor has to read the file fresh (in a worker) before its first save.
+    """
+    return open_ledger(path, progress=progress)
 
 
 class FileFlows:
@@ -65,7 +74,7 @@ class FileFlows:
             if not demo and not os.path.exists(path):
                 loaded, ledger = None, Ledger()  # a new ledger, written on the first save
             else:
-                loaded = open_ledger(str(demo_path()) if demo else path, progress=progress)
+                loaded = read_ledger(str(demo_path()) if demo else path, progress)
                 ledger = loaded.ledger
             progress("adding up groups", None)
             try:
