@@ -138,7 +138,9 @@ class ItemForm(ModalScreen[FormResult | None]):
     def check(self, *, wait: bool = False) -> None:
         """Check the fields at once (the ✓ / ✗ line follows every keystroke); then the whole edit.
 
-        The fields are parsed here, in microseconds. Building the edited
+        The fields are parsed here, in microseconds. A fixed item's preview
+        is a delta on the other rows' sums (`_quick`, O(1) in the ledger's
+        size). Otherwise building the edited
         ledger, checking its loadouts and rolling it up for the preview takes
         a fraction of a second on a ledger of 100,000 items, so there it runs
         in a thread (the newest keystroke wins) instead of holding up the
