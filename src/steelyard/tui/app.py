@@ -152,7 +152,12 @@ class SteelyardApp(AssemblyFlows, SetupFlows, RevisionFlows, FileFlows, EditFlow
     def on_subtotals_ready(self, message: SubtotalsReady) -> None:
         s = self.session
         if s is not None and message.ledger is s.ledger and message.loadout == s.loadout:
+            table = self.main.table
+            first = getattr(self, "_first_groups", None) is s.ledger and table.cursor == 0
             self.main.show(s, message.groups)
+            if first:  # the group rows arrived after the first paint: stay at the top, not on the item
+                self._first_groups = None
+                table._set_cursor(0)
 
     def on_main_screen_extras_wanted(self, message: MainScreen.ExtrasWanted) -> None:
         s = self.session

@@ -16,6 +16,7 @@ from steelyard.tui.screens.help_screen import HelpScreen
 from steelyard.tui.screens.item_form import FormResult, ItemForm
 from steelyard.tui.widgets.ledger_table import LedgerTable
 from steelyard.tui.screens.loadout_screen import LoadoutScreen, amount_text
+from steelyard.tui.state.form_preview import FormPreview
 from steelyard.tui.state.preview import preview_text
 from steelyard.tui.screens.prompt import TextPrompt
 from steelyard.tui.widgets.summary_strip import summary_text
@@ -49,6 +50,18 @@ class EditFlows:
         s = self.session
         return preview_text(s.totals(), s.totals_for(new_ledger), s.ledger.frame, s.units)
 
+    def _form(self, original, **more) -> ItemForm:
+        """The item form on the current ledger, its keystrokes previewed as a delta (`FormPreview`)."""
+        s = self.session
+        before = s.totals()
+        delta = FormPreview(s.ledger, before, original)
+
+        def quick(item) -> Text | None:
+            after = delta.totals(item)
+            return None if after is None else preview_text(before, after, s.ledger.frame, s.units)
+
+        return ItemForm(s.ledger, original, self._preview, quick=quick, **more)
+
     def _current(self) -> str | None:
         """The item under the table's cursor; says so when the cursor is on a group row."""
         table = self.screen.query(LedgerTable)
@@ -63,7 +76,7 @@ class EditFlows:
     # then, so keys typed or pasted right after `a` land in the form's first field, none lost.
     async def action_add(self) -> None:
         if self._may_edit():
-            await self.push_screen(ItemForm(self.session.ledger, None, self._preview), self._form_done)
+            await self.push_screen(self._form(None), self._form_done)
 
     async def action_edit(self) -> None:
         item_id = self._current()
@@ -73,7 +86,7 @@ class EditFlows:
     async def edit_item(self, item_id: str) -> None:
         if self._may_edit() and not self.refuse_placed(item_id):
             item = self.session.ledger.item(item_id)
-            await self.push_screen(ItemForm(self.session.ledger, item, self._preview), self._form_done)
+            await self.push_screen(self._form(item), self._form_done)
 
     async def on_ledger_table_edit_requested(self, event: LedgerTable.EditRequested) -> None:
         await self.edit_item(event.item_id)

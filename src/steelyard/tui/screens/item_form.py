@@ -51,11 +51,13 @@ class ItemForm(ModalScreen[FormResult | None]):
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
     def __init__(self, ledger: Ledger, original: Item | None, preview: Callable[[Ledger], Text],
-                 *, start: Item | None = None) -> None:
+                 *, start: Item | None = None, quick: Callable[[Item], Text | None] | None = None) -> None:
         super().__init__()
         self.ledger = ledger
         self.original = original  # None: adding a new item
         self.preview = preview
+        self.quick = quick  # the preview of one item's change without a new ledger (None: not covered)
+        self._queued = False  # a check is queued behind the keys already waiting: one for the burst
         self.start = initial_fields(start if start is not None else original, ledger.units)
         self.values = dict(self.start)
         self.result: FormResult | None = None
@@ -136,7 +138,9 @@ class ItemForm(ModalScreen[FormResult | None]):
     def check(self, *, wait: bool = False) -> None:
         """Check the fields at once (the ✓ / ✗ line follows every keystroke); then the whole edit.
 
-        The fields are parsed here, in microseconds. Building the edited
+        The fields are parsed here, in microseconds. A fixed item's preview
+        is a delta on the other rows' sums (`_quick`, O(1) in the ledger's
+        size). Otherwise building the edited
         ledger, checking its loadouts and rolling it up for the preview takes
         a fraction of a second on a ledger of 100,000 items, so there it runs
         in a thread (the newest keystroke wins) instead of holding up the
@@ -151,13 +155,64 @@ class ItemForm(ModalScreen[FormResult | None]):
             return
         self._show_problem(None)
         self.result = None
+        if not wait and self._quick(fields, item):
+            return
         if wait or len(self.ledger.items) <= SYNC_ITEMS:
             self._finish(self._generation, self._whole_edit(fields, item))
             return
-        self.query_one("#form-message", Static).update("✓ all fields valid (checking loadouts, preview…)")
+        self._say("✓ all fields valid (checking loadouts, preview…)")
         gen = self._generation
         self.run_worker(lambda: self.app.call_from_thread(self._finish, gen, self._whole_edit(fields, item)),
                         thread=True, exclusive=True, group="form-preview", exit_on_error=False)
+
+    def _quick(self, fields: dict[str, str], item: Item) -> bool:
+        """Preview a keystroke as a delta (`state.form_preview`), without building the edited ledger.
+
+        O(1) in the ledger's size, so it runs here, key by key. False when
+        the delta does not cover the edit (a variable item): the whole edit
+        is checked instead. Apply always builds and checks the whole edit.
+        """
+        if self.quick is None:
+            return False
+        try:
+            check_loadouts(self.ledger, item)  # a fixed item: only "a loadout sets an amount of it"
+            if self.original is not None and self.original.id != item.id:
+                check_loadouts(self.ledger, item.evolve(id=self.original.id))
+        except SteelyardError as exc:
+            self._show_problem(exc)
+            return True
+        preview = self.quick(item)
+        if preview is None:
+            return False
+        changed = self.original is None or bool(self._changed_fields(fields))
+        self._say("✓ all fields valid" + ("" if changed else " (nothing changed yet)"))
+        self._show_preview(preview)
+        return True
+
+    def _changed_fields(self, fields: dict[str, str]) -> list[str]:
+        return [k for k in fields if fields[k].strip() != self.start.get(k, "").strip()]
+
+    def _say(self, message) -> None:
+        """The one-line message under the fields; a layout only when its text wraps differently."""
+        w = self.query_one("#form-message", Static)
+        if str(w.content) != str(message):
+            w.update(message, layout=self._wraps(w, message))
+
+    def _show_preview(self, preview) -> None:
+        """Repaint the preview; lay the form out again only when its number of lines changes."""
+        w = self.query_one("#form-preview", Static)
+        old = str(w.content)
+        if old == str(preview):
+            return
+        w.update(preview, layout=self._wraps(w, preview) or self._wraps(w, old)
+                 or str(preview).count("\n") != old.count("\n"))
+
+    @staticmethod
+    def _wraps(w: Static, text) -> bool:
+        """Whether `text` may take more rows than its lines (or none): then the height may change."""
+        lines = str(text).split("\n")
+        width = w.content_region.width
+        return not str(text) or width <= 0 or any(len(line) >= width for line in lines)
 
     def _whole_edit(self, fields: dict[str, str], item: Item):
         """(result, preview) or the SteelyardError: no widgets touched, so it may run in a thread."""
@@ -169,7 +224,7 @@ class ItemForm(ModalScreen[FormResult | None]):
             check_loadouts(new, item)
         except SteelyardError as exc:
             return exc
-        changed = [k for k in fields if fields[k].strip() != self.start.get(k, "").strip()]
+        changed = self._changed_fields(fields)
         if self.original is None:
             summary = f"added {item.id}"
         elif not changed:
@@ -188,9 +243,8 @@ class ItemForm(ModalScreen[FormResult | None]):
             self._show_problem(outcome)
             return
         self.result, preview = outcome
-        self.query_one("#form-message", Static).update(
-            "✓ all fields valid" + ("" if self.result else " (nothing changed yet)"))
-        self.query_one("#form-preview", Static).update(preview)
+        self._say("✓ all fields valid" + ("" if self.result else " (nothing changed yet)"))
+        self._show_preview(preview)
 
     def _show_problem(self, exc: SteelyardError | None) -> None:
         """Mark the field to blame and say what is wrong, by the label the form shows; None clears."""
@@ -204,15 +258,26 @@ class ItemForm(ModalScreen[FormResult | None]):
         if target:
             target.first().add_class("bad")
         where = f"{self.labels.get(exc.field, exc.field)}: " if exc.field else ""
-        self.query_one("#form-message", Static).update(literal(f"✗ {where}{exc.message}", style="bold"))
-        self.query_one("#form-preview", Static).update("")
+        self._say(literal(f"✗ {where}{exc.message}", style="bold"))
+        self._show_preview("")
 
     @on(Input.Changed)
     def _changed(self, event: Input.Changed) -> None:
         if not event.input.id:
             return
         self.values[event.input.id[2:].replace("-", ".", 1)] = event.value  # inverse of fid()
-        self.check()
+        self._queue_check()
+
+    def _queue_check(self) -> None:
+        """Check once after the keys already queued: a burst of keys costs one check, not one per key."""
+        if not self._queued:
+            self._queued = True
+            self.call_later(self._queued_check)
+
+    def _queued_check(self) -> None:
+        self._queued = False
+        if self.is_attached and self.is_active:
+            self.check()
 
     @on(Select.Changed, "#f-kind")
     def _kind(self, event: Select.Changed) -> None:

@@ -11,6 +11,8 @@ input runs its own bindings as the key arrives, before the next key.
 from __future__ import annotations
 
 from textual import events
+from textual.geometry import Size
+from textual.widget import Widget
 from textual.widgets import Input
 
 
@@ -26,3 +28,15 @@ class OrderedInput(Input):
             await self.run_action(binding.action)
             return
         await super()._on_key(event)
+
+    def _watch_value(self, value: str) -> None:
+        """Input's own, without the screen layout its changed virtual width asks for on every key.
+
+        A field of fixed size (CSS) only changes its scroll range: the new
+        width is set quietly first, so Input's own assignment changes nothing
+        and lays nothing out (a layout of the whole form per keystroke was
+        most of a key's cost on the item form).
+        """
+        if not self.styles.auto_dimensions:
+            self.set_reactive(Widget.virtual_size, Size(self.content_width, 1))
+        super()._watch_value(value)
