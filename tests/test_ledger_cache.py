@@ -349,3 +349,21 @@ def test_cached_open_is_a_hit_or_none(parses, tmp_path):
     assert cached_open(tmp_path / "missing.toml") is None
     path.write_text(path.read_text() + "\n")
     assert cached_open(path) is None
+
+
+@pytest.mark.parametrize("name", SINGLE + ["quad-freighter/quad-freighter.toml"])
+def test_same_reading_tells_two_readings_apart_only_when_they_differ(name):
+    # What an editor's save checks after a cached open: two fresh reads of one file are the same
+    # reading; any changed item value or table is not (reference: the file read twice, uncached).
+    from dataclasses import replace
+
+    from steelyard.io.ledger.cache import same_reading
+
+    path = FIXTURES / name
+    a, b = open_ledger(path).ledger, open_ledger(path).ledger
+    assert same_reading(a, b)
+    if a.items:
+        items = list(b.items)
+        items[-1] = replace(items[-1], mass=items[-1].mass + 1e-9)
+        assert not same_reading(a, b.evolve(items=tuple(items)))
+    assert not same_reading(a, b.evolve(user={"note": "another"} if a.user != {"note": "another"} else None))

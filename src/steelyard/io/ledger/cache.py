@@ -272,3 +272,36 @@ def evict(folder: Path, *, max_entries: int | None = None, max_bytes: int | None
         total += size
         if i >= max_entries or total > max_bytes:
             _discard(p)
+
+
+def same_reading(a: Ledger, b: Ledger) -> bool:
+    """Whether two readings of one file mean the same: every table, every item and every column.
+
+    Placements are compared by what they record (id, file, hash, rows, placement), not by the
+    child ledgers they keep; cached derived values (names starting with "_") are left out."""
+    import dataclasses
+
+    import numpy as np
+
+    for f in dataclasses.fields(Ledger):
+        x, y = getattr(a, f.name), getattr(b, f.name)
+        if f.name == "placed":
+            if [_placed_key(q) for q in x] != [_placed_key(q) for q in y]:
+                return False
+        elif x != y:
+            return False
+    p, q = a.arrays, b.arrays
+    (pr, pv), (qr, qv) = p.own_sparse(), q.own_sparse()
+    return all(np.array_equal(u, v) for u, v in ((p.unit_mass, q.unit_mass), (p.quantity, q.quantity),
+                                                  (p.cg, q.cg), (p.variable, q.variable), (pr, qr), (pv, qv)))
+
+
+def _placed_key(q) -> tuple:
+    """What a placement record says, arrays as lists (a record compared whole would compare arrays)."""
+    import dataclasses
+
+    import numpy as np
+
+    said = tuple(v.tolist() if isinstance(v, np.ndarray) else v
+                 for v in (getattr(q.placement, f.name) for f in dataclasses.fields(q.placement)))
+    return (q.id, q.file, q.sha256, q.start, q.stop, q.depth, said)

@@ -18,7 +18,7 @@ import os
 import re
 import time
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Iterator
 
@@ -58,6 +58,8 @@ class LoadedLedger:
     read_at: float
     #: after a save over the file it read: why its own layout could not be kept ("" when it was)
     not_kept: str = ""
+    #: the ledger came from the read cache (io.ledger.cache): never written from before `confirmed_fresh`
+    from_cache: bool = False
 
 
 def read_bytes(path: str | os.PathLike) -> bytes:
@@ -144,7 +146,28 @@ def _from_cache(source: str, data: bytes, fast: bool) -> LoadedLedger | None:
     if hit is None:
         return None
     mark_loaded(source)
-    return LoadedLedger(hit.ledger, source, sha, hit.had_comments, time.time())
+    return LoadedLedger(hit.ledger, source, sha, hit.had_comments, time.time(), from_cache=True)
+
+
+def confirmed_fresh(loaded: LoadedLedger) -> LoadedLedger:
+    """The file a cached read came from, read afresh and seen to mean the same: what a write may start from.
+
+    The read cache is for looking; an editor that opened from it calls this before its first save
+    (a write never comes from the cache). Raises SteelyardError when the file changed since, or
+    when the fresh reading differs (a cache that lied: the save is refused, the edits stay in the journal).
+    """
+    if not loaded.from_cache:
+        return loaded
+    fresh = open_ledger(loaded.path, cache=False)
+    if fresh.sha256 != loaded.sha256:
+        raise SteelyardError("changed on disk since it was opened (from the read cache): reopen it to save; "
+                             "your edits are kept in the journal", file=loaded.path)
+    from steelyard.io.ledger.cache import same_reading
+
+    if not same_reading(loaded.ledger, fresh.ledger):
+        raise SteelyardError("the read cache gave another ledger than the file holds: not saved; reopen it with "
+                             "--no-cache (your edits are kept in the journal)", file=loaded.path)
+    return replace(fresh, read_at=loaded.read_at)
 
 
 def cached_open(path: str | os.PathLike, *, fast: bool = True) -> LoadedLedger | None:

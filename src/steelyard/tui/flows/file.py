@@ -44,12 +44,14 @@ LATE_GROUPS = 20_000
 
 
 def read_ledger(path: str, progress=None) -> LoadedLedger:
-    """Every ledger the editor opens for editing is read here (one place for a read cache to go).
+    """Every ledger the editor opens for editing is read here, through the read cache when it is on.
 
-    A cached read must never feed a write: if one is plugged in here, the
-    editor has to read the file fresh (in a worker) before its first save.
+    A cached read never feeds a write: the session reads the file afresh and
+    compares before its first save (Session.save, io.ledger.file.confirmed_fresh).
     """
-    return open_ledger(path, progress=progress)
+    from steelyard.io.ledger import cache
+
+    return open_ledger(path, progress=progress, cache=cache.enabled())
 
 
 class FileFlows:

@@ -23,7 +23,7 @@ from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Ledger
 from steelyard.core.physics.rollup import MassProperties
 import steelyard.io.durability.journal as J
-from steelyard.io.ledger.file import LoadedLedger, save_ledger
+from steelyard.io.ledger.file import LoadedLedger, confirmed_fresh, save_ledger
 from steelyard.io.durability.lock import Lock, LockInfo, Locked, LockUnavailable, acquire, is_stale, take_over, who_am_i
 from steelyard.tui.state.totals import Totals, compute_totals, effect_of
 
@@ -387,6 +387,13 @@ class Session:
             except LockUnavailable as exc:
                 raise SteelyardError(f"cannot save there: {exc.message}", file=target) from None
         ledger, log = snapshot if snapshot is not None else self.snapshot()
+        if self.loaded is not None and self.loaded.from_cache:  # a write never starts from the read cache
+            try:
+                self.loaded = confirmed_fresh(self.loaded)
+            except BaseException:
+                if new_lock is not None:
+                    new_lock.release()
+                raise
         try:
             record = save_ledger(target, ledger_with_log(ledger, log),
                                  loaded=self.loaded if same else None, overwrite_changed=overwrite_changed)
