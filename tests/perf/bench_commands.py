@@ -7,7 +7,9 @@ median of the pair-by-pair ratios:
 
 - `steelyard diff SNAP_A SNAP_B --json` / `steelyard rollup A --json` (goal <= 1.3)
 - `steelyard import A.csv -o OUT --force` / `steelyard rollup A --json` (goal <= 1.5)
+- `steelyard export A --csv OUT` and `--json OUT` / `steelyard rollup A --json` (goal <= 1.0)
 
+Every child runs with STEELYARD_NO_CACHE=1: commands are compared as a first open (no reopen cache).
 Times are the children's CPU time (user + sys), steadier than wall time on a shared machine.
 Not collected by pytest.
 
@@ -31,9 +33,12 @@ from bench_diff import perturb  # noqa: E402
 from make_ledger import ledger_text  # noqa: E402
 
 
+ENV = {**os.environ, "STEELYARD_NO_CACHE": "1"}
+
+
 def cpu(args: list[str]) -> float:
     before = os.times()
-    subprocess.run(args, check=False, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    subprocess.run(args, check=False, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=ENV)
     after = os.times()
     return (after.children_user - before.children_user) + (after.children_system - before.children_system)
 
@@ -52,11 +57,14 @@ def main(argv: list[str] | None = None) -> int:
         sa, sb, csv, out = (os.path.join(tmp, f) for f in ("sa.toml", "sb.toml", "a.csv", "out.toml"))
         for src, snap in ((a, sa), (b, sb)):
             subprocess.run(py + ["snapshot", src, "--loadout", "full", "-o", snap], check=True,
-                           stdout=subprocess.DEVNULL)
-        subprocess.run(py + ["export", a, "--csv", csv], check=True, stdout=subprocess.DEVNULL)
+                           stdout=subprocess.DEVNULL, env=ENV)
+        subprocess.run(py + ["export", a, "--csv", csv], check=True, stdout=subprocess.DEVNULL,
+                       stderr=subprocess.DEVNULL, env=ENV)
         rollup = py + ["rollup", a, "--json"]
         commands = {"diff of two snapshots": py + ["diff", sa, sb, "--json"],
-                    "csv import": py + ["import", csv, "-o", out, "--force"]}
+                    "csv import": py + ["import", csv, "-o", out, "--force"],
+                    "export --csv": py + ["export", a, "--csv", os.path.join(tmp, "x.csv")],
+                    "export --json": py + ["export", a, "--json", os.path.join(tmp, "x.json")]}
         ratios: dict[str, list[float]] = {k: [] for k in commands}
         base: list[float] = []
         cpu(rollup)  # warm-up (file cache, bytecode)

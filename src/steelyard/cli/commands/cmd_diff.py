@@ -109,7 +109,7 @@ def split_side(spec: str, explicit: str | None, option: str, files: _Files) -> t
 
 def load_side(spec: str, explicit: str | None, option: str, files: _Files, allow_mismatch: bool) -> Side:
     from steelyard.core.errors import SteelyardError
-    from steelyard.io.ledger.snapshot import SnapshotMismatch, snapshot_info, verify_snapshot
+    from steelyard.io.ledger.snapshot import SnapshotMismatch, snapshot_info, verify_loaded
     from steelyard.cli.loading import check_loadout
 
     path, loadout = split_side(spec, explicit, option, files)
@@ -120,7 +120,7 @@ def load_side(spec: str, explicit: str | None, option: str, files: _Files, allow
             raise SteelyardError("is a snapshot: one configuration already, it has no loadouts", file=path,
                                  field="loadout")
         try:
-            verify_snapshot(loaded.ledger, file=path)
+            verify_loaded(loaded, file=path)
         except SnapshotMismatch as exc:
             if not allow_mismatch:
                 raise SnapshotMismatch(f"{exc.message} (--allow-mismatch compares it anyway)", file=exc.file,

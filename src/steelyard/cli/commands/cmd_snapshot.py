@@ -38,13 +38,13 @@ def _author() -> str:
 
 def _verify(args) -> int:
     from steelyard.core.errors import SteelyardError
-    from steelyard.io.ledger.snapshot import verify_snapshot
+    from steelyard.io.ledger.snapshot import verify_loaded
     from steelyard.cli.loading import load_for_cli
 
     if args.loadout or args.output or args.force:
         raise SteelyardError("takes only FILE (a snapshot is one configuration already)", field="--verify")
     loaded = load_for_cli(args.file)
-    info = verify_snapshot(loaded.ledger, file=loaded.path)
+    info = verify_loaded(loaded)
     what = f"loadout {info.loadout!r}" if info.loadout else "no loadout"
     from steelyard.cli.render.diff import safe
 
@@ -59,12 +59,12 @@ def _verify(args) -> int:
 
 def _text(args):
     """(loaded, snapshot text) of FILE under --loadout; an altered snapshot is never re-issued."""
-    from steelyard.io.ledger.snapshot import snapshot_info, snapshot_text, verify_snapshot
+    from steelyard.io.ledger.snapshot import snapshot_info, snapshot_text, verify_loaded
     from steelyard.cli.loading import check_loadout, load_for_cli, located
 
     loaded = load_for_cli(args.file, cache=False)  # a ledger (file or stdout) is made from it: read afresh
     if snapshot_info(loaded.ledger, file=loaded.path) is not None:
-        verify_snapshot(loaded.ledger, file=loaded.path)  # never re-issue an altered snapshot
+        verify_loaded(loaded)  # never re-issue an altered snapshot
     check_loadout(loaded, args.loadout)
     with located(loaded):
         return loaded, snapshot_text(loaded.ledger, args.loadout, source=loaded.path, author=_author(),

@@ -36,7 +36,7 @@ from steelyard.core.history.diff_tables import (DefinitionChanges, TableChanges,
 from steelyard.core.history.diff_text import change_rows
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.loading.loadout import fill_fractions, state_from_fill
-from steelyard.core.document.model import Ledger, more_keys
+from steelyard.core.document.model import ITEM_MORE, Ledger
 from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
 from steelyard.core.limits.status import EnvelopeResult, envelope_results
 
@@ -105,6 +105,25 @@ def _pick(xs: list, rows: list[int]) -> list:
     return list(got) if len(rows) > 1 else [got]
 
 
+def _given(items, key: str, *, falsy: bool = False) -> np.ndarray:
+    """Per item: the field is not None (`falsy`: is truthy), one C pass over the attribute."""
+    vals = list(map(operator.attrgetter(key), items))
+    if falsy:
+        return np.fromiter(map(bool, vals), bool, len(vals))
+    return np.fromiter(map(operator.is_not, vals, repeat(None)), bool, len(vals))
+
+
+def _item_extras(items) -> list[dict[str, object]]:
+    """`more_keys(item)` of every item, built key by key (most items give none)."""
+    extras: list[dict[str, object]] = [{} for _ in range(len(items))]
+    for k in ITEM_MORE:
+        vals = list(map(operator.attrgetter(k), items))
+        for i, v in enumerate(vals):
+            if v is not None and v is not False:
+                extras[i][k] = v
+    return extras
+
+
 def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     """One side as carried under `loadout` (None: load items empty; a snapshot has none)."""
     items = ledger.items
@@ -114,7 +133,7 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     state = state_from_fill(ledger, fill, loadout)
     variable = a.variable.copy()
     capacity = np.where(variable, a.unit_mass * a.quantity, np.nan)
-    extras: list[Mapping[str, object]] = list(map(more_keys, items))
+    extras = _item_extras(items)
     if is_snapshot(ledger):
         for i in [i for i, ex in enumerate(extras) if LOADED_KEY in ex]:
             capacity[i], _ = _loaded_marker(items[i].id, extras[i][LOADED_KEY])
@@ -131,7 +150,7 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
         density[np.array(rows)] = [items[i].density for i in rows]
     ids = list(map(operator.attrgetter("id"), items))
     labels = [name or i for name, i in zip(map(operator.attrgetter("name"), items), ids)]
-    geometry = np.fromiter((it.shape is not None or bool(it.rotate) for it in items), bool, n)
+    geometry = _given(items, "shape") | _given(items, "rotate", falsy=True)
     has_extra = np.fromiter(map(bool, extras), bool, n)
     mp = rollup_state(state)
     check_finite_rollup(mp, items)  # a side beyond a float is refused naming the item, before any arithmetic

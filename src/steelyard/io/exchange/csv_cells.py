@@ -104,7 +104,7 @@ def number_column(si: np.ndarray, factor: float, decimal_comma: bool = False) ->
     digits multiply back exactly) in one pass; the rest one by one."""
     si = np.asarray(si, dtype=float)
     v = si / factor + 0.0
-    texts = [f"{x:.12g}" for x in v.tolist()]
+    texts = (("%.12g\n" * len(v)) % tuple(v.tolist())).split("\n")[:-1]  # one C call: f"{x:.12g}" each
     back = np.fromiter(map(float, texts), float, len(texts))
     for i in np.flatnonzero(back * factor != si).tolist():
         texts[i] = number_text(float(si[i]), factor)

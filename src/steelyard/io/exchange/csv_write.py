@@ -7,7 +7,9 @@ at all (NUL: import refuses the file) stops the export with the item and field.
 
 from __future__ import annotations
 
+import operator
 import re
+from itertools import repeat
 
 import numpy as np
 
@@ -45,7 +47,13 @@ _LEADS = frozenset("'=+-@\t\r")  # a first character that may need `protect`
 
 
 def _cells(values: list[str], sep: str) -> list[str]:
-    """`quoted(protect(v))` of every text of a column, skipping the work where a look at the ends says so."""
+    """`quoted(protect(v))` of every text of a column: the column as it is when a look at all of it
+    (what it holds, how its cells start and end) finds nothing to protect or quote, else cell by cell."""
+    joined = "".join(values)
+    if not (sep in joined or '"' in joined or "\n" in joined or "\r" in joined):
+        ends = "".join({v[:1] for v in values}) + "".join({v[-1:] for v in values})
+        if not (_LEADS.intersection(ends) or any(map(str.isspace, ends))):
+            return values  # nothing in the column to protect or quote
     needs_quotes = re.compile(rf'[{re.escape(sep)}"\n\r]|\A\s|\s\Z').search  # csv_cells._needs_quotes
     out = []
     for v in values:
@@ -55,13 +63,15 @@ def _cells(values: list[str], sep: str) -> list[str]:
     return out
 
 
-def _text_columns(items, sep: str) -> list[list[str]] | None:
-    """The id, name and group cells of every item; None when one holds a NUL (the row-by-row
-    path then names the first, as it meets it)."""
-    columns = [["" if v is None else str(v) for v in (getattr(it, key) for it in items)]
+def _text_columns(items, sep: str) -> list[list[str]]:
+    """The id, name and group cells of every item. A NUL stops the export naming the first item
+    that holds one, and the field, as the rows meet them."""
+    columns = [["" if v is None else str(v) for v in map(operator.attrgetter(key), items)]
                for key in ("id", "name", "group")]
     if any("\x00" in "".join(c) for c in columns):
-        return None
+        for it in items:
+            for key in ("id", "name", "group"):
+                _text(getattr(it, key), it.id, key)
     return [_cells(c, sep) for c in columns]
 
 
@@ -76,12 +86,13 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
     extras = [item_more(it) for it in items]
     u = _units(ledger, system)
     keys = ["id", "name", "group", "mass", "x", "y", "z", "quantity", "variable", *COMPONENTS]
-    if any(it.density is not None for it in items):
+    if any(map(operator.is_not, map(operator.attrgetter("density"), items), repeat(None))):
         keys.append("density")
-    keys += [k for k in ("maturity", "growth") if any(k in e for e in extras)]
-    if any("tolerance" in e for e in extras):
+    given = [e for e in extras if e]  # most items have no key beyond v1
+    keys += [k for k in ("maturity", "growth") if any(k in e for e in given)]
+    if any("tolerance" in e for e in given):
         keys += list(TOL_COLUMNS)
-    if any(set(e) - set(CONTROL_KEYS) for e in extras):
+    if any(set(e) - set(CONTROL_KEYS) for e in given):
         keys.append("other")
     header = [f"{k} [{u[COLUMNS[k]]}]" if COLUMNS[k] else k for k in keys]
     f = {k: unit_factor(u[COLUMNS[k]], COLUMNS[k]) for k in keys if COLUMNS[k]}
@@ -96,8 +107,7 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
     a = ledger.arrays
     numbers = [number_column(a.unit_mass, f["mass"], decimal_comma),
                *(number_column(a.cg[:, k], f[c], decimal_comma) for k, c in enumerate("xyz"))]
-    own_rows = np.flatnonzero(np.fromiter((it.inertia is not None or it.shape is not None for it in items),
-                                          bool, n))
+    own_rows = np.flatnonzero(np.fromiter(map(_has_own, items), bool, n))
     for j, c in enumerate(COMPONENTS):
         column = [""] * n
         for r, text in zip(own_rows.tolist(), number_column(six[own_rows, j], f[c], decimal_comma)):
@@ -106,16 +116,11 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
     tail = keys[len(COMPONENTS) + 9:]  # density, maturity, growth, tolerance, other: as each item has them
 
     texts = _text_columns(items, sep)
-
-    out = [row_text(header, sep)]
-    for i, it in enumerate(items):
-        row = [*((quoted(_text(it.id, it.id, "id"), sep), quoted(_text(it.name, it.id, "name"), sep),
-                  quoted(_text(it.group, it.id, "group"), sep)) if texts is None else
-                 (texts[0][i], texts[1][i], texts[2][i])),
-               numbers[0][i], numbers[1][i], numbers[2][i],
-               numbers[3][i], str(it.quantity), "true" if it.variable else "false",
-               *(col[i] for col in numbers[4:])]
-        if tail:
+    columns = [*texts, *numbers[:4], list(map(str, map(operator.attrgetter("quantity"), items))),
+               ["true" if v else "false" for v in map(operator.attrgetter("variable"), items)], *numbers[4:]]
+    rows = list(map(sep.join, zip(*columns)))
+    if tail:
+        for i, it in enumerate(items):
             e = extras[i]
             cells = {}
             if "density" in keys:
@@ -129,6 +134,9 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
                     cells[k] = num(k, c)
             rest = {k: v for k, v in e.items() if k not in CONTROL_KEYS}
             cells["other"] = toml_value(rest) if rest else ""
-            row += [quoted(cells.get(k, ""), sep) for k in tail]
-        out.append(sep.join(row) + "\n")
-    return "".join(out)
+            rows[i] += sep + sep.join([quoted(cells.get(k, ""), sep) for k in tail])
+    return row_text(header, sep) + ("\n".join(rows) + "\n" if rows else "")
+
+
+def _has_own(it) -> bool:
+    return it.inertia is not None or it.shape is not None

@@ -10,12 +10,13 @@ and uncertainty figures come from the same function as the terminal tables.
 from __future__ import annotations
 
 import math
+from operator import attrgetter
 
 import numpy as np
 
 from steelyard.core.control.growth import growth_fractions
 from steelyard.core.loading.loadout import resolve
-from steelyard.core.document.model import more_keys, Ledger
+from steelyard.core.document.model import ITEM_MORE, Ledger, more_keys
 from steelyard.io.report.control import tolerance_si
 from steelyard.io.report.control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth
 from steelyard.io.exchange.rollup_json import rollup_record
@@ -33,6 +34,11 @@ def _num(x) -> float | None:
     return x if math.isfinite(x) else None
 
 
+_MORE = attrgetter(*ITEM_MORE)
+#: what an item without any key beyond v1 holds in them (`removable` may be False or None)
+_NONE = (tuple(None for _ in ITEM_MORE), tuple(False if k == "removable" else None for k in ITEM_MORE))
+
+
 def items_record(ledger: Ledger) -> list[dict]:
     a = ledger.arrays
     own = a.own.tolist()
@@ -44,7 +50,7 @@ def items_record(ledger: Ledger) -> list[dict]:
                "quantity": it.quantity, "cg_m": cg[i], "variable": it.variable,
                "inertia_kg_m2": own[i] if (it.inertia is not None or it.shape is not None) else None,
                "density_kg_m3": it.density}
-        extra = more_keys(it)
+        extra = {} if _MORE(it) in _NONE else more_keys(it)  # most items: one comparison
         if "maturity" in extra:
             row["maturity"] = extra["maturity"]
         if "maturity" in extra or "growth" in extra:

@@ -228,12 +228,15 @@ def snapshot_info(ledger: Ledger, *, file: str | None = None) -> SnapshotInfo | 
                         str(t.get("steelyard_version", "")), _get(t, "content_sha256", (str,), file))
 
 
-def verify_snapshot(ledger: Ledger, *, file: str | None = None) -> SnapshotInfo:
-    """Recompute the hash and the totals; raise SnapshotMismatch naming what disagrees."""
+def verify_snapshot(ledger: Ledger, *, file: str | None = None, written_sha256: str | None = None) -> SnapshotInfo:
+    """Recompute the hash and the totals; raise SnapshotMismatch naming what disagrees.
+
+    `written_sha256`: the hash of the file's content bytes as they stand (`snapshot_bytes`); when it
+    is the stored one the canonical text need not be regenerated (the file is as the writer wrote it)."""
     info = snapshot_info(ledger, file=file)
     if info is None:
         raise _fail("not a snapshot (no [snapshot] table)", file, SNAPSHOT_TABLE)
-    now = content_hash(ledger)
+    now = written_sha256 if written_sha256 == info.content_sha256 else content_hash(ledger)
     if now != info.content_sha256:
         raise _fail(f"content does not match its hash (stored {info.content_sha256[:12]}…, now {now[:12]}…): "
                     "the items, frame or envelopes were edited after the snapshot was taken",
@@ -261,6 +264,14 @@ def verify_snapshot(ledger: Ledger, *, file: str | None = None) -> SnapshotInfo:
             raise _fail(f"stored status {said} but the totals give {'inside' if r.inside else 'outside'}: {why}",
                         file, f"envelopes.{r.name}", SnapshotMismatch)
     return info
+
+
+def verify_loaded(loaded, *, file: str | None = None) -> SnapshotInfo:
+    """`verify_snapshot` of an opened file (io.ledger.file.LoadedLedger), hashing its own bytes first."""
+    from steelyard.io.ledger.snapshot_bytes import written_content_sha256
+
+    return verify_snapshot(loaded.ledger, file=file if file is not None else loaded.path,
+                           written_sha256=written_content_sha256(loaded))
 
 
 def _show(v) -> str:

@@ -199,12 +199,13 @@ def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True) -> str:
     """
     ledger = document_of(ledger)
     u = ledger.units
-    blocks: list[list[str]] = [["steelyard = 1"], table_lines("units", units_fields(u)),
-                               table_lines("frame", frame_fields(ledger.frame))]
-    blocks.extend(item_lines(it, u) for it in ledger.items)
-    blocks.extend(loadout_lines(lo) for lo in ledger.loadouts)
-    blocks.extend(envelope_lines(env, u) for env in ledger.envelopes)
-    return "\n\n".join("\n".join(b) for b in blocks) + "\n" + other_text(ledger, snapshot=snapshot)
+    from steelyard.io.ledger.write_items import items_text
+
+    blocks = ["steelyard = 1", "\n".join(table_lines("units", units_fields(u))),
+              "\n".join(table_lines("frame", frame_fields(ledger.frame))), *items_text(ledger.items, u)]
+    blocks.extend("\n".join(loadout_lines(lo)) for lo in ledger.loadouts)
+    blocks.extend("\n".join(envelope_lines(env, u)) for env in ledger.envelopes)
+    return "\n\n".join(blocks) + "\n" + other_text(ledger, snapshot=snapshot)
 
 
 def other_text(ledger: Ledger, *, snapshot: bool = True) -> str:

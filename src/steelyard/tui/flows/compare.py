@@ -5,7 +5,7 @@ ledger as last saved, or another file or snapshot); B is this ledger now
 under the active loadout, so every Δ reads "what changed since A". Files
 are read and compared in worker threads (`core.diff.compare` is one numpy
 pass, but reading a big file is not); a snapshot is checked on the way
-(`io.snapshot.verify_snapshot`) and a failed check is shown on the screen,
+(`io.snapshot.verify_loaded`) and a failed check is shown on the screen,
 not hidden, while the comparison still runs.
 """
 
@@ -19,7 +19,7 @@ from textual import work
 from steelyard.core.history.diff import compare
 from steelyard.core.errors import SteelyardError
 from steelyard.io.ledger.file import open_ledger
-from steelyard.io.ledger.snapshot import snapshot_info, verify_snapshot
+from steelyard.io.ledger.snapshot import snapshot_info, verify_loaded
 from steelyard.tui.screens.choice_screen import ChoiceScreen
 from steelyard.tui.screens.compare_screen import CompareScreen
 from steelyard.tui.state.compare_text import Side
@@ -43,7 +43,7 @@ def load_other(path: str) -> tuple[object, str, bool]:
     note = (f"snapshot taken {info.taken} by {info.author or 'unknown'} from {info.source or '?'}, "
             f"{_loadout_words(info.loadout)}")
     try:
-        verify_snapshot(loaded.ledger, file=path)
+        verify_loaded(loaded, file=path)
         note += "; its hash and totals check out"
     except SteelyardError as exc:  # SnapshotMismatch, or a damaged [snapshot] table
         note += f"; CHECK FAILED: {exc.message} (compared anyway)"
