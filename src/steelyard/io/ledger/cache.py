@@ -193,7 +193,8 @@ def lookup(source: str, data: bytes, *, fast: bool = True, sha256: str | None = 
         if collecting:
             gc.enable()
     try:
-        os.utime(path)  # recently used: evicted last
+        if time.time() - path.stat().st_mtime > 600:  # recently used: evicted last (a touch per ten minutes is enough)
+            os.utime(path)
     except OSError:
         pass
     return Hit(ledger, bool(header.get("had_comments")))
