@@ -83,7 +83,9 @@ def test_killed_mid_edit_then_reopened_offers_and_restores_the_edit(tmp_path, si
     screen = tmux.wait_for("second", "5.250")
     assert "* ledger.toml" in screen  # restored edits are unsaved work
     tmux.keys("second", "C-s")
-    tmux.wait_for("second", "saved ")
+    tmux.wait_for("second", "reason for the change")  # the save asks why (optional): Enter skips
+    tmux.keys("second", "Enter")
+    tmux.wait_for("second", "ledger.toml — steelyard")  # saved: the title's marker is gone
     tmux.keys("second", "C-q")
     _gone(pid)
     data = tomllib.loads(path.read_text())
