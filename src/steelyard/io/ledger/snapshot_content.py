@@ -16,7 +16,8 @@ from __future__ import annotations
 
 from steelyard.core.document.model import FileUnits, Item, Ledger
 from steelyard.core.units import unit_factor
-from steelyard.io.ledger.toml_write import _NEEDS_ESCAPE, number, string, value
+from steelyard.io.ledger.toml_write import number, value
+from steelyard.io.ledger.write_items import item_head
 from steelyard.io.ledger.write import (envelope_lines, frame_fields, item_lines, ledger_to_toml, loadout_lines,
                                        other_text, table_lines, units_fields)
 
@@ -41,14 +42,7 @@ def _plain(it: Item) -> bool:
 
 def _item_text(it: Item) -> str:
     """`"\\n".join(item_lines(it, u))` of a plain item in SI units (same keys, same order)."""
-    s = it.id
-    text = f'[[item]]\nid = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"[[item]]\nid = {string(s)}"
-    s = it.name
-    if s:
-        text += f'\nname = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"\nname = {string(s)}"
-    s = it.group
-    if s:
-        text += f'\ngroup = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"\ngroup = {string(s)}"
+    text = item_head(it)
     m = it.mass
     x, y, z = it.cg
     if type(m) is float and type(x) is float and type(y) is float and type(z) is float:

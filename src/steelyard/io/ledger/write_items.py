@@ -47,6 +47,19 @@ def _templated(it: Item) -> bool:
     return not (it.given_units or it.shape is not None or it.rotate or it.density is not None)
 
 
+def item_head(it: Item) -> str:
+    """An item's header line and its id, name and group lines, as `item_lines` writes them."""
+    s = it.id
+    text = f'[[item]]\nid = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"[[item]]\nid = {string(s)}"
+    s = it.name
+    if s:
+        text += f'\nname = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"\nname = {string(s)}"
+    s = it.group
+    if s:
+        text += f'\ngroup = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"\ngroup = {string(s)}"
+    return text
+
+
 def items_text(items, u: FileUnits) -> list[str]:
     """`"\\n".join(item_lines(it, u))` of every item."""
     from steelyard.io.ledger.write import item_lines
@@ -65,14 +78,7 @@ def items_text(items, u: FileUnits) -> list[str]:
         if not _templated(it):
             out.append("\n".join(item_lines(it, u)))
             continue
-        s = it.id
-        text = f'[[item]]\nid = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"[[item]]\nid = {string(s)}"
-        s = it.name
-        if s:
-            text += f'\nname = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"\nname = {string(s)}"
-        s = it.group
-        if s:
-            text += f'\ngroup = "{s}"' if _NEEDS_ESCAPE.search(s) is None else f"\ngroup = {string(s)}"
+        text = item_head(it)
         text += f"\nmass = {mass[j]}\ncg = [{cgs[0][j]}, {cgs[1][j]}, {cgs[2][j]}]"
         j += 1
         if it.quantity != 1:
