@@ -206,6 +206,10 @@ class CachedLedger(Ledger):
 
     __hash__ = Ledger.__hash__
 
+    def __repr__(self) -> str:  # the class name is read before the fields: make the items first
+        self._made_items()
+        return repr(self)
+
     def __reduce_ex__(self, protocol):  # copies and pickles are of the plain Ledger
         self._made_items()
         return self.__reduce_ex__(protocol)
