@@ -30,7 +30,7 @@ class _Ctx:
         self.k = AXIS_INDEX[self.axis]
         self.fill = fill_fractions(ledger, args.loadout)
         self.mp = rollup_state(state_from_fill(ledger, self.fill, args.loadout))
-        check_finite_rollup(self.mp, ledger.items)  # no answer from a roll-up beyond a float
+        check_finite_rollup(self.mp, ledger)  # no answer from a roll-up beyond a float
         if not self.mp.mass > 0:
             raise SteelyardError("the loadout has no mass", field="--loadout")
         self.condition = loadout_condition(ledger, args.loadout)
@@ -203,7 +203,7 @@ def _payload(c: _Ctx) -> tuple[dict, list[str]]:
     zf = zero_fuel_fill(c.ledger, c.fill)
     if zf is not None and row not in set(fuel_rows(c.ledger).tolist()):
         mz = rollup_state(state_from_fill(c.ledger, zf))
-        check_finite_rollup(mz, c.ledger.items)
+        check_finite_rollup(mz, c.ledger)
         tags = {("condition", "zero-fuel")} | ({("loadout", c.args.loadout)} if c.args.loadout else set())
         states.append((" at zero fuel", mz, tags))
     skipped = []

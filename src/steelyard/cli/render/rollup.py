@@ -32,7 +32,7 @@ def print_rollup(loaded, state, mp, system: str | None, out: Out | None = None) 
     ledger = loaded.ledger
     mac = mac_reference(ledger)  # read before printing: a bad [mac] is one error line, not half a report
     try:
-        check_finite_rollup(mp, ledger.items)  # figures beyond a float: one error line, not half a report
+        check_finite_rollup(mp, ledger)  # figures beyond a float: one error line, not half a report
     except SteelyardError as exc:
         raise exc.located(file=loaded.path)
     du = DisplayUnits.choose(ledger.units, system)

@@ -113,7 +113,7 @@ def figures(ledger: Ledger, loadout: str | None = None, group: str = "") -> Figu
     else:
         rows = slice(None)
         mp = rollup_state(state)
-        check_finite_rollup(mp, ledger.items)
+        check_finite_rollup(mp, ledger)
         mass, cg = mp.mass, mp.cg
     mass = _finite(mass, "mass")
     grows = has_growth(ledger)

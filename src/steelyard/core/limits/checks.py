@@ -215,13 +215,13 @@ def _loadout_states(ledger: Ledger, names: list[str | None]) -> list[_State]:
         label = name if name is not None else "(no loadout)"
         state = state_from_fill(ledger, fill, name)
         mp = rollup_state(state)
-        check_finite_rollup(mp, ledger.items)
+        check_finite_rollup(mp, ledger)
         cond, tags = _tags(ledger, name, cond)
         out.append(_State(label, name, "loadout", cond, tags, mp.mass, mp.cg, mp.inertia_cg, state.mass))
         zf = zero_fuel_fill(ledger, fill)
         if zf is not None:
             mz = rollup_state(state_from_fill(ledger, zf, name))
-            check_finite_rollup(mz, ledger.items)
+            check_finite_rollup(mz, ledger)
             ztags = frozenset([("condition", "zero-fuel")] + ([("loadout", name)] if name is not None else []))
             out.append(_State(f"{label} (zero fuel)", name, "zero-fuel", "zero-fuel", ztags, mz.mass, mz.cg,
                               mz.inertia_cg))
@@ -384,7 +384,7 @@ def check_rollup(ledger: Ledger, name: str | None, mp) -> StateCheck:
         cond = loadout_condition(ledger, name)
     except SteelyardError as exc:
         raise exc.located(subject=None if name is None else f"loadout {said(name)}")
-    check_finite_rollup(mp, ledger.items)
+    check_finite_rollup(mp, ledger)
     cond, tags = _tags(ledger, name, cond)
     label = name if name is not None else "(no loadout)"
     state = _State(label, name, "loadout", cond, tags, mp.mass, mp.cg, mp.inertia_cg)

@@ -94,7 +94,7 @@ def envelope_results(ledger: Ledger, mp: MassProperties) -> list[EnvelopeResult]
     the item and field to blame, so whatever shows envelope status (roll-up,
     report, snapshot, diff) stops with one line instead of printing inf.
     """
-    check_finite_rollup(mp, ledger.items)
+    check_finite_rollup(mp, ledger)
     return [envelope_result(env, mp, ledger) for env in ledger.envelopes]
 
 

@@ -15,7 +15,6 @@ that dominates; `check_finite_rollup` turns it into a located SteelyardError.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from functools import cached_property
 
@@ -59,16 +58,22 @@ class MassProperties:
         return radii_of_gyration(self.inertia_cg, self.mass)
 
 
-def check_finite_rollup(mp: MassProperties, items: Sequence) -> None:
+def check_finite_rollup(mp: MassProperties, items) -> None:
     """Refuse a roll-up whose totals, first moments or tensors are beyond a float.
 
     `items` are the rows' items (or their ids), in the order the roll-up was
-    given them. The error names the item whose term dominates and its field,
-    so nothing downstream prints `inf` or asks numpy for the axes of it.
+    given them, or the ledger whose rows they are (its items are then read
+    only to name one: a cache hit makes its Items only when asked). The error
+    names the item whose term dominates and its field, so nothing downstream
+    prints `inf` or asks numpy for the axes of it.
     """
     o = mp.overflow
     if o is None:
         return
+    from steelyard.core.document.model import Ledger  # here: only a refusal needs it
+
+    if isinstance(items, Ledger):
+        items = items.items
     item = items[o.row] if 0 <= o.row < len(items) else o.row
     raise SteelyardError(o.message, subject=item_subject(getattr(item, "id", item)), field=o.field)
 

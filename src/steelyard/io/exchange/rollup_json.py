@@ -44,7 +44,7 @@ def record_from(ledger: Ledger, mp: MassProperties, loadout: str | None, state: 
 
     `state` is the loaded state `mp` rolls up (made again when not given and the ledger has assemblies).
     """
-    check_finite_rollup(mp, ledger.items)
+    check_finite_rollup(mp, ledger)
     zero = mp.mass <= 0
     moments, axes = (None, None) if zero else mp.principal
     mac = mac_reference(ledger)

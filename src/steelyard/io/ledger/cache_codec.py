@@ -1,8 +1,11 @@
 """A loaded ledger as bytes and back, for the read cache (io.ledger.cache).
 
 Pickle, but with two changes. Items are stored by column (one list per
-field) and rebuilt by a generated loop: unpickling 100,000 item objects one
-by one costs a quarter of parsing the file, the columns a small part of it.
+field): unpickling 100,000 item objects one by one costs a quarter of parsing
+the file, the columns a small part of it. A hit is a `CachedLedger` whose
+Items are made from the columns only when something reads `ledger.items`
+(a roll-up reads only the numpy columns); the columns are checked whole when
+the entry is loaded, so damage is a miss there, never an error later.
 And the reading side is a restricted unpickler: it builds only steelyard's
 own core classes, numpy arrays and a few plain stdlib value types, so a
 cache file someone else wrote can never run code (it is also checked by
@@ -12,8 +15,10 @@ sha256 before it is unpickled; this is the second line).
 from __future__ import annotations
 
 import dataclasses
+import gc
 import io
 import pickle
+import threading
 from collections import deque
 from itertools import chain, repeat
 from operator import attrgetter, is_
@@ -87,33 +92,127 @@ def _encode(values: list) -> tuple:
     return ("list", values)
 
 
-def _decode(column: tuple, n: int) -> tuple[bool, object]:
-    """(same?, value or list of n values) of an `_encode`d column; ValueError on anything else."""
+def _checked(column: object, n: int) -> tuple:
+    """An `_encode`d column of n values, checked whole and cheaply (lengths, kinds, positions) without
+    turning it back into values: ("same", v), ("list", values), ("text", joined) or ("floats", k, gaps,
+    array). After this check `_expand` cannot fail. ValueError on anything else."""
+    if type(column) is not tuple or not column:
+        raise ValueError("damaged item column")
     kind = column[0]
     if kind == "same" and len(column) == 2:
-        return True, column[1]
+        return column
     if kind == "list" and len(column) == 2 and type(column[1]) is list and len(column[1]) == n:
-        return False, column[1]
-    if kind == "text" and len(column) == 3 and column[1] == n and type(column[2]) is str:
-        values = column[2].split("\0")
-        if len(values) == n:
-            return False, values
+        return column
+    if kind == "text" and len(column) == 3 and column[1] == n and type(column[2]) is str and n > 0:
+        if column[2].count("\0") == n - 1:  # a scan in C: the split then gives exactly n values
+            return ("text", column[2])
     if kind == "floats" and len(column) == 5 and column[1] == n and type(column[4]) is np.ndarray:
         _, _, k, nones, array = column
-        if array.dtype == np.float64 and array.shape == (n - len(nones), k) and type(nones) is list:
-            rows = list(zip(*array.T.tolist())) if len(array) else []
-            if nones:
-                gaps = np.asarray(nones, dtype=np.int64)
-                if gaps.min() < 0 or gaps.max() >= n:
-                    raise ValueError("damaged item column")
-                present = np.ones(n, dtype=bool)
-                present[gaps] = False
-                out = [None] * n
-                deque(map(out.__setitem__, np.flatnonzero(present).tolist(), rows), maxlen=0)  # a loop in C
-                rows = out
-            if len(rows) == n:
-                return False, rows
+        if (type(nones) is list and type(k) is int and array.dtype == np.float64
+                and array.shape == (n - len(nones), k)):
+            if not nones:
+                return ("floats", k, None, array)
+            gaps = np.asarray(nones)
+            if (gaps.dtype.kind == "i" and gaps.ndim == 1 and gaps[0] >= 0 and gaps[-1] < n
+                    and bool(np.all(gaps[1:] > gaps[:-1]))):  # distinct rows, in range
+                return ("floats", k, gaps, array)
     raise ValueError("damaged item column")
+
+
+def _expand(plan: tuple, n: int) -> tuple[bool, object]:
+    """(same?, value or list of n values) of a column `_checked` passed."""
+    kind = plan[0]
+    if kind == "same":
+        return True, plan[1]
+    if kind == "list":
+        return False, plan[1]
+    if kind == "text":
+        return False, plan[1].split("\0")
+    _, k, gaps, array = plan
+    rows = list(zip(*array.T.tolist())) if len(array) else []
+    if gaps is None:
+        return False, rows
+    present = np.ones(n, dtype=bool)
+    present[gaps] = False
+    out = [None] * n
+    deque(map(out.__setitem__, np.flatnonzero(present).tolist(), rows), maxlen=0)  # a loop in C
+    return False, out
+
+
+def _decode(column: tuple, n: int) -> tuple[bool, object]:
+    """(same?, value or list of n values) of an `_encode`d column; ValueError on anything else."""
+    return _expand(_checked(column, n), n)
+
+
+def _make_items(n: int, names: tuple[str, ...], plans: list) -> tuple[Item, ...]:
+    decoded = [_expand(p, n) for p in plans]
+    return tuple(items_from_columns(n, {k: v for k, (s, v) in zip(names, decoded) if not s},
+                                    **{k: v for k, (s, v) in zip(names, decoded) if s}))
+
+
+_PENDING = "_cached_item_columns"  # CachedLedger: (n, names, checked columns) until the items are made
+_BUILD = threading.Lock()
+
+
+class _LazyItems:
+    """`CachedLedger.items` until made: a non-data descriptor, so once the tuple is in the instance's
+    `__dict__` (as on any Ledger) reading it costs no call."""
+
+    def __get__(self, ledger, owner=None):
+        if ledger is None:
+            return ()
+        return ledger._made_items()
+
+
+class CachedLedger(Ledger):
+    """A ledger from a cache hit whose Items are made on first use (a roll-up reads only the columns).
+
+    Everything else (tables, arrays, index) is as a fresh read left it. Making the items turns the
+    object into a plain `Ledger` (same layout, `__class__` swapped), so equality, `replace`, pickling
+    and `type(...) is Ledger` then behave as for any ledger; anything that makes a new ledger from
+    this one (`replace`, `evolve`) makes a plain `Ledger`. Making is idempotent and locked: the editor
+    may ask from two threads.
+    """
+
+    items = _LazyItems()
+
+    def __init__(self, *args, **kwargs):  # what dataclasses.replace calls: the result is a plain Ledger
+        Ledger.__init__(self, *args, **kwargs)
+        object.__setattr__(self, "__class__", Ledger)
+
+    def _made_items(self) -> tuple[Item, ...]:
+        d = self.__dict__
+        with _BUILD:
+            items = d.get("items")
+            if items is None:
+                n, names, plans = d[_PENDING]
+                collecting = gc.isenabled()
+                gc.disable()  # 100,000 new objects, no cycles: a collection pass would be pure cost
+                try:
+                    items = _make_items(n, names, plans)
+                finally:
+                    if collecting:
+                        gc.enable()
+                d["items"] = items
+                object.__setattr__(self, "__class__", Ledger)
+                del d[_PENDING]
+        return items
+
+    def __eq__(self, other):
+        self._made_items()
+        if isinstance(other, CachedLedger):
+            other._made_items()
+        return self == other
+
+    __hash__ = Ledger.__hash__
+
+    def __repr__(self) -> str:  # the class name is read before the fields: make the items first
+        self._made_items()
+        return repr(self)
+
+    def __reduce_ex__(self, protocol):  # copies and pickles are of the plain Ledger
+        self._made_items()
+        return self.__reduce_ex__(protocol)
 
 
 def dumps(ledger: Ledger) -> bytes | None:
@@ -145,14 +244,15 @@ def loads(data: bytes, start: int = 0) -> Ledger:
             or len(columns) != len(names) or type(state) is not dict
             or not all(type(c) is tuple and c for c in columns)):
         raise ValueError("not a ledger cache payload")
-    decoded = [_decode(c, n) for c in columns]
-    items = tuple(items_from_columns(n, {k: v for k, (s, v) in zip(names, decoded) if not s},
-                                     **{k: v for k, (s, v) in zip(names, decoded) if s}))
-    if len(items) != n:
-        raise ValueError("damaged item columns")
-    ledger = object.__new__(Ledger)
+    plans = [_checked(c, n) for c in columns]  # damage shows here, as a miss, never when items are made
+    ledger = object.__new__(CachedLedger)
     ledger.__dict__.update(state)
-    ledger.__dict__["items"] = items
+    ledger.__dict__.pop("items", None)
     if "index" in state and state["index"] is None:
-        ledger.__dict__["index"] = dict(zip(map(attrgetter("id"), items), range(n)))
+        at = names.index("id")
+        same, ids = _expand(plans[at], n)
+        ids = [ids] * n if same else ids
+        ledger.__dict__["index"] = dict(zip(ids, range(n)))
+        plans[at] = ("list", ids)  # split once: the items take these strings
+    ledger.__dict__[_PENDING] = (n, names, plans)
     return ledger

@@ -223,7 +223,7 @@ def build_report(ledger: Ledger, *, source: str, loadouts: list[str | None], sys
     empty_state = resolve(ledger, None)
     empty = rollup_state(empty_state)
     try:
-        check_finite_rollup(empty, ledger.items)  # before the subtotals: figures beyond a float are one error line
+        check_finite_rollup(empty, ledger)  # before the subtotals: figures beyond a float are one error line
     except SteelyardError as exc:
         raise exc.located(file=source)
     groups = subtotals([it.group for it in ledger.items], empty_state.mass, empty_state.cg, empty_state.own)
