@@ -145,20 +145,27 @@ def rollup(mass: np.ndarray, cg: np.ndarray, own: np.ndarray | None = None,
         cg = np.asarray(cg, dtype=float).reshape(-1, 3)
         own_arr = None if own is None else np.ascontiguousarray(own, dtype=float)
         own_sum = np.zeros((3, 3)) if own_arr is None else sum_tensors(own_arr)
-        if own_rows is not None and own_arr is not None:  # the rare overflow search wants every row
-            dense = np.zeros((mass.shape[0], 3, 3))
-            dense[np.asarray(own_rows, dtype=np.intp)] = own_arr
-            own_arr = dense
         total = float(mass.sum())
         if total <= 0.0 and math.isfinite(total):
             mp = MassProperties(total, np.full(3, np.nan), own_sum, own_sum.copy())
-            return mp if _finite(mp, None) else replace(mp, overflow=_culprit(mass, cg, own_arr, mp, None))
+            if _finite(mp, None):
+                return mp
+            return replace(mp, overflow=_culprit(mass, cg, _every_row(own_arr, own_rows, mass), mp, None))
         mp, first = _plain(mass, cg, own_sum, total)
         if not _finite(mp, first) or _may_underflow(mass, cg, mp, first):
             mp, first = _scaled(mass, cg, own_sum)
         if _finite(mp, first):
             return mp
-        return replace(mp, overflow=_culprit(mass, cg, own_arr, mp, first))
+        return replace(mp, overflow=_culprit(mass, cg, _every_row(own_arr, own_rows, mass), mp, first))
+
+
+def _every_row(own: np.ndarray | None, own_rows: np.ndarray | None, mass: np.ndarray) -> np.ndarray | None:
+    """Own tensors one per row (the overflow search names a row): sparse ones spread out, only then."""
+    if own_rows is None or own is None:
+        return own
+    dense = np.zeros((mass.shape[0], 3, 3))
+    dense[np.asarray(own_rows, dtype=np.intp)] = own
+    return dense
 
 
 def _plain(mass, cg, own_sum, total) -> tuple[MassProperties, np.ndarray]:
