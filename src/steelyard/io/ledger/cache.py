@@ -201,7 +201,7 @@ def lookup(source: str, data: bytes, *, fast: bool = True, sha256: str | None = 
 
 
 def store(source: str, data: bytes, ledger: Ledger, *, had_comments: bool, files: dict | None = None,
-          fast: bool = True) -> None:
+          fast: bool = True, sha256: str | None = None) -> None:
     """Remember what reading `source` (bytes `data`) built; `files`: every other file the read went
     on to, realpath -> (label, sha256) (io.ledger.tree.TreeReader.files). Never raises for I/O."""
     if not enabled():
@@ -223,7 +223,7 @@ def store(source: str, data: bytes, ledger: Ledger, *, had_comments: bool, files
     if payload is None or len(payload) > MAX_BYTES // 2:
         return
     header = json.dumps({
-        "program": program_tag(), "key": _key(source, fast), "top": _sha(data),
+        "program": program_tag(), "key": _key(source, fast), "top": sha256 or _sha(data),
         "files": [[key, sha] for key, (_, sha) in (files or {}).items()],
         "had_comments": bool(had_comments), "size": len(payload), "sha256": _sha(payload),
     }).encode("utf-8")

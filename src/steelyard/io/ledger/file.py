@@ -117,8 +117,9 @@ def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
     tree = None
     try:
         data = read_bytes(path)
+        sha = hashlib.sha256(data).hexdigest()  # once: the cache's key, the disk check's and the entry's
         if cache:
-            hit = _from_cache(source, data, fast)
+            hit = _from_cache(source, data, fast, sha)
             if hit is not None:
                 return hit
             from steelyard.io.ledger.tree import DiskSource, tree_for
@@ -130,18 +131,19 @@ def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
             mark_failed(source)
         raise
     mark_loaded(source)
-    loaded = LoadedLedger(ledger, source, hashlib.sha256(data).hexdigest(), has_comments(text), time.time())
+    loaded = LoadedLedger(ledger, source, sha, has_comments(text), time.time())
     if cache:
         from steelyard.io.ledger import cache as _cache
 
-        _cache.store(source, data, ledger, had_comments=loaded.had_comments, files=tree.files, fast=fast)
+        _cache.store(source, data, ledger, had_comments=loaded.had_comments, files=tree.files, fast=fast,
+                     sha256=sha)
     return loaded
 
 
-def _from_cache(source: str, data: bytes, fast: bool) -> LoadedLedger | None:
+def _from_cache(source: str, data: bytes, fast: bool, sha: str | None = None) -> LoadedLedger | None:
     from steelyard.io.ledger import cache as _cache
 
-    sha = hashlib.sha256(data).hexdigest()
+    sha = sha or hashlib.sha256(data).hexdigest()
     hit = _cache.lookup(source, data, fast=fast, sha256=sha)
     if hit is None:
         return None
