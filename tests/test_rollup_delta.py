@@ -124,3 +124,24 @@ def test_100k_rows_against_the_full_rollup():
         assert_allclose(mp.cg, ref.cg, rtol=1e-12)
         assert_allclose(mp.inertia_cg, ref.inertia_cg, rtol=1e-9, atol=1e-9 * np.abs(ref.inertia_cg).max())
         assert_allclose(mp.inertia_datum, ref.inertia_datum, rtol=1e-9)
+
+
+def test_sparse_own_gives_the_same_rest_as_dense():
+    # The form passes the state's sparse own tensors (rows with one); the sums must equal the
+    # dense form's, exactly as the dense column gives them, and Σ own within rounding of an exact Fraction sum.
+    from fractions import Fraction
+
+    rng = np.random.default_rng(7)
+    n = 50
+    mass = rng.uniform(0.5, 5.0, n)
+    cg = rng.uniform(-2.0, 2.0, (n, 3))
+    rows = np.array([3, 11, 20, 41])
+    values = np.array([np.diag(rng.uniform(0.1, 1.0, 3)) for _ in rows])
+    dense = np.zeros((n, 3, 3))
+    dense[rows] = values
+    for row in (None, 11, 12):
+        a = rest_sums(mass, cg, dense, row)
+        b = rest_sums(mass, cg, values, row, own_rows=rows)
+        assert a.mass == b.mass and np.array_equal(a.cg, b.cg) and np.array_equal(a.s, b.s)
+        exact = [sum(Fraction(float(values[j][k][k])) for j, r in enumerate(rows) if r != row) for k in range(3)]
+        assert all(abs(Fraction(float(b.own[k][k])) - exact[k]) <= 1e-15 * exact[k] for k in range(3))

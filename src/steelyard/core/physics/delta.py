@@ -30,22 +30,26 @@ class RestSums:
     own: np.ndarray  # (3, 3) Σ own tensors
 
 
-def rest_sums(mass: np.ndarray, cg: np.ndarray, own: np.ndarray, row: int | None = None) -> RestSums | None:
+def rest_sums(mass: np.ndarray, cg: np.ndarray, own: np.ndarray, row: int | None = None,
+              own_rows: np.ndarray | None = None) -> RestSums | None:
     """The sums of all rows of a state except `row` (None: all rows); None when they are not finite.
 
     Row `row` is given zero weight rather than cut out, so no (n, 3, 3) copy
     is made: its mass counts as 0 in both passes and its own tensor gets a
-    zero weight in the Σ.
+    zero weight in the Σ. With `own_rows` (as `rollup` takes it), `own` holds
+    only those rows' tensors.
     """
     with np.errstate(over="ignore", invalid="ignore", under="ignore", divide="ignore"):
         mass = np.array(mass, dtype=float)  # a copy: the row is zeroed in it
         cg = np.asarray(cg, dtype=float).reshape(-1, 3)
         n = len(mass)
-        weight = np.ones(n)
+        rows = np.arange(n) if own_rows is None else np.asarray(own_rows, dtype=np.intp)
+        own = np.asarray(own, dtype=float).reshape(len(rows), 9)
+        weight = np.ones(len(rows))
         if row is not None:
             mass[row] = 0.0
-            weight[row] = 0.0
-        own_sum = (weight @ np.asarray(own, dtype=float).reshape(n, 9)).reshape(3, 3) if n else np.zeros((3, 3))
+            weight[rows == row] = 0.0
+        own_sum = (weight @ own).reshape(3, 3) if len(rows) else np.zeros((3, 3))
         total = float(mass.sum())
         if total > 0.0 and math.isfinite(total):
             _first, c, s = _second_moments(mass, cg, total)

@@ -36,7 +36,8 @@ class FormPreview:
     def rest(self) -> RestSums | None:
         if self._rest is False:
             st = self.before.state
-            self._rest = rest_sums(st.mass, st.cg, st.own, self._row())
+            rows, values = st.own_sparse()
+            self._rest = rest_sums(st.mass, st.cg, values, self._row(), own_rows=rows)
         return self._rest
 
     def covers(self, item: Item) -> bool:
