@@ -19,6 +19,8 @@ from pathlib import Path
 
 import pytest
 
+from support.calls import count_calls
+
 from support.cli import run_main, run_process
 from support.paths import FIXTURES, ROOT
 
@@ -36,16 +38,8 @@ SINGLE = sorted(p.name for p in FIXTURES.glob("*.toml"))
 @pytest.fixture
 def parses(monkeypatch):
     """How many times a ledger's bytes were parsed (a hit parses nothing)."""
-    count = [0]
-    real = file_mod.ledger_from_bytes
-
-    def counting(*a, **kw):
-        count[0] += 1
-        return real(*a, **kw)
-
-    monkeypatch.setattr(file_mod, "ledger_from_bytes", counting)
     monkeypatch.delenv("STEELYARD_NO_CACHE", raising=False)
-    return count
+    return count_calls(monkeypatch, file_mod, "ledger_from_bytes")
 
 
 def folder() -> Path:

@@ -22,6 +22,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from support.calls import count_calls
+
 from support.cli import run_main
 from support.paths import FIXTURES, ROOT
 
@@ -39,16 +41,8 @@ PATHS = sorted(FIXTURES.glob("*.toml")) + [FIXTURES / "quad-freighter" / "quad-f
 @pytest.fixture
 def builds(monkeypatch):
     """How many times a hit's Items were made."""
-    count = [0]
-    real = cache_codec._make_items
-
-    def counting(*a, **kw):
-        count[0] += 1
-        return real(*a, **kw)
-
-    monkeypatch.setattr(cache_codec, "_make_items", counting)
     monkeypatch.delenv("STEELYARD_NO_CACHE", raising=False)
-    return count
+    return count_calls(monkeypatch, cache_codec, "_make_items")
 
 
 def _hit(path: Path) -> Ledger:
