@@ -24,6 +24,7 @@ import asyncio
 import contextlib
 import io
 import os
+import shutil
 import statistics
 import sys
 import tempfile
@@ -36,6 +37,7 @@ sys.path.insert(0, str(HERE))
 from make_ledger import write_ledger  # noqa: E402
 
 from steelyard.cli.main import main as cli_main  # noqa: E402
+from steelyard.io.durability.journal import journal_path  # noqa: E402
 from steelyard.tui.app import SteelyardApp  # noqa: E402
 
 
@@ -142,8 +144,10 @@ def core_share(path: Path, repeat: int = 7) -> float:
 
 def main(n: int = 100_000, given: str | None = None) -> None:
     with tempfile.TemporaryDirectory() as tmp:
-        path = Path(given) if given else Path(tmp) / "big.toml"
-        if not given:
+        path = Path(tmp) / (Path(given).name if given else "big.toml")
+        if given:  # a private copy: the edits' journal must not be left beside the user's file
+            shutil.copyfile(given, path)
+        else:
             write_ledger(path, n, seed=1)
         cli, tui = [], []
         edit_times: list[float] = []
@@ -151,6 +155,7 @@ def main(n: int = 100_000, given: str | None = None) -> None:
         for run in range(3):
             cli.append(cli_rollup(path))
             paint, edits, keys = asyncio.run(first_paint(path, edits=15 if run == 0 else 0, keys=run == 0))
+            journal_path(path).unlink(missing_ok=True)  # else the next open offers the edits back (a dialog)
             tui.append(paint)
             edit_times += edits
             key_times += keys
