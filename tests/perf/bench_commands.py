@@ -8,12 +8,15 @@ median of the pair-by-pair ratios:
 - `steelyard diff SNAP_A SNAP_B --json` / `steelyard rollup A --json` (goal <= 1.3)
 - `steelyard import A.csv -o OUT --force` / `steelyard rollup A --json` (goal <= 1.5)
 - `steelyard export A --csv OUT` and `--json OUT` / `steelyard rollup A --json` (goal <= 1.0)
+- `steelyard rollup A` (the text statement) / `steelyard rollup A --json` (goal <= 1.1)
 
 Every child runs with STEELYARD_NO_CACHE=1: commands are compared as a first open (no reopen cache).
 Times are the children's CPU time (user + sys), steadier than wall time on a shared machine.
 Not collected by pytest.
 
-    python tests/perf/bench_commands.py [N] [--repeat R]
+    python tests/perf/bench_commands.py [N] [--repeat R] [--only WORD]
+
+`--only diff` (or import, csv, json, text) times only the commands whose name holds the word.
 """
 
 from __future__ import annotations
@@ -47,6 +50,7 @@ def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser()
     ap.add_argument("n", nargs="?", type=int, default=100_000)
     ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--only", metavar="WORD", help="time only the commands whose name holds WORD")
     args = ap.parse_args(argv)
     py = [sys.executable, "-m", "steelyard"]
     with tempfile.TemporaryDirectory() as tmp:
@@ -64,7 +68,10 @@ def main(argv: list[str] | None = None) -> int:
         commands = {"diff of two snapshots": py + ["diff", sa, sb, "--json"],
                     "csv import": py + ["import", csv, "-o", out, "--force"],
                     "export --csv": py + ["export", a, "--csv", os.path.join(tmp, "x.csv")],
-                    "export --json": py + ["export", a, "--json", os.path.join(tmp, "x.json")]}
+                    "export --json": py + ["export", a, "--json", os.path.join(tmp, "x.json")],
+                    "text rollup": py + ["rollup", a]}
+        if args.only:
+            commands = {k: v for k, v in commands.items() if args.only in k}
         ratios: dict[str, list[float]] = {k: [] for k in commands}
         base: list[float] = []
         cpu(rollup)  # warm-up (file cache, bytecode)
