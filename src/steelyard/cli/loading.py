@@ -21,12 +21,12 @@ from steelyard.cli.progress import LoadProgress
 T = TypeVar("T")
 
 
-def load_for_cli(path: str, *, cache: bool = True) -> LoadedLedger:
+def load_for_cli(path: str, *, cache: bool = True, memory=None) -> LoadedLedger:
     """Open `path` for a command. `cache=False` for a command that writes a ledger made from what it
     reads: a write never comes from the read cache (io.ledger.cache), which --no-cache and
-    STEELYARD_NO_CACHE=1 turn off for every command."""
+    STEELYARD_NO_CACHE=1 turn off for every command. `memory`: see io.ledger.read_reuse."""
     with gc_paused(), LoadProgress(f"loading {path}") as progress:
-        loaded = open_ledger(path, progress=progress, cache=cache)
+        loaded = open_ledger(path, progress=progress, cache=cache, memory=memory)
         # A command keeps the ledger to its end: moving what was just read out of the cyclic collector's
         # reach before the collector runs spares it scanning every item (a tree of assemblies holds each
         # item twice: in its own file's ledger and placed); memory is still freed by reference counting.

@@ -192,7 +192,7 @@ def print_diff(diff: LedgerDiff, a_label: str, b_label: str, system: str | None,
     du = DisplayUnits.choose(file_units or FileUnits(), system)
     console.print(T(f"Compare A: {a_label}  →  B: {b_label}", style="bold"))
     console.print(T(f"{len(diff.added):,} added, {len(diff.removed):,} removed, {len(diff.changed):,} changed "
-                       f"(A has {len(diff.a.ids):,} items, B {len(diff.b.ids):,}); compared as carried, SI values "
+                       f"(A has {len(diff.a.mass):,} items, B {len(diff.b.mass):,}); compared as carried, SI values "
                        "equal within a few ulps count as the same"))
     if diff.frame:
         moved = ", ".join(f"+{k} {o} → {n}" for k, (o, n) in diff.frame.items())

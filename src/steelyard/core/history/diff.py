@@ -57,31 +57,87 @@ FIELDS = ("name", "group", "quantity", "mass_kg", "cg_m", "inertia_kg_m2", "shap
 
 
 @dataclass(frozen=True, eq=False)
+class Part:
+    """The per-item values of some rows of a side (`Carried.part`), read from their Items."""
+
+    rows: np.ndarray  # (k,) rows of the side
+    items: list
+    labels: list[str]
+    groups: list[str]
+    six: np.ndarray  # (k, 6) carried own inertia per unit as given, NaN where none is given
+    density: np.ndarray  # (k,) NaN where none
+    extras: list[Mapping[str, object]]  # unknown item keys, the snapshot marker taken out
+    geometry: np.ndarray  # (k,) bool: the item has a shape or turns (compared in Python)
+    has_extra: np.ndarray  # (k,) bool: extras[i] is not empty
+
+
+@dataclass(frozen=True, eq=False)
 class Carried:
-    """Per-item columns of one side as carried (SI), in the ledger's own item order."""
+    """One side as carried (SI), in the ledger's own item order.
+
+    The columns from the ledger's arrays (mass, CG, the totals) are made at once, and
+    so is every check. The values read item by item from the Items (names, groups,
+    inertia and density as given, keys beyond v1) are made when first asked: for
+    some rows (`part`), or whole (`labels`, `six`...). A diff of two versions that
+    share most Item objects (io.ledger.read_reuse) then reads only the rows it
+    compares."""
 
     ledger: Ledger
     loadout: str | None
-    ids: list[str]
-    labels: list[str]
-    groups: list[str]
     quantity: np.ndarray  # (n,) float
     mass: np.ndarray  # (n,) carried mass per unit
     cg: np.ndarray  # (n, 3)
-    six: np.ndarray  # (n, 6) carried own inertia per unit as given, NaN where none is given
     variable: np.ndarray  # (n,) bool: a load item (in a snapshot: was one)
     capacity: np.ndarray  # (n,) full amount of a load item (mass × quantity), NaN for fixed
-    density: np.ndarray  # (n,) NaN where none
-    extras: list[Mapping[str, object]]  # unknown item keys, the snapshot marker taken out
     mp: MassProperties
     row_mass: np.ndarray  # (n,) total carried mass of each row
-    geometry: np.ndarray  # (n,) bool: the item has a shape or turns (compared in Python)
-    has_extra: np.ndarray  # (n,) bool: extras[i] is not empty
+    fill: np.ndarray  # (n,) the loadout's fill of each row (1 for a fixed item)
     cg_rows: np.ndarray | None = None  # (n, 3) each row's CG as loaded (a tank's CG table applied)
 
     @property
     def is_snapshot(self) -> bool:
         return is_snapshot(self.ledger)
+
+    @cached_property
+    def ids(self) -> list[str]:
+        return list(map(operator.attrgetter("id"), self.ledger.items))
+
+    def part(self, rows: np.ndarray) -> Part:
+        """The per-item values of `rows` (in the order given)."""
+        rows = np.asarray(rows, dtype=np.intp)
+        items = _pick(self.ledger.items, rows.tolist())
+        k = len(items)
+        six = np.full((k, 6), np.nan)
+        at = [i for i, it in enumerate(items) if it.inertia is not None]
+        if at:
+            r = np.array(at)
+            six[r] = np.array([items[i].inertia for i in at], dtype=float) * self.fill[rows[r], None]
+        density = np.full(k, np.nan)
+        at = [i for i, it in enumerate(items) if it.density is not None]
+        if at:
+            density[np.array(at)] = [items[i].density for i in at]
+        labels = [name or i for name, i in zip(map(operator.attrgetter("name"), items),
+                                                map(operator.attrgetter("id"), items))]
+        extras = _item_extras(items)
+        if self.is_snapshot:
+            for i in [i for i, ex in enumerate(extras) if LOADED_KEY in ex]:
+                extras[i] = {key: v for key, v in extras[i].items() if key != LOADED_KEY}
+        geometry = _given(items, "shape") | _given(items, "rotate", falsy=True)
+        return Part(rows, items, labels, list(map(operator.attrgetter("group"), items)), six, density, extras,
+                    geometry, np.fromiter(map(bool, extras), bool, k))
+
+    @cached_property
+    def whole(self) -> Part:
+        return self.part(np.arange(len(self.ledger.items)))
+
+    # the whole columns, for readers that index rows freely (renderers)
+    labels = property(lambda self: self.whole.labels)
+    groups = property(lambda self: self.whole.groups)
+    six = property(lambda self: self.whole.six)
+    density = property(lambda self: self.whole.density)
+    extras = property(lambda self: self.whole.extras)
+    geometry = property(lambda self: self.whole.geometry)
+    has_extra = property(lambda self: self.whole.has_extra)
 
 
 def is_snapshot(ledger: Ledger) -> bool:
@@ -127,36 +183,20 @@ def _item_extras(items) -> list[dict[str, object]]:
 def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     """One side as carried under `loadout` (None: load items empty; a snapshot has none)."""
     items = ledger.items
-    n = len(items)
     a = ledger.arrays
     fill = fill_fractions(ledger, loadout)
     state = state_from_fill(ledger, fill, loadout)
     variable = a.variable.copy()
     capacity = np.where(variable, a.unit_mass * a.quantity, np.nan)
-    extras = _item_extras(items)
-    if is_snapshot(ledger):
-        for i in [i for i, ex in enumerate(extras) if LOADED_KEY in ex]:
-            capacity[i], _ = _loaded_marker(items[i].id, extras[i][LOADED_KEY])
+    if is_snapshot(ledger):  # every marker is checked here, whichever rows are compared later
+        marks = list(map(operator.attrgetter(LOADED_KEY), items))
+        for i in [i for i, v in enumerate(marks) if v is not None and v is not False]:
+            capacity[i], _ = _loaded_marker(items[i].id, marks[i])
             variable[i] = True
-            extras[i] = {k: v for k, v in extras[i].items() if k != LOADED_KEY}
-    six = np.full((n, 6), np.nan)
-    rows = [i for i, it in enumerate(items) if it.inertia is not None]
-    if rows:
-        r = np.array(rows)
-        six[r] = np.array([items[i].inertia for i in rows], dtype=float) * fill[r, None]
-    density = np.full(n, np.nan)
-    rows = [i for i, it in enumerate(items) if it.density is not None]
-    if rows:
-        density[np.array(rows)] = [items[i].density for i in rows]
-    ids = list(map(operator.attrgetter("id"), items))
-    labels = [name or i for name, i in zip(map(operator.attrgetter("name"), items), ids)]
-    geometry = _given(items, "shape") | _given(items, "rotate", falsy=True)
-    has_extra = np.fromiter(map(bool, extras), bool, n)
     mp = rollup_state(state)
     check_finite_rollup(mp, items)  # a side beyond a float is refused naming the item, before any arithmetic
-    return Carried(ledger, loadout, ids, labels, list(map(operator.attrgetter("group"), items)), a.quantity,
-                   a.unit_mass * fill, a.cg, six, variable, capacity, density, extras, mp,
-                   state.mass, geometry, has_extra, state.cg)
+    return Carried(ledger, loadout, a.quantity, a.unit_mass * fill, a.cg, variable, capacity, mp, state.mass,
+                   fill, state.cg)
 
 
 # --------------------------------------------------------------------------- results
@@ -273,58 +313,72 @@ def _rotate(item) -> list:
     return [[axis, float(deg)] for axis, deg in item.rotate]
 
 
-_VALUES = {
-    "name": lambda s, i: s.labels[i],
-    "group": lambda s, i: s.groups[i],
-    "quantity": lambda s, i: int(s.quantity[i]),
-    "mass_kg": lambda s, i: float(s.mass[i]),
-    "cg_m": lambda s, i: [float(x) for x in s.cg[i]],
-    "inertia_kg_m2": lambda s, i: _six(s.six[i]),
-    "shape": lambda s, i: _shape(s.ledger.items[i]),
-    "rotate": lambda s, i: _rotate(s.ledger.items[i]),
-    "variable": lambda s, i: bool(s.variable[i]),
-    "capacity_kg": lambda s, i: _num(s.capacity[i]),
-    "density_kg_m3": lambda s, i: _num(s.density[i]),
+_VALUES = {  # (side, its part, position in the part, row) -> the field as reported
+    "name": lambda s, p, k, i: p.labels[k],
+    "group": lambda s, p, k, i: p.groups[k],
+    "quantity": lambda s, p, k, i: int(s.quantity[i]),
+    "mass_kg": lambda s, p, k, i: float(s.mass[i]),
+    "cg_m": lambda s, p, k, i: [float(x) for x in s.cg[i]],
+    "inertia_kg_m2": lambda s, p, k, i: _six(p.six[k]),
+    "shape": lambda s, p, k, i: _shape(p.items[k]),
+    "rotate": lambda s, p, k, i: _rotate(p.items[k]),
+    "variable": lambda s, p, k, i: bool(s.variable[i]),
+    "capacity_kg": lambda s, p, k, i: _num(s.capacity[i]),
+    "density_kg_m3": lambda s, p, k, i: _num(p.density[k]),
 }
-
-
-def _value(side: Carried, i: int, name: str) -> object:
-    """Field `name` of row i as reported (SI; None where the item gives none)."""
-    return _VALUES[name](side, i)
 
 
 # --------------------------------------------------------------------------- comparing
 
 
-def _strings_differ(xs: list[str], ys: list[str], ia: list[int], ib: list[int]) -> np.ndarray:
-    return np.fromiter(map(operator.ne, _pick(xs, ia), _pick(ys, ib)), bool, len(ia))
+def _strings_differ(xs: list[str], ys: list[str]) -> np.ndarray:
+    return np.fromiter(map(operator.ne, xs, ys), bool, len(xs))
 
 
-def _item_masks(a: Carried, b: Carried, ia: np.ndarray, ib: np.ndarray) -> dict[str, np.ndarray]:
-    """field -> (k,) bool 'differs' over the matched pairs (A row ia[k], B row ib[k])."""
-    la, lb = ia.tolist(), ib.tolist()
+def _item_masks(a: Carried, b: Carried, pa: Part, pb: Part) -> dict[str, np.ndarray]:
+    """field -> (k,) bool 'differs' over the pairs (A row pa.rows[k], B row pb.rows[k])."""
+    ia, ib = pa.rows, pb.rows
     m = {
-        "name": _strings_differ(a.labels, b.labels, la, lb),
-        "group": _strings_differ(a.groups, b.groups, la, lb),
+        "name": _strings_differ(pa.labels, pb.labels),
+        "group": _strings_differ(pa.groups, pb.groups),
         "quantity": a.quantity[ia] != b.quantity[ib],
         "mass_kg": ~close(a.mass[ia], b.mass[ib]),
         "cg_m": ~close(a.cg[ia], b.cg[ib]).all(axis=1),
-        "inertia_kg_m2": ~close(a.six[ia], b.six[ib]).all(axis=1),
+        "inertia_kg_m2": ~close(pa.six, pb.six).all(axis=1),
         "variable": a.variable[ia] != b.variable[ib],
         "capacity_kg": ~close(a.capacity[ia], b.capacity[ib]),
-        "density_kg_m3": ~close(a.density[ia], b.density[ib]),
+        "density_kg_m3": ~close(pa.density, pb.density),
     }
     shape = np.zeros(len(ia), bool)
     rotate = np.zeros(len(ia), bool)
-    ai, bi = a.ledger.items, b.ledger.items
-    for k in np.flatnonzero(a.geometry[ia] | b.geometry[ib]).tolist():
-        x, y = ai[la[k]], bi[lb[k]]
+    for k in np.flatnonzero(pa.geometry | pb.geometry).tolist():
+        x, y = pa.items[k], pb.items[k]
         if x.shape is not None or y.shape is not None:
             shape[k] = not same(_shape(x), _shape(y))
         if x.rotate or y.rotate:
             rotate[k] = not same(_rotate(x), _rotate(y))
     m["shape"], m["rotate"] = shape, rotate
     return m
+
+
+def _maybe_changed(a: Carried, b: Carried, ia: np.ndarray, ib: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The matched pairs left to compare field by field. A pair that holds the very same Item object
+    (two versions read through one io.ledger.read_reuse memory) under the same fill, load-item state
+    and [units] has equal fields: each compared value is the Item's own, or its row times the fill."""
+    if not len(ia) or a.ledger.units != b.ledger.units:
+        return ia, ib
+    same = np.fromiter(map(operator.is_, _pick(a.ledger.items, ia.tolist()), _pick(b.ledger.items, ib.tolist())),
+                       bool, len(ia))
+    if not same.any():
+        return ia, ib
+    same &= (a.fill[ia] == b.fill[ib]) & (a.variable[ia] == b.variable[ib]) & _same_nan(a.capacity[ia],
+                                                                                         b.capacity[ib])
+    keep = np.flatnonzero(~same)
+    return ia[keep], ib[keep]
+
+
+def _same_nan(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    return (x == y) | (np.isnan(x) & np.isnan(y))
 
 
 def _rank(a: Carried, b: Carried, kinds: list[str], ids: list[str], ra: np.ndarray,
@@ -337,10 +391,10 @@ def _rank(a: Carried, b: Carried, kinds: list[str], ids: list[str], ra: np.ndarr
     if k == 0:
         return ()
     has_a, has_b = ra >= 0, rb >= 0
-    m_a = np.where(has_a, a.row_mass[np.maximum(ra, 0)] if len(a.ids) else 0.0, 0.0)
-    m_b = np.where(has_b, b.row_mass[np.maximum(rb, 0)] if len(b.ids) else 0.0, 0.0)
-    r_a = a.cg[np.maximum(ra, 0)] if len(a.ids) else np.zeros((k, 3))
-    r_b = b.cg[np.maximum(rb, 0)] if len(b.ids) else np.zeros((k, 3))
+    m_a = np.where(has_a, a.row_mass[np.maximum(ra, 0)] if len(a.mass) else 0.0, 0.0)
+    m_b = np.where(has_b, b.row_mass[np.maximum(rb, 0)] if len(b.mass) else 0.0, 0.0)
+    r_a = a.cg[np.maximum(ra, 0)] if len(a.mass) else np.zeros((k, 3))
+    r_b = b.cg[np.maximum(rb, 0)] if len(b.mass) else np.zeros((k, 3))
     c, big_m = a.mp.cg, a.mp.mass
     new_m = big_m + m_b - m_a
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -363,37 +417,75 @@ def _envelope_changes(a: Carried, b: Carried) -> tuple[EnvelopeChange, ...]:
     return tuple(EnvelopeChange(n, ra.get(n), rb.get(n)) for n in names)
 
 
-def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> LedgerDiff:
+def _match(a: Carried, b: Carried, shared: tuple[np.ndarray, np.ndarray] | None
+           ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """(B row of each A row, A row of each B row; −1 where none) and the matched pairs (A rows, B rows)
+    left to compare field by field.
+
+    `shared` (A rows, B rows) names pairs that should hold the very same Item object (io.ledger.read_reuse
+    knows them); each is checked, and only the other rows are matched by id."""
+    na, nb = len(a.ledger.items), len(b.ledger.items)
+    ib_all = np.full(na, -1, dtype=np.int64)
+    ia_all = np.full(nb, -1, dtype=np.int64)
+    if shared is not None and len(shared[0]) and a.ledger.units == b.ledger.units:
+        sa, sb = (np.asarray(x, dtype=np.int64) for x in shared)
+        ok = (sa >= 0) & (sa < na) & (sb >= 0) & (sb < nb)
+        sa, sb = sa[ok], sb[ok]
+        same = np.fromiter(map(operator.is_, _pick(a.ledger.items, sa.tolist()), _pick(b.ledger.items, sb.tolist())),
+                           bool, len(sa))
+        sa, sb = sa[same], sb[same]
+        ib_all[sa] = sb
+        ia_all[sb] = sa
+        rest_a = np.flatnonzero(ib_all < 0)
+        rest_b = np.flatnonzero(ia_all < 0)
+        a_ids = [it.id for it in _pick(a.ledger.items, rest_a.tolist())]
+        b_ids = [it.id for it in _pick(b.ledger.items, rest_b.tolist())]
+        ib_all[rest_a] = np.fromiter(map(b.ledger.index.get, a_ids, repeat(-1)), np.int64, len(a_ids))
+        ia_all[rest_b] = np.fromiter(map(a.ledger.index.get, b_ids, repeat(-1)), np.int64, len(b_ids))
+        settled = np.zeros(na, bool)
+        settled[sa] = (a.fill[sa] == b.fill[sb]) & (a.variable[sa] == b.variable[sb]) & _same_nan(
+            a.capacity[sa], b.capacity[sb])
+        matched = np.flatnonzero((ib_all >= 0) & ~settled)
+        return ib_all, ia_all, matched, ib_all[matched]
+    if a.ids == b.ids:  # same items in the same order (two loadouts, a snapshot of this ledger)
+        ib_all = ia_all = np.arange(na, dtype=np.int64)
+    else:
+        ib_all = np.fromiter(map(b.ledger.index.get, a.ids, repeat(-1)), np.int64, na)
+        ia_all = np.fromiter(map(a.ledger.index.get, b.ids, repeat(-1)), np.int64, nb)
+    matched = np.flatnonzero(ib_all >= 0)
+    ia, ib = _maybe_changed(a, b, matched, ib_all[matched])
+    return ib_all, ia_all, ia, ib
+
+
+def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None,
+                    shared: tuple[np.ndarray, np.ndarray] | None = None) -> LedgerDiff:
     """The diff of two sides already as carried.
 
     `loadouts`: also compare loadout definitions; by default only when both
     sides are whole ledgers with no loadout chosen (two versions of a file).
+    `shared`: (A rows, B rows) that may hold the same Item objects (see `_match`): a hint, checked.
     """
     b_index = b.ledger.index
     a_index = a.ledger.index
-    if a.ids == b.ids:  # same items in the same order (two loadouts, a snapshot of this ledger)
-        ib_all = ia_all = np.arange(len(a.ids), dtype=np.int64)
-    else:
-        ib_all = np.fromiter(map(b_index.get, a.ids, repeat(-1)), np.int64, len(a.ids))
-        ia_all = np.fromiter(map(a_index.get, b.ids, repeat(-1)), np.int64, len(b.ids))
-    matched = np.flatnonzero(ib_all >= 0)
-    ia, ib = matched, ib_all[matched]
-    masks = _item_masks(a, b, ia, ib)
+    ib_all, ia_all, ia, ib = _match(a, b, shared)
+    pa, pb = a.part(ia), b.part(ib)
+    masks = _item_masks(a, b, pa, pb)
     any_diff = np.zeros(len(ia), bool)
     for name in FIELDS:
         any_diff |= masks[name]
     extra_fields: dict[int, dict] = {}
-    for k in np.flatnonzero(a.has_extra[ia] | b.has_extra[ib]).tolist():
-        ch = item_extra_changes(a.extras[ia[k]], b.extras[ib[k]], a.ledger.units, b.ledger.units)
+    for k in np.flatnonzero(pa.has_extra | pb.has_extra).tolist():
+        ch = item_extra_changes(pa.extras[k], pb.extras[k], a.ledger.units, b.ledger.units)
         if ch:
             extra_fields[k] = ch
             any_diff[k] = True
     changed = []
     for k in np.flatnonzero(any_diff).tolist():
         i, j = int(ia[k]), int(ib[k])
-        fields = {name: (_value(a, i, name), _value(b, j, name)) for name in FIELDS if masks[name][k]}
+        fields = {name: (_VALUES[name](a, pa, k, i), _VALUES[name](b, pb, k, j)) for name in FIELDS
+                  if masks[name][k]}
         fields.update(extra_fields.get(k, {}))
-        changed.append(ItemChange(a.ids[i], fields))
+        changed.append(ItemChange(a.ledger.items[i].id, fields))
     placements: list[PlacementChange] = []
     if a.ledger.placed or b.ledger.placed:
         placements, folded = placement_changes(a.ledger, a.row_mass, a.cg_rows, a.mp.mass, a.mp.cg, b.ledger,
@@ -404,8 +496,8 @@ def compare_carried(a: Carried, b: Carried, *, loadouts: bool | None = None) -> 
         changed = [ItemChange(c.id, c.fields, file_of(b.ledger, c.id) or file_of(a.ledger, c.id)) for c in changed]
     removed_rows = np.flatnonzero(ib_all < 0)
     added_rows = np.flatnonzero(ia_all < 0)
-    removed = tuple(a.ids[i] for i in removed_rows.tolist())
-    added = tuple(b.ids[j] for j in added_rows.tolist())
+    removed = tuple(it.id for it in _pick(a.ledger.items, removed_rows.tolist()))
+    added = tuple(it.id for it in _pick(b.ledger.items, added_rows.tolist()))
 
     ch_a = np.array([a_index[c.id] for c in changed], dtype=np.int64)
     ch_b = np.array([b_index[c.id] for c in changed], dtype=np.int64)

@@ -77,10 +77,11 @@ def read_bytes(path: str | os.PathLike) -> bytes:
 
 
 def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = None,
-                      fast: bool = True, tree=None, tree_source=None) -> tuple[Ledger, str]:
+                      fast: bool = True, tree=None, tree_source=None, memory=None) -> tuple[Ledger, str]:
     """(ledger, text) of a ledger file's bytes, checked as strictly as a file on disk.
 
-    Assemblies are read from `tree_source`'s folder (default: the file `source` names).
+    Assemblies are read from `tree_source`'s folder (default: the file `source` names). `memory`: see
+    io.ledger.read_reuse (item tables unchanged since an earlier reading are not parsed again).
     """
     collecting = gc.isenabled()
     gc.disable()  # the parse tree and the items hold no cycles: collection passes over them are pure cost
@@ -89,7 +90,7 @@ def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = N
             raise FormatError("empty file (a ledger starts with 'steelyard = 1')", file=source)
         text = decode(data, source=source)
         return ledger_from_text(text, source=source, progress=progress, fast=fast, tree=tree,
-                                tree_source=tree_source), text
+                                tree_source=tree_source, memory=memory), text
     except (RecursionError, MemoryError):
         raise FormatError("too deeply nested or too large to read", file=source) from None
     finally:
@@ -98,13 +99,14 @@ def ledger_from_bytes(data: bytes, *, source: str, progress: Progress | None = N
 
 
 def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
-                fast: bool = True, cache: bool = False) -> LoadedLedger:
+                fast: bool = True, cache: bool = False, memory=None) -> LoadedLedger:
     """Read and check a ledger file. On any error the file is marked never to be overwritten.
 
     FILE@REV reads the file as committed at a git revision (`io.vcs`); nothing is marked then.
     With `cache` (read-only uses: never a read a write is made from), an unchanged file and tree
     come from the read cache (io.ledger.cache) and a fresh read is stored there; FILE@REV is
-    never cached.
+    never cached. `memory` (io.ledger.read_reuse.ReadMemory): a command reading several versions of one
+    file passes the same memory to each read, and unchanged item tables are read once.
     """
     spec = os.fspath(path)
     if isinstance(spec, str) and "@" in spec and not os.path.lexists(spec):  # maybe FILE@REV (revision.py)
@@ -125,7 +127,8 @@ def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
             from steelyard.io.ledger.tree import DiskSource, tree_for
 
             tree = tree_for(DiskSource(source))  # the same reader the parse would make; it lists what it read
-        ledger, text = ledger_from_bytes(data, source=source, progress=progress, fast=fast, tree=tree)
+        ledger, text = ledger_from_bytes(data, source=source, progress=progress, fast=fast, tree=tree,
+                                         memory=memory)
     except SteelyardError:
         if os.path.isfile(source):
             mark_failed(source)

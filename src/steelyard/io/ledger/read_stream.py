@@ -16,6 +16,8 @@ the same tables (`toml_chunks.parse_chunked`, else `parse_toml` at once).
 
 from __future__ import annotations
 
+from operator import attrgetter
+
 import numpy as np
 
 from steelyard.core.document.model import ItemArrays, Ledger
@@ -30,15 +32,20 @@ _ITEM_KEYS = frozenset(ITEM)
 
 
 def ledger_from_text(text: str, *, source: str, progress: Progress | None = None, fast: bool = True,
-                     tree=None, tree_source=None, chunk_chars: int | None = None) -> Ledger:
-    """The ledger a TOML text describes; read piece by piece when that is safe, else as a whole."""
+                     tree=None, tree_source=None, chunk_chars: int | None = None, memory=None) -> Ledger:
+    """The ledger a TOML text describes; read piece by piece when that is safe, else as a whole.
+
+    `memory` (io.ledger.read_reuse.ReadMemory): item tables read through it before are taken as read
+    then; this reading is kept in it for the next."""
     at = toml_chunks.cuts(text, chunk_chars)
     if at is not None and conflict_marker_line(text) is None:
         try:
             return _streamed(text, at, source=source, progress=progress, fast=fast, tree=tree,
-                             tree_source=tree_source)
+                             tree_source=tree_source, memory=memory)
         except (toml_chunks.NotChunkable, SteelyardError, OverflowError):
             pass  # the whole-file reading decides, and words any error
+    if memory is not None:
+        memory.earlier = None
     if progress is not None:
         progress("parsing", 0.0)
     # the whole document, parsed in pieces where that gives the same tables (a lower peak), else at once
@@ -48,7 +55,8 @@ def ledger_from_text(text: str, *, source: str, progress: Progress | None = None
 
 
 def _streamed(text: str, at: list[int], *, source: str, progress: Progress | None, fast: bool, tree,
-              tree_source) -> Ledger:
+              tree_source, memory=None) -> Ledger:
+    reading = None if memory is None else memory.start(text[:at[0]], fast)
     data: dict = {}
     units = None
     seen: dict[str, int] = {}
@@ -58,7 +66,8 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
     total = max(len(text), 1)
     if progress is not None:
         progress("parsing", 0.0)
-    for k, (tables, raw, end) in enumerate(toml_chunks.pieces(text, at, fast)):
+    rewrite = None if reading is None else reading.piece
+    for k, (tables, raw, end) in enumerate(toml_chunks.pieces(text, at, fast, rewrite)):
         if k == 0:
             units = read_units(tables.get("units"), source)
         elif "units" in tables:
@@ -71,15 +80,17 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
         for entry in raw:
             if type(entry) is not dict or not _ITEM_KEYS.issuperset(entry):
                 raise toml_chunks.NotChunkable("an item the schema check must word")
-        if not bare:
+        if reading is None and not bare:
             bare = has_bare_inertia(raw)
         got, arrays = ItemsReader(raw, units, source, None, seen).read()
+        if reading is not None:
+            reading.parsed_rows(raw, got)
         items.extend(got)
         parts.append(arrays)
         del raw, got, tables
         if progress is not None:
             progress("checking items", end / total)
-    if not parts:
+    if not parts and (reading is None or not reading.code):
         raise toml_chunks.NotChunkable("no items")
     rows, values, start = [], [], 0
     for a in parts:  # own inertia stays sparse: each piece's rows moved to the file's row numbers
@@ -91,7 +102,20 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
                                np.concatenate([a.quantity for a in parts]),
                                np.asfortranarray(np.concatenate([a.cg for a in parts]).reshape(-1, 3)),
                                np.concatenate([a.variable for a in parts]), np.concatenate(rows),
-                               np.concatenate(values).reshape(-1, 3, 3))
+                               np.concatenate(values).reshape(-1, 3, 3)) if parts else ItemArrays.sparse(
+        *(np.empty(0), np.empty(0), np.empty((0, 3)), np.empty(0, dtype=bool), np.empty(0, dtype=np.intp),
+          np.empty((0, 3, 3))))
     del parts
+    if reading is not None:
+        got = reading.assemble(items, arrays)
+        if got is None:
+            memory.earlier = None
+            raise toml_chunks.NotChunkable("the item tables did not line up with the rows")
+        items, arrays, bare = got
+        seen = dict(zip(map(attrgetter("id"), items), range(len(items))))
+        if len(seen) != len(items):
+            memory.earlier = None
+            raise toml_chunks.NotChunkable("a repeated id: the fresh reading words it")
+        reading.remember(items, arrays)
     return _ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source,
                              read_items=(items, arrays, bare, seen))  # seen: id -> row, the index

@@ -67,17 +67,27 @@ def loader(fast: bool = True) -> Callable[[str], dict]:
     return tomllib.loads
 
 
-def pieces(text: str, at: list[int], fast: bool = True) -> Iterator[tuple[dict, list, int]]:
+def pieces(text: str, at: list[int], fast: bool = True,
+           rewrite: Callable[[int, str], str] | None = None) -> Iterator[tuple[dict, list, int]]:
     """(new top-level tables, the piece's [[item]] list, end offset) per piece; the head first, its
-    list empty. Raises NotChunkable when a piece is refused or a table turns up in two pieces."""
+    list empty. Raises NotChunkable when a piece is refused or a table turns up in two pieces.
+    `rewrite(k, piece)` gives the text actually parsed for piece k >= 1 (io.ledger.read_reuse: only
+    the tables not read before; "" for none)."""
     loads = loader(fast)
     seen: set[str] = set()
     bounds = [0, *at, len(text)]
     for k in range(len(bounds) - 1):
+        piece = text[bounds[k]:bounds[k + 1]]
+        if k and rewrite is not None:
+            piece = rewrite(k, piece)
+            if not piece:
+                yield {}, [], bounds[k + 1]
+                continue
         try:
-            d = loads(text[bounds[k]:bounds[k + 1]])
+            d = loads(piece)
         except Exception:  # refused: the whole-file parse decides and words the error
             raise NotChunkable("a piece is refused") from None
+        del piece
         if k == 0:
             if "item" in d:
                 raise NotChunkable("the head defines item")
