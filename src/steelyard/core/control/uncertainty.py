@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from steelyard.core.errors import SteelyardError, item_subject, said
-from steelyard.core.document.model import Ledger
+from steelyard.core.document.model import Ledger, rows_with
 from steelyard.core.units import parse_number, to_si
 
 KINDS = ("sigma", "bound")
@@ -83,7 +83,9 @@ def parse_tolerances(ledger: Ledger) -> tuple[np.ndarray, np.ndarray, np.ndarray
     mass_sigma, mass_bound = np.zeros(n), np.zeros(n)
     cg_sigma, cg_bound = np.zeros((n, 3)), np.zeros((n, 3))
     units = ledger.units
-    for i, item in enumerate(ledger.items):
+    items = ledger.items
+    for i in rows_with(items, "tolerance"):
+        item = items[i]
         tol = item.tolerance
         if tol is None:
             continue

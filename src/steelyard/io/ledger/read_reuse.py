@@ -45,6 +45,15 @@ def tables_of(piece: str) -> list[str] | None:
     return keys
 
 
+def _pick(xs: list, rows: np.ndarray) -> list:
+    """xs[i] for i in rows, at C speed."""
+    rows = rows.tolist()
+    if not rows:
+        return []
+    got = operator.itemgetter(*rows)(xs)
+    return list(got) if len(rows) > 1 else [got]
+
+
 def _whole(keys: list[str]) -> list[bool]:
     """Per table: no other table header inside, so its text is the item and nothing else."""
     return list(map(operator.not_, map(operator.contains, keys, repeat(_OTHER_TABLE))))
@@ -60,13 +69,16 @@ class _Earlier:
     arrays: ItemArrays
     own_at: np.ndarray  # (n,) index into arrays' sparse own values, -1 where none
     bare: np.ndarray  # (n,) bool: the row gives an inertia component as a bare number
-    _rows: dict[str, int] | None = None
+    _rows: dict[int, int] | None = None
 
     @property
-    def rows(self) -> dict[str, int]:
-        """table text -> row, made when a later reading first asks"""
+    def rows(self) -> dict[int, int]:
+        """hash of a table's text -> row, made when a later reading first asks (a hit is then
+        compared text to text: equal hashes alone decide nothing)"""
         if self._rows is None:
-            self._rows = {k: i for i, (k, w) in enumerate(zip(self.keys, self.whole)) if w}
+            keys = self.keys if all(self.whole) else [k for k, w in zip(self.keys, self.whole) if w]
+            rows = range(len(keys)) if all(self.whole) else [i for i, w in enumerate(self.whole) if w]
+            self._rows = dict(zip(map(hash, reversed(keys)), reversed(rows)))  # the first row of a text wins
         return self._rows
 
 
@@ -113,20 +125,28 @@ class _Reading:
         if keys is None:
             self.bad = True
             return text
-        whole = _whole(keys)
+        m = len(keys)
+        # each "\n[" a table boundary: every table is an item alone (one count, not one search per table)
+        whole = [True] * m if text.count("\n[") == m - 1 else _whole(keys)
         self.keys.extend(keys)
         self.whole.extend(whole)
         e = self.earlier
         if e is None:
-            self.code.extend(repeat(-1, len(keys)))
+            self.code.extend(repeat(-1, m))
             return text
-        got = list(map(e.rows.get, keys, repeat(-1)))
-        got = [g if w else -1 for g, w in zip(got, whole)] if not all(whole) else got
+        got = np.fromiter(map(e.rows.get, map(hash, keys), repeat(-1)), np.intp, m)
+        at = np.flatnonzero(got >= 0)
+        if len(at):
+            equal = np.fromiter(map(operator.eq, _pick(keys, at), _pick(e.keys, got[at])), bool, len(at))
+            got[at[~equal]] = -1
+        if not all(whole):
+            got[~np.array(whole, dtype=bool)] = -1
+        got = got.tolist()
         self.code.extend(got)
         missed = got.count(-1)
         if not missed:
             return ""
-        if missed == len(got):
+        if missed == m:
             return text
         return "\n".join([HEADER + k for k, g in zip(keys, got) if g == -1])
 
