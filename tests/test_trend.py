@@ -378,3 +378,38 @@ async def test_the_editor_shows_the_history(repo):
         await pilot.press("escape")
         await pilot.pause()
         assert not isinstance(app.screen, TrendScreen)
+
+
+def test_versions_read_in_pieces_through_one_memory_are_each_by_hand(repo, monkeypatch):
+    # every text cut every few items, so each version takes its unchanged item tables from the one before
+    # (io.ledger.read_reuse); each point still matches its revision by hand, and the run without reuse
+    from steelyard.io.ledger import read_reuse, toml_chunks
+    from steelyard.io.vcs.ledger_at import trend_of
+
+    monkeypatch.setattr(toml_chunks, "CHUNK_CHARS", 200)
+    here = os.getcwd()
+    os.chdir(repo)
+    try:
+        taken: list[int] = []
+        assemble = read_reuse._Reading.assemble
+
+        def counted(self, items, arrays):
+            got = assemble(self, items, arrays)
+            taken.append(self.memory.reused)
+            return got
+
+        monkeypatch.setattr(read_reuse._Reading, "assemble", counted)
+        reused = trend_of("f.toml")
+        monkeypatch.setattr(read_reuse.ReadMemory, "start",
+                            lambda self, head, fast: read_reuse._Reading(self, head, fast, None))
+        fresh = trend_of("f.toml")
+    finally:
+        os.chdir(here)
+    assert any(taken)  # some version took tables from the one before it
+    assert reused == fresh
+    for p in reused.points:
+        if p.figures is None:
+            continue
+        f = p.figures
+        check_point({"mass_kg": f.mass_kg, "cg_m": list(f.cg_m), "predicted_kg": f.predicted_kg,
+                     "allocation_kg": f.allocation_kg, "margin_kg": f.margin_kg}, git(repo, "show", f"{p.rev}:f.toml"))

@@ -126,7 +126,10 @@ def versions(history: FileHistory, commits: list[Commit]) -> Iterator[Version]:
     Each version's `load` parses its bytes (the trend calls it once per blob);
     a commit that deleted the file has a version whose `load` says so.
     """
+    from steelyard.io.ledger.read_reuse import ReadMemory
+
     batch = BlobBatch(history.root, file=history.spec)
+    memory = ReadMemory()  # one commit's unchanged item tables are not parsed again for the next
     for commit, blob in zip(commits, batch.read([f"{c.rev}:{history.name}" for c in commits])):
         label = f"{history.path}@{commit.rev[:SHORT]}"
         if blob.data is None:
@@ -137,7 +140,7 @@ def versions(history: FileHistory, commits: list[Commit]) -> Iterator[Version]:
             at = Revision(label, history.path, commit.rev, commit.rev, history.root, history.name)
             # a tree's figures also depend on the files it places: its text alone is no key to reuse them by
             key = f"{blob.oid}@{commit.rev}" if b"assembly" in blob.data else blob.oid
-            yield Version(commit.rev, commit.date, commit.subject, key, _reader(blob.data, label, at))
+            yield Version(commit.rev, commit.date, commit.subject, key, _reader(blob.data, label, at, memory))
 
 
 def _failing(label: str, why: str):
@@ -146,11 +149,11 @@ def _failing(label: str, why: str):
     return load
 
 
-def _reader(data: bytes, label: str, at: Revision):
+def _reader(data: bytes, label: str, at: Revision, memory=None):
     def load() -> Ledger:
         from steelyard.io.ledger.tree import RevisionSource
 
-        return ledger_from_bytes(data, source=label, tree_source=RevisionSource(at))[0]
+        return ledger_from_bytes(data, source=label, tree_source=RevisionSource(at), memory=memory)[0]
     return load
 
 
