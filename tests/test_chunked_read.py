@@ -108,6 +108,20 @@ def test_generated_ledger_same_in_pieces(tmp_path, capsys, monkeypatch, n, seed)
     assert cut == run_main(capsys, "rollup", "--json", path)
 
 
+def test_a_generated_snapshot_same_in_pieces(tmp_path, capsys):
+    # a snapshot marks each load item with `loaded = { capacity_kg, fill }`: those rows are set in bulk
+    path, snap = tmp_path / "gen.toml", tmp_path / "snap.toml"
+    make_ledger.write_ledger(path, 1500, seed=4)
+    code, _, err = run_main(capsys, "snapshot", path, "--loadout", "full", "-o", snap)
+    assert code == 0, err
+    text = snap.read_text(encoding="utf-8")
+    marked = [t for t in tomllib.loads(text)["item"] if "loaded" in t]
+    assert len(marked) > 20
+    got = ledger_from_text(text, source=str(snap), chunk_chars=4096)
+    _same_ledger(got, _whole(text, str(snap)))
+    assert [it.loaded for it in got.items if it.loaded is not None] == [t["loaded"] for t in marked]  # tomllib
+
+
 HEAD = 'steelyard = 1\n[units]\nmass = "kg"\n'
 ITEM = '[[item]]\nid = "{0}"\nmass = 1.0\ncg = [0, 0, 0]\n'
 

@@ -17,7 +17,7 @@ from operator import not_
 
 import numpy as np
 
-from steelyard.core.document.model import NO_UNITS, ItemArrays, items_from_columns, sparse_own
+from steelyard.core.document.model import NO_UNITS, ItemArrays, items_from_columns, items_replaced, sparse_own
 from steelyard.core.errors import SteelyardError
 from steelyard.core.physics.groups import group_depth_problem
 from steelyard.core.physics.inertia import realisability_problems, tensor_from_six
@@ -27,6 +27,8 @@ from steelyard.core.units import unit_factor
 #: keys every row may have on this path; rows with others are read one at a time (still here)
 _PLAIN = frozenset({"id", "name", "group", "mass", "cg", "quantity", "variable", "inertia"})
 _NUMBERS = {float, int}
+_LOADED = {"loaded"}
+_SCALARS = frozenset({float, int, str, bool})
 
 
 def _column(raw: list, key: str, default=None) -> list:
@@ -95,12 +97,30 @@ def _read(reader) -> tuple[list, ItemArrays] | None:
     columns = {"id": ids, "mass": mass.tolist(), "cg": list(map(tuple, cg.tolist())), "name": names,
                "group": groups, "quantity": qs, "inertia": inertia, "variable": var}
     items = items_from_columns(n, columns, given_units=NO_UNITS)
+    odd = _marked(raw, odd, items)
     for i in odd:
         items[i] = _odd_row(reader, i, items[i], own)
     seen.update(zip(ids, range(len(seen), len(seen) + n)))
     cg = np.asfortranarray(cg)
     rows, values = sparse_own(own)
     return items, ItemArrays.sparse(mass, quantity, cg, np.array(var, dtype=bool), rows, values)
+
+
+def _marked(raw: list, odd: list[int], items: list) -> list[int]:
+    """The odd rows left after those whose only key beyond the plain ones is a snapshot's `loaded`
+    marker, a table of plain values (type-checked here as `ItemsReader._more` does; its meaning is
+    checked in core.history.diff): those are set in bulk. A snapshot marks every load item so."""
+    rows = [i for i in odd if raw[i].keys() - _PLAIN == _LOADED]
+    marks = [raw[i]["loaded"] for i in rows]
+    ok = [type(v) is dict and _SCALARS.issuperset(map(type, v.values())) for v in marks]
+    rows = list(compress(rows, ok))
+    if not rows:
+        return odd
+    marks = list(compress(marks, ok))
+    for i, item in zip(rows, items_replaced([items[i] for i in rows], {"loaded": marks})):
+        items[i] = item
+    done = set(rows)
+    return [i for i in odd if i not in done]
 
 
 def _inertia(reader, tables: list, rows: list, own: np.ndarray) -> list | None:
