@@ -253,3 +253,23 @@ def test_diff_of_two_snapshots_from_the_cli_is_the_fresh_diff(generated, tmp_pat
     assert out == plain
     record = json.loads(out)
     assert set(record["added"]) == set(_ids(b_text)) - set(_ids(generated))
+
+
+@pytest.mark.parametrize("bad", ['{ capacity_kg = "ten", fill = 1.0 }', "{ capacity_kg = 10.0 }",
+                                 "{ capacity_kg = nan, fill = 1.0 }", "{ capacity_kg = true, fill = 1.0 }",
+                                 "{ capacity_kg = 10.0, fill = inf }"])
+def test_every_snapshot_marker_is_checked_whichever_rows_are_compared(tmp_path, capsys, bad):
+    # a side's load-item markers are checked in bulk; one bad marker among many is still refused by name
+    path, snap = tmp_path / "gen.toml", tmp_path / "snap.toml"
+    path.write_text(make_ledger.ledger_text(300, seed=8))
+    code, _, err = run_main(capsys, "snapshot", path, "--loadout", "full", "-o", snap)
+    assert code == 0, err
+    text = snap.read_text()
+    marks = list(re.finditer(r"(?m)^loaded = (\{.*\})$", text))
+    assert len(marks) > 5
+    last = marks[-1]
+    item_id = re.findall(r'(?m)^id = "([^"]+)"$', text[:last.start()])[-1]
+    ledger = _read(text[:last.start(1)] + bad + text[last.end(1):], source=str(snap))
+    with pytest.raises(SteelyardError) as exc:
+        carried(ledger)
+    assert item_id in str(exc.value) and "capacity_kg" in str(exc.value)

@@ -36,7 +36,7 @@ from steelyard.core.history.diff_tables import (DefinitionChanges, TableChanges,
 from steelyard.core.history.diff_text import change_rows
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.loading.loadout import fill_fractions, state_from_fill
-from steelyard.core.document.model import ITEM_MORE, Ledger
+from steelyard.core.document.model import ITEM_MORE, Ledger, rows_with
 from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
 from steelyard.core.limits.status import EnvelopeResult, envelope_results
 
@@ -153,6 +153,32 @@ def _loaded_marker(item_id: str, raw: object) -> tuple[float, float]:
     return float(raw["capacity_kg"]), float(raw["fill"])
 
 
+def _markers(items, capacity: np.ndarray, variable: np.ndarray) -> None:
+    """A snapshot's load items, from their markers: capacity and `variable` set in place.
+
+    Every marker is checked: in bulk when each is a table of two finite numbers, else one at a
+    time, so the first bad one is named as `_loaded_marker` words it."""
+    rows = rows_with(items, LOADED_KEY)
+    marks = [getattr(items[i], LOADED_KEY) for i in rows]
+    if all(type(m) is dict for m in marks):
+        caps = [m.get("capacity_kg") for m in marks]
+        fills = [m.get("fill") for m in marks]
+        if {float, int}.issuperset(map(type, caps)) and {float, int}.issuperset(map(type, fills)):
+            try:
+                c, f = np.array(caps, dtype=float), np.array(fills, dtype=float)
+            except OverflowError:  # an integer beyond a float: the loop below names it
+                c = f = np.array([np.inf])
+            if np.isfinite(c).all() and np.isfinite(f).all():
+                capacity[rows] = c
+                variable[rows] = True
+                return
+    for i, m in zip(rows, marks):
+        if m is False:
+            continue
+        capacity[i], _ = _loaded_marker(items[i].id, m)
+        variable[i] = True
+
+
 def _pick(xs: list, rows: list[int]) -> list:
     """xs[i] for i in rows, at C speed."""
     if not rows:
@@ -189,10 +215,7 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     variable = a.variable.copy()
     capacity = np.where(variable, a.unit_mass * a.quantity, np.nan)
     if is_snapshot(ledger):  # every marker is checked here, whichever rows are compared later
-        marks = list(map(operator.attrgetter(LOADED_KEY), items))
-        for i in [i for i, v in enumerate(marks) if v is not None and v is not False]:
-            capacity[i], _ = _loaded_marker(items[i].id, marks[i])
-            variable[i] = True
+        _markers(items, capacity, variable)
     mp = rollup_state(state)
     check_finite_rollup(mp, items)  # a side beyond a float is refused naming the item, before any arithmetic
     return Carried(ledger, loadout, a.quantity, a.unit_mass * fill, a.cg, variable, capacity, mp, state.mass,

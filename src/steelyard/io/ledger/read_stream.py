@@ -112,10 +112,11 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
             memory.earlier = None
             raise toml_chunks.NotChunkable("the item tables did not line up with the rows")
         items, arrays, bare = got
-        seen = dict(zip(map(attrgetter("id"), items), range(len(items))))
-        if len(seen) != len(items):
-            memory.earlier = None
-            raise toml_chunks.NotChunkable("a repeated id: the fresh reading words it")
+        if memory.reused:  # rows taken from the earlier reading: the index is made anew, a repeat refused
+            seen = dict(zip(map(attrgetter("id"), items), range(len(items))))
+            if len(seen) != len(items):
+                memory.earlier = None
+                raise toml_chunks.NotChunkable("a repeated id: the fresh reading words it")
         reading.remember(items, arrays)
     return _ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source,
                              read_items=(items, arrays, bare, seen))  # seen: id -> row, the index
