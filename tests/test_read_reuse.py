@@ -196,6 +196,28 @@ def test_rows_with_names_the_rows_a_plain_loop_names(generated):
     assert rows_with(items, "variable", unset=False) == [i for i, it in enumerate(items) if it.variable is not False]
 
 
+
+def test_more_rows_are_the_rows_a_plain_loop_names_and_follow_an_edit(tmp_path):
+    # the rows whose Item gives a key beyond v1, against a loop over the fixture's items; after a one-row
+    # edit the kept list equals one made afresh for the new ledger
+    from dataclasses import replace as with_fields
+
+    from steelyard.core.document.model import ITEM_MORE, more_rows
+
+    path = FIXTURES / "weighing-example.toml"
+    ledger = _read(path.read_text(), source=str(path))
+    plain = [i for i, it in enumerate(ledger.items)
+             if any(getattr(it, k) not in (None, False) for k in ITEM_MORE)]
+    assert more_rows(ledger) == plain and plain  # this fixture gives maturity and tolerances
+    for row, change in ((plain[0], dict(maturity=None, growth=None, tolerance=None, user=None, cg_table=None,
+                                        loaded=None, removable=False)),
+                        (next(i for i in range(len(ledger.items)) if i not in plain), dict(maturity="estimated"))):
+        edited = ledger.with_item(with_fields(ledger.items[row], **change))
+        fresh = with_fields(edited)  # the same ledger, no caches
+        assert edited.__dict__["_more_rows"] == more_rows(fresh) == [
+            i for i, it in enumerate(edited.items) if any(getattr(it, k) not in (None, False) for k in ITEM_MORE)]
+
+
 # ---------------------------------------------------------------------------------------------- the diff
 
 

@@ -13,7 +13,7 @@ from __future__ import annotations
 from steelyard.core.assembly.checked import own_part, own_rows, seed_tables, top_records
 from steelyard.core.control.growth import allocations, growth_fractions
 from steelyard.core.control.uncertainty import parse_tolerances
-from steelyard.core.document.model import Ledger, rows_with
+from steelyard.core.document.model import Ledger, more_rows, rows_with
 from steelyard.core.limits.rules import envelope_specs, fuel_rows, limit_specs, mac_reference
 from steelyard.core.loading.loadout import fill_fractions, is_removable, loadout_condition
 from steelyard.core.loading.tank import tank_tables
@@ -32,7 +32,7 @@ def validate_document(ledger: Ledger) -> None:
     if records:
         rows = own_rows(ledger, records)
         own = own_part(ledger, rows)
-    for i in rows_with(own.items, "removable", unset=False):
+    for i in rows_with(own.items, "removable", unset=False, among=more_rows(own)):
         if own.items[i].removable:
             is_removable(own.items[i])
     for lo in ledger.loadouts:

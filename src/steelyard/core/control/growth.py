@@ -28,7 +28,7 @@ from types import MappingProxyType
 import numpy as np
 
 from steelyard.core.errors import SteelyardError, UnitError, item_subject
-from steelyard.core.document.model import Ledger, rows_with
+from steelyard.core.document.model import Ledger, more_rows, rows_with
 from steelyard.core.units import parse_quantity, to_si
 
 #: Maturity categories, least to most mature.
@@ -91,7 +91,7 @@ def growth_fractions(ledger: Ledger) -> np.ndarray:
     table = growth_table(ledger)
     out = np.zeros(len(ledger.items))
     items = ledger.items
-    for i in rows_with(items, "maturity", "growth"):
+    for i in rows_with(items, "maturity", "growth", among=more_rows(ledger)):
         item = items[i]
         if item.maturity is None and item.growth is None:
             continue

@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from steelyard.core.errors import SteelyardError, item_subject, said
-from steelyard.core.document.model import Ledger, rows_with
+from steelyard.core.document.model import Ledger, more_rows, rows_with
 from steelyard.core.units import parse_number, to_si
 
 KINDS = ("sigma", "bound")
@@ -84,7 +84,7 @@ def parse_tolerances(ledger: Ledger) -> tuple[np.ndarray, np.ndarray, np.ndarray
     cg_sigma, cg_bound = np.zeros((n, 3)), np.zeros((n, 3))
     units = ledger.units
     items = ledger.items
-    for i in rows_with(items, "tolerance"):
+    for i in rows_with(items, "tolerance", among=more_rows(ledger)):
         item = items[i]
         tol = item.tolerance
         if tol is None:

@@ -176,11 +176,16 @@ def items_replaced(items: Sequence[Item], columns: Mapping[str, Iterable], **sam
                                   for name in ITEM_FIELDS})
 
 
-def rows_with(items: Sequence[Item], *names: str, unset: object = None) -> list[int]:
+def rows_with(items: Sequence[Item], *names: str, unset: object = None,
+              among: Sequence[int] | None = None) -> list[int]:
     """Rows whose Item gives any of the fields `names` (a value that is not `unset`), ascending: one C
-    pass per field, so a check that concerns a few items of 100,000 loops over those few only."""
+    pass per field, so a check that concerns a few items of 100,000 loops over those few only.
+    `among`: the rows that can (`more_rows`), ascending; only those are looked at."""
     from operator import attrgetter, is_not
 
+    if among is not None:
+        get = [attrgetter(name) for name in names]
+        return [i for i in among if any(g(items[i]) is not unset for g in get)]
     n = len(items)
     if n == 0:
         return []
@@ -188,6 +193,20 @@ def rows_with(items: Sequence[Item], *names: str, unset: object = None) -> list[
     for name in names:
         hit |= np.fromiter(map(is_not, map(attrgetter(name), items), repeat(unset)), bool, n)
     return np.flatnonzero(hit).tolist()
+
+
+def more_rows(ledger: "Ledger") -> list[int]:
+    """Rows whose Item gives any key beyond v1 (ITEM_MORE), ascending; one pass, kept with the ledger
+    (immutable: an edit makes a new one). The checks of those keys loop over these rows only."""
+    cached = ledger.__dict__.get("_more_rows")
+    if cached is None:
+        from operator import attrgetter, ne
+
+        items = ledger.items
+        unset = tuple(False if k == "removable" else None for k in ITEM_MORE)
+        flags = np.fromiter(map(ne, map(attrgetter(*ITEM_MORE), items), repeat(unset)), bool, len(items))
+        cached = ledger.__dict__["_more_rows"] = np.flatnonzero(flags).tolist()
+    return cached
 
 
 def item_with(item: Item, **changes) -> Item:
@@ -478,3 +497,21 @@ def with_arrays(ledger: Ledger, arrays: ItemArrays) -> Ledger:
     """Attach columns built elsewhere (the loader builds them in bulk)."""
     ledger.__dict__["arrays"] = arrays
     return ledger
+
+
+def _carry_more_rows(old: Ledger, new: Ledger, row: int) -> None:
+    """After a one-row edit: `more_rows` of the old ledger with that row looked at again."""
+    cached = old.__dict__.get("_more_rows")
+    if cached is None:
+        return
+    from bisect import insort
+    from operator import attrgetter
+
+    rows = [r for r in cached if r != row]
+    unset = tuple(False if k == "removable" else None for k in ITEM_MORE)
+    if attrgetter(*ITEM_MORE)(new.items[row]) != unset:
+        insort(rows, row)
+    new.__dict__["_more_rows"] = rows
+
+
+ROW_CACHES.append(_carry_more_rows)

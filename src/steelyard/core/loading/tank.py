@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from steelyard.core.errors import SteelyardError, item_subject, said
-from steelyard.core.document.model import ROW_CACHES, Ledger, rows_with
+from steelyard.core.document.model import ROW_CACHES, Ledger, more_rows, rows_with
 from steelyard.core.units import field_to_si
 
 KEY = "cg_table"
@@ -96,7 +96,7 @@ def tank_tables(ledger: Ledger) -> dict[int, TankTable]:
     """Every item's CG table, by item index; read once per ledger and kept with it."""
     cached = ledger.__dict__.get("_tank_tables")
     if cached is None:
-        cached = {i: read_table(ledger, i) for i in rows_with(ledger.items, "cg_table")}
+        cached = {i: read_table(ledger, i) for i in rows_with(ledger.items, "cg_table", among=more_rows(ledger))}
         ledger.__dict__["_tank_tables"] = cached  # a ledger is immutable; an edit makes a new one
     return cached
 
