@@ -20,6 +20,7 @@ import re
 import sys
 import unicodedata
 from dataclasses import dataclass, field
+from itertools import repeat
 
 _BOLD, _ITALIC, _RESET = "\x1b[1m", "\x1b[3m", "\x1b[0m"
 _SGR = {"bold": _BOLD, "italic": _ITALIC}
@@ -202,10 +203,45 @@ def _fit(text: str, width: int, col: Column) -> str:
     return text.rjust(width) if col.justify == "right" else text.ljust(width)
 
 
+def _one_cell_each(texts) -> bool:
+    """True when every text is printable ASCII: one cell a character, measured by len."""
+    joined = "".join(texts)
+    return joined.isascii() and joined.isprintable()
+
+
+def _widest(texts) -> int | None:
+    """Cells of the widest text; None when one is not measured here."""
+    if _one_cell_each(texts):
+        return max(map(len, texts))
+    lengths = [cell_len(x) for x in texts]
+    return None if None in lengths else max(lengths)
+
+
+def _columns(t: Table) -> tuple[list[list[str]], list[list[str | None] | None]] | None:
+    """Per column: the cells' texts, and their styles (None for a column without any);
+    None when a row has not one cell per column."""
+    n = len(t.columns)
+    if any(len(row) != n for row in t.rows):
+        return None
+    texts, styles = [], []
+    for col in (zip(*t.rows) if t.rows else [()] * n):
+        if all(map(isinstance, col, repeat(str))):
+            texts.append(list(col))
+            styles.append(None)
+        else:
+            pairs = list(map(_text, col))
+            texts.append([p[0] for p in pairs])
+            styles.append([p[1] for p in pairs])
+    return texts, styles
+
+
 def render_table(t: Table, max_width: int, styled) -> str | None:
     """The table as rich draws it, when every cell fits on one line; else None."""
     n = len(t.columns)
-    texts = [[_text(c) for c in row] for row in t.rows]
+    got = _columns(t)
+    if got is None:
+        return None
+    texts, styles = got
     pads = [(0 if (not t.pad_edge and i == 0) else 1, 0 if (not t.pad_edge and i == n - 1) else 1)
             for i in range(n)]
     extra = 2 + n - 1  # the edges and the dividers
@@ -213,33 +249,30 @@ def render_table(t: Table, max_width: int, styled) -> str | None:
     widths = []
     for i, col in enumerate(t.columns):
         pad = sum(pads[i])
+        widest = _widest([col.header, *texts[i]])
+        if widest is None:
+            return None
         if col.width is not None:
             w = col.width + pad
         else:
-            lengths = [cell_len(col.header)] + [cell_len(row[i][0]) for row in texts]
-            if any(x is None for x in lengths):
-                return None
-            w = max(lengths) + pad
+            w = widest + pad
             if col.min_width is not None:
                 w = max(w, col.min_width + pad)
         widths.append(min(w, inner))
     if sum(widths) > inner or any(w - sum(p) < 1 for w, p in zip(widths, pads)):
         return None  # rich would shrink and wrap columns: leave it to rich
-    for i, col in enumerate(t.columns):
-        if col.width is not None and any(cell_len(text) is None for text in
-                                         [col.header, *(row[i][0] for row in texts)]):
-            return None
     table_width = sum(widths) + extra
     title = wrap(t.title, table_width, pad=True) if t.title else []
     if title is None:
         return None
     top, head, rule, body, bottom = _BOXES[t.box]
+    spaces = [w - left - right for w, (left, right) in zip(widths, pads)]
 
     def line(cells, verticals, style_all=None) -> str:
         parts = [verticals[0]]
         for i, (text, style) in enumerate(cells):
             left, right = pads[i]
-            body_text = " " * left + _fit(text, widths[i] - left - right, t.columns[i]) + " " * right
+            body_text = " " * left + _fit(text, spaces[i], t.columns[i]) + " " * right
             parts.append(styled(body_text, style_all or style))
             parts.append(verticals[1] if i < n - 1 else verticals[2])
         return "".join(parts)
@@ -251,9 +284,33 @@ def render_table(t: Table, max_width: int, styled) -> str | None:
     out.append(edge(top))
     out.append(line([(c.header, None) for c in t.columns], head, "bold"))
     out.append(edge(rule))
-    out.extend(line(row, body) for row in texts)
+    out.extend(_body(t, texts, styles, pads, spaces, body, line))
     out.append(edge(bottom))
     return "\n".join(out) + "\n"
+
+
+def _body(t: Table, texts, styles, pads, spaces, verticals, line) -> list[str]:
+    """The body rows: one format string for the rows without a style (cells cut to their
+    column first), `line` for the others."""
+    n = len(t.columns)
+    cut = [[x if len(x) <= w else x[:w - 1] + "…" for x in col] if max(map(len, col), default=0) > w else col
+           for col, w in zip(texts, spaces)]
+    fmt = verticals[0] + "".join(
+        " " * left + "{:" + (">" if c.justify == "right" else "<") + str(w) + "}" + " " * right
+        + (verticals[1] if i < n - 1 else verticals[2])
+        for i, (c, (left, right), w) in enumerate(zip(t.columns, pads, spaces)))
+    rows = list(zip(*cut))
+    marked = [col for col in styles if col is not None]
+    if not marked:
+        return [fmt.format(*row) for row in rows]
+    out = []
+    for k, row in enumerate(rows):
+        if any(col[k] for col in marked):
+            out.append(line([(texts[i][k], None if styles[i] is None else styles[i][k]) for i in range(n)],
+                            verticals))
+        else:
+            out.append(fmt.format(*row))
+    return out
 
 
 def _to_rich(t: Table):

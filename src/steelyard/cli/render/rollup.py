@@ -8,6 +8,8 @@ uncertainty) are still rich's, imported only for a ledger that has them.
 
 from __future__ import annotations
 
+from operator import attrgetter
+
 import numpy as np
 
 from steelyard.cli.render.plain import Out, Table
@@ -76,17 +78,23 @@ def print_rollup(loaded, state, mp, system: str | None, out: Out | None = None) 
             pt.add_row(shown[k], *column([float(v) for v in axes[k]], "fraction"), rgs[k])
         console.table(pt)
 
-    groups = [g for g in ledger.items]
-    st = subtotals([g.group for g in groups], state.mass, state.cg, state.own)
+    groups = ledger.items
+    st = subtotals(list(map(attrgetter("group"), groups)), state.mass, state.cg, state.own_sparse())
     if st:
         ws = Table(title="Weight statement by group", box="simple_head", pad_edge=False)
         wide = console.width >= 100  # item count and share only where they fit
         heads = (*(("items",) if wide else ()), f"mass [{mu}]", *(("%",) if wide else ()),
                  *(f"{a} [{lu}]" for a in AXIS_NAMES), f"moment [{pretty_unit(du.moment)}]")
         # each column one count of decimals, the total row included; x, y, z at one resolution
-        masses = [du.m(g.mass) for g in st] + [du.m(mp.mass)]
-        cgs = [[du.l(g.cg[k]) for g in st] + [du.l(mp.cg[k])] for k in range(3)]
-        moms = [du.mom(g.mass * g.cg[0]) if g.mass else 0.0 for g in st] + [du.mom(mp.mass * mp.cg[0])]
+        # whole columns at once: the same IEEE divisions as du.m, du.l and du.mom value by value
+        gm = np.array([g.mass for g in st] + [mp.mass])
+        gc = np.array([g.cg for g in st] + [mp.cg], dtype=float)
+        masses = (gm / fm).tolist()
+        cgs = [(gc[:, k] / fl).tolist() for k in range(3)]
+        with np.errstate(invalid="ignore"):  # a group without mass has no CG: its moment shows 0
+            moms = np.where(gm != 0, gm * gc[:, 0] / fmo, 0.0)
+        moms[-1] = du.mom(mp.mass * mp.cg[0])  # the total row as before, whatever its mass
+        moms = moms.tolist()
         dcg = column_decimals([v for c in cgs for v in c], "length", fl)
         cols = [column(masses, "mass", fm), *(column(c, "length", fl, dcg) for c in cgs),
                 column(moms, "moment", fmo)]

@@ -2,7 +2,9 @@
 
 Groups are "/" paths ("power/storage"); an item counts towards every prefix
 ("power" and "power/storage"). Sums run through `np.bincount`, so the cost is
-a few array passes whatever the number of groups. Paths are split once and
+a few array passes whatever the number of groups; a group's sums add its rows
+in file order (a figure does not depend on how groups are numbered, and own
+tensors are added only for the rows that have one). Paths are split once and
 their prefixes found part by part in a tree (parent, part), so the work is
 linear in the total length of the paths; a depth limit keeps the printed
 statement (one line per prefix) from growing with the square of a hostile depth.
@@ -86,41 +88,70 @@ def _tree_order(parent: list[int], part: list[str]) -> list[tuple[int, str, int]
     return out
 
 
-def subtotals(groups: list[str], mass: np.ndarray, cg: np.ndarray, own: np.ndarray) -> list[GroupTotal]:
-    """Subtotals for every group path, sorted as a tree (parents before children)."""
+def _expand(codes: np.ndarray, lengths: np.ndarray, starts: np.ndarray, flat: np.ndarray):
+    """(row, node) pairs: every row once per prefix of its path, rows in order, each row's
+    prefixes root first. The sums below run through these pairs in this order."""
+    rep = lengths[codes]
+    if rep.size and int(rep.max()) == 1:  # every path one level deep: one pair per row
+        return np.arange(codes.size), flat[starts[codes]]
+    rows = np.repeat(np.arange(codes.size), rep)
+    ends = np.cumsum(rep)
+    offs = np.arange(rows.size) - np.repeat(ends - rep, rep)
+    return rows, flat[np.repeat(starts[codes], rep) + offs]
+
+
+def subtotals(groups: list[str], mass: np.ndarray, cg: np.ndarray, own) -> list[GroupTotal]:
+    """Subtotals for every group path, sorted as a tree (parents before children).
+
+    `own`: the rows' own tensors, dense (n, 3, 3) or sparse (rows ascending, (k, 3, 3) tensors):
+    only the rows that have one are added up."""
     n = len(groups)
     if n == 0:
         return []
-    code_of: dict[str, int] = {}
-    codes = np.fromiter((code_of.setdefault(g, len(code_of)) for g in groups), np.int64, n)
-    chains, parent, part = _tree(list(code_of))  # dicts keep insertion order: code k is the k-th key
+    first: dict[str, int] = {}  # distinct path -> its first row, in order of appearance (one dict pass)
+    seen = np.fromiter(map(first.setdefault, groups, range(n)), np.intp, n)
+    dense = np.empty(n, dtype=np.intp)
+    dense[list(first.values())] = np.arange(len(first))
+    codes = dense[seen]  # code k: the k-th distinct path
+    chains, parent, part = _tree(list(first))
     lengths = np.array([len(c) for c in chains])
-    flat = np.concatenate([np.array(c, dtype=np.int64) for c in chains])
+    flat = np.concatenate([np.array(c, dtype=np.intp) for c in chains])
     starts = np.concatenate([[0], np.cumsum(lengths)[:-1]])
-    # expand: every row once per prefix of its group
-    rep = lengths[codes]
-    rows = np.repeat(np.arange(n), rep)
-    offs = np.arange(rows.size) - np.repeat(np.cumsum(rep) - rep, rep)
-    cols = flat[starts[codes][rows] + offs]
+    rows, cols = _expand(codes, lengths, starts, flat)
     g = len(parent)
     m = mass[rows]
+    r = [cg[:, k][rows] for k in range(3)]
     with np.errstate(under="ignore"):  # denormal masses: products underflow towards 0, which is right
         big_m = np.bincount(cols, m, g)
         safe = np.where(big_m > 0, big_m, 1.0)
-        c = np.stack([np.bincount(cols, m * cg[rows, k], g) for k in range(3)], axis=1) / safe[:, None]
-        d = cg[rows] - c[cols]
-        c = c + np.stack([np.bincount(cols, m * d[:, k], g) for k in range(3)], axis=1) / safe[:, None]
-        d = cg[rows] - c[cols]
+        c = [np.bincount(cols, m * r[k], g) / safe for k in range(3)]  # the mean, then the mean of the rest
+        c = [c[k] + np.bincount(cols, m * (r[k] - c[k][cols]), g) / safe for k in range(3)]
+        d = [r[k] - c[k][cols] for k in range(3)]
         s = np.empty((g, 3, 3))
-        o = np.empty((g, 3, 3))
-        own_rows = own[rows]
         for j in range(3):
+            md = m * d[j]
             for k in range(j, 3):
-                s[:, j, k] = s[:, k, j] = np.bincount(cols, m * d[:, j] * d[:, k], g)
-                o[:, j, k] = o[:, k, j] = np.bincount(cols, own_rows[:, j, k], g)
+                s[:, j, k] = s[:, k, j] = np.bincount(cols, md * d[k], g)
+        o = _own_sums(codes, own, lengths, starts, flat, g)
         tr = np.trace(s, axis1=1, axis2=2)
         inertia = o + tr[:, None, None] * np.eye(3) - s
     count = np.bincount(cols, None, g).astype(int)
+    c = np.stack(c, axis=1)
     c[big_m <= 0] = np.nan
     return [GroupTotal(path, depth, int(count[k]), float(big_m[k]), c[k], inertia[k])
             for k, path, depth in _tree_order(parent, part)]
+
+
+def _own_sums(codes, own, lengths, starts, flat, g: int) -> np.ndarray:
+    """(g, 3, 3) sums of the own tensors per node, over the rows that have one, in row order."""
+    if isinstance(own, tuple):
+        at, values = np.asarray(own[0], dtype=np.intp), np.asarray(own[1], dtype=float).reshape(-1, 3, 3)
+        rows, cols = _expand(codes[at], lengths, starts, flat)
+    else:
+        values = own
+        rows, cols = _expand(codes, lengths, starts, flat)
+    o = np.empty((g, 3, 3))
+    for j in range(3):
+        for k in range(j, 3):
+            o[:, j, k] = o[:, k, j] = np.bincount(cols, values[:, j, k][rows], g)
+    return o

@@ -12,6 +12,9 @@ from __future__ import annotations
 
 import math
 
+from itertools import repeat
+from operator import attrgetter, is_
+
 import numpy as np
 
 from steelyard.core.limits.envelope import as_geometry
@@ -64,15 +67,20 @@ def growth_value(raw: object) -> float:
     return parse_quantity(raw, "dimensionless") if isinstance(raw, str) else float(raw)
 
 
+def _any_given(items, name: str) -> bool:
+    """True when some item's `name` is not None (a C-level pass: a roll-up asks this of every item)."""
+    return not all(map(is_, repeat(None), map(attrgetter(name), items)))
+
+
 def has_growth(ledger: Ledger) -> bool:
     """True when the ledger says anything about growth (a [growth] table or an item key)."""
     if ledger.growth is not None:
         return True
-    return any(it.maturity is not None or it.growth is not None for it in ledger.items)
+    return _any_given(ledger.items, "maturity") or _any_given(ledger.items, "growth")
 
 
 def has_tolerances(ledger: Ledger) -> bool:
-    return any(it.tolerance is not None for it in ledger.items)
+    return _any_given(ledger.items, "tolerance")
 
 
 def _block(basic, basic_cg, predicted, predicted_cg) -> dict:
@@ -143,9 +151,10 @@ def control_record(ledger: Ledger, state: State, *, samples: int = DEFAULT_SAMPL
     """
     out: dict = {}
     fractions = None
-    if has_growth(ledger) or ledger.allocations:
+    grows = has_growth(ledger)
+    if grows or ledger.allocations:
         fractions = growth_fractions(ledger)
-    if has_growth(ledger):
+    if grows:
         out["growth"] = growth_record(ledger, state, fractions)
     if ledger.allocations:
         out["allocations"] = allocation_margins(ledger, state.mass, fractions)

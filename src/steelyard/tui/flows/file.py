@@ -12,6 +12,8 @@ import asyncio
 import os
 import time
 
+from operator import attrgetter
+
 from textual import work
 
 from steelyard.core.errors import SteelyardError
@@ -23,6 +25,7 @@ from steelyard.io.ledger.demo import demo_path
 from steelyard.io.ledger.file import ChangedOnDisk, LoadedLedger, open_ledger
 from steelyard.tui.screens.confirm import ConfirmScreen
 from steelyard.tui.screens.loading_screen import LoadingScreen
+from steelyard.tui.widgets.ledger_table import widest_texts
 from steelyard.tui.widgets.log_view import when
 from steelyard.tui.messages import Loaded, LoadFailed, LoadProgress
 from steelyard.tui.screens.prompt import TextPrompt
@@ -35,7 +38,7 @@ def groups_of(ledger: Ledger, state) -> list:
     """Group subtotals from core (run in a worker thread for big ledgers)."""
     if state is None:
         return []
-    return subtotals([it.group for it in ledger.items], state.mass, state.cg, state.own)
+    return subtotals(list(map(attrgetter("group"), ledger.items)), state.mass, state.cg, state.own_sparse())
 
 
 #: from this many items the group subtotals are added up after the table's first paint, not before
@@ -83,6 +86,7 @@ class FileFlows:
             else:
                 loaded = read_ledger(str(demo_path()) if demo else path, progress)
                 ledger = loaded.ledger
+            widest_texts(ledger.items)  # the table's column widths, measured here rather than at its first layout
             if len(ledger.items) >= LATE_GROUPS:
                 groups = None  # after the first paint (on_loaded), in a worker
             else:
