@@ -52,7 +52,9 @@ def numbers(xs: list, factor: float) -> list[str]:
         c = np.fromiter(map(float, texts), float, n)
         av = np.abs(v)
         settled = (av >= _BULK_LO) & (av < _SHORT_HI) & (np.abs(a) >= _BULK_LO) & (c * factor == a)
-    out = list(map(repr, c.tolist()))
+    # t is repr(float(t)) (no shorter decimal reads as the same float, as any two decimals of <= 14
+    # digits lie further apart than an ulp), except that repr writes a whole number with ".0"
+    out = [t if "." in t or "e" in t else t + ".0" for t in texts]
     for i in np.flatnonzero(~settled).tolist():
         out[i] = number(xs[i], factor)
     return out
