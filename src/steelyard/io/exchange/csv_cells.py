@@ -163,7 +163,7 @@ def parse_cells(cells: list[str], decimal_comma: bool) -> tuple[np.ndarray, np.n
     Messages quote the cell as written.
     """
     n = len(cells)
-    blank = np.fromiter(map(operator.not_, cells), bool, n)
+    blank = np.fromiter(map(operator.not_, cells), bool, n) if "" in cells else np.zeros(n, bool)
     work = cells
     if decimal_comma:
         dot = next((k for k, c in enumerate(cells) if "." in c), None)
