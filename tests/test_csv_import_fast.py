@@ -214,3 +214,12 @@ def test_a_written_ledger_that_reads_back_different_is_refused(monkeypatch):
         read_csv("id,mass [kg],x [m],y [m],z [m]\na,1,0,0,0\nb,2.5,0,0,0\n", source="w.csv")
     msg = str(err.value)
     assert "line 3" in msg and "item 'b'" in msg and "column 'mass [kg]'" in msg and "2.6" in msg, msg
+
+
+@pytest.mark.parametrize("pad", [" ", "\t", "\u00a0", "\u2003", "\x1f"])
+def test_spaces_around_number_cells_are_dropped_as_str_strip_drops_them(pad):
+    # reference: str.strip (Python's definition of white space) then float()
+    cell = f"{pad}2.5{pad}"
+    led = read_csv(f"id,mass [kg],x [m],y [m],z [m]\na,{cell},1,0,0\nb,3,{pad}1{pad},0,0\n", source="s.csv").ledger
+    assert [it.mass for it in led.items] == [float(cell.strip()), 3.0]
+    assert led.items[1].cg == (float(f"{pad}1{pad}".strip()), 0.0, 0.0)

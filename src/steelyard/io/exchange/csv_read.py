@@ -33,6 +33,15 @@ def _sniff(first_line: str, decimal_comma: bool, source: str) -> str:
     return best
 
 
+#: the ASCII characters str.strip() removes (str.isspace)
+_ASCII_SPACE = " \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f"
+
+
+def _no_space(text: str) -> bool:
+    """Whether `text` holds no character str.strip() would remove: a column's cells are then as stripped."""
+    return text.isascii() and not any(c in text for c in _ASCII_SPACE)
+
+
 class CsvTable:
     """One CSV text: header, columns of cell strings, then typed, located values."""
 
@@ -66,7 +75,7 @@ class CsvTable:
                 # only a cell starting with an apostrophe can lose one (csv_cells.unprotect)
                 self.cols[key] = [unprotect(c) for c in col] if "'" in "".join(col) else list(col)
             else:
-                self.cols[key] = list(map(str.strip, col))
+                self.cols[key] = list(col) if _no_space("".join(col)) else list(map(str.strip, col))
 
     def _read_fast(self, text: str, sep: str) -> bool:
         """All records at once, when each is one physical line (line k+1 is record k); False otherwise."""
