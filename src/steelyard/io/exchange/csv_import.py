@@ -296,9 +296,11 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
     cols = _Columns(r, into, units)
     if into is None:
         ledger = Ledger(tuple(_new_items(r, cols)), units)
-        places = CsvPlaces(RowPlaces(r.lines, r.ids), r.labels)
+        ids = r.ids
+        places = CsvPlaces(RowPlaces(r.lines, ids), r.labels)
+        del r, cols  # the cells (millions of strings): freed before the write and read-back need the memory
         check_ledger(ledger, source, places)
-        return CsvImport(ledger, tuple(r.ids), (), (), places)
+        return CsvImport(ledger, tuple(ids), (), (), places)
     index = into.index
     items = list(into.items)
     added, replaced, same = [], [], []
