@@ -75,3 +75,31 @@ def test_random_values_give_the_same_text(rows, u):
 @given(st.lists(_FLOAT, max_size=20), st.sampled_from([1.0, 0.45359237, 0.0254, 1e-3, 14.593902937]))
 def test_numbers_are_number_of_each(xs, factor):
     assert numbers(xs, factor) == [number(x, factor) for x in xs]
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.tuples(st.integers(-10**9, 10**9), st.integers(-300, -3)), min_size=1, max_size=30),
+       st.sampled_from([0.45359237, 0.0254, 1e-3, 0.45359237 * 0.0254 ** 2, 14.593902937]))
+def test_small_typed_values_are_number_of_each(digits_exp, factor):
+    # values typed in the file's unit below 1e-3 (scientific notation): the column path settles them in
+    # bulk; `number` runs its full search (reference: that search, candidate by candidate)
+    xs = [float(f"{d}e{e}") * factor for d, e in digits_exp]
+    assert numbers(xs, factor) == [number(x, factor) for x in xs]
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.floats(allow_nan=False, allow_infinity=False).filter(lambda x: x != 0.0), min_size=1,
+                max_size=20),
+       st.sampled_from([0.45359237, 0.0254, 1e-3, 0.45359237 * 0.0254 ** 2, 14.593902937, 1e-9, 1e9]))
+def test_bulk_search_is_the_search_of_each(xs, factor):
+    # reference: `toml_write._search`, the candidate-by-candidate search, one value at a time
+    import numpy as np
+
+    from steelyard.io.ledger.toml_write import _search
+    from steelyard.io.ledger.write_items import searched
+
+    x = np.array(xs)
+    with np.errstate(all="ignore"):
+        v = x / factor
+    keep = np.isfinite(v)
+    assert searched(x[keep], v[keep], factor) == [_search(a, a / factor, factor) for a in x[keep].tolist()]

@@ -16,7 +16,9 @@
 from __future__ import annotations
 
 import math
+import operator
 import re
+from itertools import compress
 
 import numpy as np
 
@@ -129,6 +131,30 @@ def cell_problem(cell: str, decimal_comma: bool) -> str | None:
     return f"must be a bare number in ASCII digits, got {cell!r}{hint}"
 
 
+#: the characters of a column of number cells, one a line: any other character sends it to the pattern
+_NUMBER_BYTES = b"0123456789.+-eE\n"
+
+
+def _bare_floats(joined: str, work: list[str], blank: np.ndarray, n: int) -> np.ndarray | None:
+    """The column's values (NaN where blank) when its text, one cell a line, holds only the characters of
+    `NUMBER` and float() reads every cell; else None.
+
+    Over those characters, float() and `NUMBER` accept the same strings (float's other spellings need
+    an underscore, a letter, a space or a non-ASCII digit), and one C pass over the bytes rules the
+    rest out: no per-cell pattern match. `joined` must have `n` lines, so no cell holds a line break.
+    """
+    if not joined.isascii() or joined.encode("ascii").translate(None, _NUMBER_BYTES) or joined.count("\n") != n:
+        return None
+    try:
+        if not blank.any():
+            return np.fromiter(map(float, work), float, n)
+        vals = np.full(n, np.nan)
+        vals[~blank] = np.fromiter(map(float, compress(work, (~blank).tolist())), float)
+    except ValueError:  # "1e", "+", "1.2.3": the pattern refuses them too
+        return None
+    return vals
+
+
 def parse_cells(cells: list[str], decimal_comma: bool) -> tuple[np.ndarray, np.ndarray, int | None, str]:
     """(values, blank mask, first bad row or None, why) for a column of stripped cells.
 
@@ -137,7 +163,7 @@ def parse_cells(cells: list[str], decimal_comma: bool) -> tuple[np.ndarray, np.n
     Messages quote the cell as written.
     """
     n = len(cells)
-    blank = np.fromiter((c == "" for c in cells), bool, n)
+    blank = np.fromiter(map(operator.not_, cells), bool, n) if "" in cells else np.zeros(n, bool)
     work = cells
     if decimal_comma:
         dot = next((k for k, c in enumerate(cells) if "." in c), None)
@@ -145,11 +171,13 @@ def parse_cells(cells: list[str], decimal_comma: bool) -> tuple[np.ndarray, np.n
             return np.full(n, np.nan), blank, dot, cell_problem(cells[dot], True) or ""
         work = [c.replace(",", ".") for c in cells]
     joined = "\n".join(work) + "\n"
-    if joined.count("\n") != n or not _COLUMN.fullmatch(joined):
-        k = next(k for k, c in enumerate(cells) if "\n" in c or cell_problem(c, decimal_comma))
-        return np.full(n, np.nan), blank, k, (cell_problem(cells[k], decimal_comma)
-                                              or f"must be a bare number, got {cells[k]!r}")
-    vals = np.array([c or "nan" for c in work], dtype=float)
+    vals = _bare_floats(joined, work, blank, n)
+    if vals is None:  # some cell is not plain ASCII digits: the full pattern says which, and why
+        if joined.count("\n") != n or not _COLUMN.fullmatch(joined):
+            k = next(k for k, c in enumerate(cells) if "\n" in c or cell_problem(c, decimal_comma))
+            return np.full(n, np.nan), blank, k, (cell_problem(cells[k], decimal_comma)
+                                                  or f"must be a bare number, got {cells[k]!r}")
+        vals = np.array([c or "nan" for c in work], dtype=float)
     big = np.isinf(vals)
     if big.any():
         k = int(np.argmax(big))

@@ -5,23 +5,27 @@ command runs) decides what a ledger may hold: a `cg_table` on a fixed item, a
 group too deep, an id the format refuses. So the built ledger is written to
 TOML and read back before anything is saved, and a problem the reader finds
 on an item that came from the CSV is reported at that CSV line and column.
+The text is read back piece by piece (io.ledger.read_stream: the whole-file
+reader decides, and words, whatever the pieces cannot vouch for), and the items
+it gives must be the items built (csv_same): what is saved means what was imported.
 """
 
 from __future__ import annotations
 
 import re
 import weakref
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 from steelyard.core.control.growth import growth_fractions
 from steelyard.core.control.uncertainty import parse_tolerances
-from steelyard.core.document.model import Ledger
-from steelyard.core.errors import SteelyardError, said
+from steelyard.core.document.model import Ledger, document_of
+from steelyard.core.errors import SteelyardError, item_subject, said
 from steelyard.core.limits.checks import validate
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.io.exchange.csv_cells import COLUMNS, TOL_COLUMNS
-from steelyard.io.ledger.read import ledger_from_data
-from steelyard.io.ledger.toml_read import parse_toml
+from steelyard.io.exchange.csv_same import same_items
+from steelyard.io.ledger.read_stream import ledger_from_text
 from steelyard.io.ledger.write import ledger_to_toml
 
 
@@ -29,7 +33,7 @@ from steelyard.io.ledger.write import ledger_to_toml
 class CsvPlaces:
     """Where each imported item came from: item subject -> (CSV line, id); column key -> header cell."""
 
-    rows: dict[str, tuple[int, str]] = field(default_factory=dict)
+    rows: Mapping[str, tuple[int, str]] = field(default_factory=dict)
     labels: dict[str, str] = field(default_factory=dict)
 
 
@@ -61,6 +65,27 @@ def _placed(exc: SteelyardError, source: str, places: CsvPlaces | None) -> Steel
     return SteelyardError(exc.message, file=source, subject=f"line {line} (item {said(ident)})", field=where)
 
 
+class RowPlaces(Mapping):
+    """`CsvPlaces.rows` of an import: item subject -> (CSV line, id), the dict built only if asked."""
+
+    def __init__(self, lines: list[int], ids: list[str]):
+        self._lines, self._ids, self._rows = lines, ids, None
+
+    def _built(self) -> dict[str, tuple[int, str]]:
+        if self._rows is None:
+            self._rows = {item_subject(i): (line, i) for line, i in zip(self._lines, self._ids)}
+        return self._rows
+
+    def __getitem__(self, subject: str) -> tuple[int, str]:
+        return self._built()[subject]
+
+    def __iter__(self):
+        return iter(self._built())
+
+    def __len__(self) -> int:
+        return len(self._built())
+
+
 #: (the ledger last checked, its text): `import` checks the ledger `read_csv` built and checked
 _last: tuple[weakref.ref, str] | None = None
 
@@ -77,10 +102,11 @@ def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None) -
         return _last[1]
     try:
         text = ledger_to_toml(ledger)
-        final = ledger_from_data(parse_toml(text, source=source), source=source)
+        final = ledger_from_text(text, source=source)
         growth_fractions(final)
         parse_tolerances(final)
         validate(final)
+        same_items(document_of(ledger).items, document_of(final).items)
     except SteelyardError as exc:
         raise _placed(exc, source, places) from None
     try:

@@ -19,14 +19,14 @@ from dataclasses import dataclass
 import numpy as np
 
 from steelyard.core.control.growth import growth_table
-from steelyard.core.document.model import FileUnits, Item, Ledger
-from steelyard.core.errors import SteelyardError, item_subject
+from steelyard.core.document.model import FileUnits, Item, Ledger, items_from_columns
+from steelyard.core.errors import SteelyardError
 from steelyard.core.physics.groups import group_depth_problem
 from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, realisability_problems, six_from_tensor, \
     tensor_from_six
 from steelyard.core.units import number_problem, unit_factor
 from steelyard.io.exchange.csv_cells import CONTROL_KEYS, FALSE, TOL_COLUMNS, TRUE
-from steelyard.io.exchange.csv_check import CsvPlaces, check_ledger
+from steelyard.io.exchange.csv_check import CsvPlaces, RowPlaces, check_ledger
 from steelyard.io.exchange.csv_model import file_units, item_more, make_item, more_problem
 from steelyard.io.exchange.csv_read import CsvTable
 from steelyard.io.ledger.file import read_bytes
@@ -54,6 +54,17 @@ def _bool(r: CsvTable, k: int, cell: str) -> bool:
     if low in FALSE:
         return False
     raise r.fail(k, "variable", f"must be true or false, got {cell!r}")
+
+
+def _bools(r: CsvTable, key: str) -> list[bool]:
+    """A column of true/false cells: each distinct spelling looked up once."""
+    cells = r.cols[key]
+    known = {c: c.lower() in TRUE for c in set(cells) if c.lower() in TRUE | FALSE}
+    if len(known) < len(set(cells)):
+        for k, c in enumerate(cells):
+            if c not in known:
+                _bool(r, k, c)  # raises, naming the first bad cell
+    return list(map(known.__getitem__, cells))
 
 
 def _file_value(raw: float, col_unit: str, file_unit: str, dim: str) -> float:
@@ -122,6 +133,10 @@ def _other(r: CsvTable, k: int, cell: str) -> dict:
 
 def _ids(r: CsvTable, into: Ledger | None) -> None:
     """Ids as written: non-blank, unique, and not an existing id with spaces trimmed or added."""
+    ids = r.cols["id"]
+    if into is None and len(set(ids)) == len(ids) and all(map(str.strip, ids)):
+        r.ids[:] = ids  # every id non-blank and unique: the loop below would find nothing
+        return
     seen: dict[str, int] = {}
     existing = into.index if into is not None else {}
     loose: dict[str, str] | None = None
@@ -147,7 +162,7 @@ class _Columns:
     def __init__(self, r: CsvTable, into: Ledger | None, units: FileUnits):
         n = len(r.rows)
         _ids(r, into)
-        if r.has("group"):
+        if r.has("group") and any(map(group_depth_problem, set(r.cols["group"]))):  # each path once
             for k, g in enumerate(r.cols["group"]):
                 problem = group_depth_problem(g)
                 if problem:
@@ -165,7 +180,7 @@ class _Columns:
             r.reject("quantity", ~blank & ((q < 1) | (q != np.round(q)) | (q > 2 ** 53)),
                      "must be a whole number >= 1, got {cell!r}")
             self.quantity = np.where(blank, 1.0, q).astype(np.int64).tolist()
-        self.variable = [_bool(r, k, c) for k, c in enumerate(r.cols["variable"])] if r.has("variable") else None
+        self.variable = _bools(r, "variable") if r.has("variable") else None
         self.six, self.given = _inertia(r)
         self.six_rows = self.six.tolist()
         self.density = None
@@ -175,7 +190,7 @@ class _Columns:
             self.density = [None if b else float(x) for x, b in zip(d, blank)]
         if r.has("maturity"):
             table = growth_table(into if into is not None else Ledger())
-            for k, c in enumerate(r.cols["maturity"]):
+            for k, c in enumerate(r.cols["maturity"] if not set(r.cols["maturity"]) <= {"", *table} else ()):
                 if c and c not in table:
                     raise r.fail(k, "maturity", f"unknown maturity {c!r} (use one of: {', '.join(table)})")
         self.growth = ([_fraction(r, k, c) if c else None for k, c in enumerate(r.cols["growth"])]
@@ -279,8 +294,15 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
     r = CsvTable(text, source, decimal_comma)
     units = into.units if into is not None else _new_units(r)
     cols = _Columns(r, into, units)
-    index = into.index if into is not None else {}
-    items = list(into.items) if into is not None else []
+    if into is None:
+        ledger = Ledger(tuple(_new_items(r, cols)), units)
+        ids = r.ids
+        places = CsvPlaces(RowPlaces(r.lines, ids), r.labels)
+        del r, cols  # the cells (millions of strings): freed before the write and read-back need the memory
+        check_ledger(ledger, source, places)
+        return CsvImport(ledger, tuple(ids), (), (), places)
+    index = into.index
+    items = list(into.items)
     added, replaced, same = [], [], []
     mass, cg = cols.mass.tolist(), cols.cg.tolist()
     for k, ident in enumerate(r.ids):
@@ -307,10 +329,40 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
         else:
             items[j] = item
             replaced.append(ident)
-    ledger = into.evolve(items=tuple(items)) if into is not None else Ledger(tuple(items), units)
-    places = CsvPlaces({item_subject(ident): (r.lines[k], ident) for k, ident in enumerate(r.ids)}, r.labels)
+    ledger = into.evolve(items=tuple(items))
+    places = CsvPlaces(RowPlaces(r.lines, r.ids), r.labels)
     check_ledger(ledger, source, places)
     return CsvImport(ledger, tuple(added), tuple(replaced), tuple(same), places)
+
+
+def _new_items(r: CsvTable, cols: _Columns) -> list[Item]:
+    """The items of a new ledger, a field at a time: what `make_item` gives row by row
+    (tests/test_csv_import_fast.py compares the two)."""
+    n = len(r.ids)
+    columns: dict = {"id": r.ids, "mass": cols.mass.tolist(), "cg": list(map(tuple, cols.cg.tolist()))}
+    for key in ("name", "group"):
+        if r.has(key):
+            columns[key] = r.cols[key]
+    if cols.quantity is not None:
+        columns["quantity"] = cols.quantity
+    if any(r.has(c) for c in COMPONENTS):
+        columns["inertia"] = [tuple(six) if g else None for six, g in zip(cols.six_rows, cols.given.tolist())]
+    if cols.variable is not None:
+        columns["variable"] = cols.variable
+    if cols.density is not None:
+        columns["density"] = cols.density
+    if any(r.has(c) for c in ("other", "maturity", "growth")) or cols.tol is not None:
+        more = [_more(None, r, cols, k) for k in range(n)]
+        for k, m in enumerate(more):
+            problem = more_problem(m)
+            if problem:
+                raise r.fail(k, "other" if r.has("other") else None, problem)
+        for key in sorted(set().union(*more)):
+            default = False if key == "removable" else None
+            columns[key] = [m.get(key, default) for m in more]
+            if key == "cg_table":
+                columns[key] = [tuple(x) if isinstance(x, list) else x for x in columns[key]]
+    return items_from_columns(n, columns)
 
 
 def read_csv_file(path: str, *, decimal_comma: bool = False, into: Ledger | None = None,

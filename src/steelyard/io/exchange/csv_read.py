@@ -33,6 +33,15 @@ def _sniff(first_line: str, decimal_comma: bool, source: str) -> str:
     return best
 
 
+#: the ASCII characters str.strip() removes (str.isspace)
+_ASCII_SPACE = " \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f"
+
+
+def _no_space(text: str) -> bool:
+    """Whether `text` holds no character str.strip() would remove: a column's cells are then as stripped."""
+    return text.isascii() and not any(c in text for c in _ASCII_SPACE)
+
+
 class CsvTable:
     """One CSV text: header, columns of cell strings, then typed, located values."""
 
@@ -45,6 +54,57 @@ class CsvTable:
         sep = _sniff(first, decimal_comma, source)
         if csv.field_size_limit() < _FIELD_LIMIT:
             csv.field_size_limit(_FIELD_LIMIT)
+        if not self._read_fast(text, sep):
+            self._read_records(text, sep)
+        if not self.rows:
+            raise SteelyardError("has a header but no item rows", file=source)
+        self.ids = [""] * len(self.rows)
+        width = len(self.header)
+        if set(map(len, self.rows)) != {width}:
+            for k, cells in enumerate(self.rows):
+                if len(cells) > width and any(c.strip() for c in cells[width:]):
+                    raise self.fail(k, None, f"has {len(cells)} cells, the header has {width}")
+                cells += [""] * (width - len(cells))
+                del cells[width:]
+        # text verbatim (less a formula guard); everything else without surrounding spaces
+        columns = list(zip(*self.rows))
+        self.cols: dict[str, list[str]] = {}
+        for key, j in self.index.items():
+            col = columns[j]
+            if key in TEXT_COLUMNS:
+                # only a cell starting with an apostrophe can lose one (csv_cells.unprotect)
+                self.cols[key] = [unprotect(c) for c in col] if "'" in "".join(col) else list(col)
+            else:
+                self.cols[key] = list(col) if _no_space("".join(col)) else list(map(str.strip, col))
+
+    def _read_fast(self, text: str, sep: str) -> bool:
+        """All records at once, when each is one physical line (line k+1 is record k); False otherwise."""
+        reader = csv.reader(io.StringIO(text, newline=""), delimiter=sep)
+        try:
+            records = list(reader)
+        except csv.Error:
+            return False  # `_read_records` finds where, and words it
+        if reader.line_num != len(records):
+            return False  # a quoted cell spans lines: `_read_records` numbers them
+        # a record is blank when all its cells are white space: so is their concatenation
+        keep = [k for k, s in enumerate(map(str.strip, map("".join, records))) if s]
+        if not keep:  # cells, but all blank: worded as the record-by-record reading words it
+            self.header, self.rows, self.lines = None, [], []
+            return True
+        first = keep[0]
+        self.header, self.header_line = [c.strip() for c in records[first]], first + 1
+        self._columns()
+        if len(keep) == len(records) - first:
+            self.rows = records[first + 1:]
+            self.lines = list(range(first + 2, len(records) + 1))
+        else:
+            rest = keep[1:]
+            self.rows = [records[k] for k in rest]
+            self.lines = [k + 1 for k in rest]
+        return True
+
+    def _read_records(self, text: str, sep: str) -> None:
+        """Record by record, each numbered by the physical line it starts on."""
         reader = csv.reader(io.StringIO(text, newline=""), delimiter=sep)
         self.header: list[str] | None = None
         self.rows: list[list[str]] = []
@@ -63,22 +123,8 @@ class CsvTable:
                 self.rows.append(record)
                 self.lines.append(start)
         except csv.Error as exc:
-            raise SteelyardError(f"not readable as CSV ({exc})", file=source, subject=f"line {before + 1}") from None
-        if not self.rows:
-            raise SteelyardError("has a header but no item rows", file=source)
-        self.ids = [""] * len(self.rows)
-        width = len(self.header)
-        for k, cells in enumerate(self.rows):
-            if len(cells) > width and any(c.strip() for c in cells[width:]):
-                raise self.fail(k, None, f"has {len(cells)} cells, the header has {width}")
-            cells += [""] * (width - len(cells))
-        # text verbatim (less a formula guard); everything else without surrounding spaces
-        self.cols: dict[str, list[str]] = {}
-        for key, j in self.index.items():
-            if key in TEXT_COLUMNS:
-                self.cols[key] = [unprotect(r[j]) for r in self.rows]
-            else:
-                self.cols[key] = [r[j].strip() for r in self.rows]
+            raise SteelyardError(f"not readable as CSV ({exc})", file=self.source,
+                                 subject=f"line {before + 1}") from None
 
     def _columns(self) -> None:
         self.index: dict[str, int] = {}

@@ -15,12 +15,12 @@ import re
 
 import tomli_w
 
-_BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")  # whole key (fullmatch: `$` would let a final "\n" through)
 _ESCAPES = {'"': '\\"', "\\": "\\\\", "\b": "\\b", "\t": "\\t", "\n": "\\n", "\f": "\\f", "\r": "\\r"}
 
 
 def key(k: str) -> str:
-    return k if _BARE_KEY.match(k) else string(k)
+    return k if _BARE_KEY.fullmatch(k) else string(k)
 
 
 #: characters a TOML basic string cannot hold as themselves (TOML v1.0.0, "String"): the quote, the

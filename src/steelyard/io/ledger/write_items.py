@@ -12,35 +12,97 @@ rotations, a density) go through `item_lines`. The text is byte for byte
 
 from __future__ import annotations
 
+import math
+from operator import attrgetter
+
 import numpy as np
 
 from steelyard.core.document.model import FileUnits, Item
 from steelyard.core.physics.inertia import COMPONENTS  # noqa: F401 - the order of `six`
 from steelyard.core.units import unit_factor
-from steelyard.io.ledger.toml_write import _NEEDS_ESCAPE, _SHORT_HI, _SHORT_LO, number, string, value
+from steelyard.io.ledger.toml_write import _NEEDS_ESCAPE, _SHORT_HI, number, string, value
 
 _MORE = ("cg_table", "growth", "loaded", "maturity", "removable", "tolerance", "user")
 
 
+#: `numbers` settles |x / factor| in [_BULK_LO, _SHORT_HI) and |x| >= _BULK_LO with one rounding (see there)
+_BULK_LO = 1e-290
+
+
 def numbers(xs: list, factor: float) -> list[str]:
-    """`[number(x, factor) for x in xs]`, the same texts."""
+    """`[number(x, factor) for x in xs]`, the same texts.
+
+    `number` takes the 14-digit rounding c of v = x / factor when it reads back
+    exactly (c * factor == x) and 1e-3 <= |v| < 1e13; below 1e-3 it runs its
+    full search. The search gives c there too whenever c reads back exactly and
+    x and v are normal floats: the exact candidates all lie within a few ulps of
+    v, so c is the only one of <= 14 significant digits, and any other's text
+    has one digit more at least while its exponent can differ only across a
+    power of ten, which no candidate within a few ulps of a 14-digit c straddles:
+    c's text, repr(c), is the shortest, whatever the notation. So here every
+    value in that range is settled in bulk (one C formatting call, numpy to
+    check the read-back, repr by map); the rest go through `number` itself.
+    """
     if factor == 1.0 or not xs:
         return list(map(number, xs))
     a = np.array(xs, dtype=float)
+    n = len(a)
     with np.errstate(all="ignore"):
         v = a / factor
-        rows = np.flatnonzero((np.abs(v) >= _SHORT_LO) & (np.abs(v) < _SHORT_HI))  # NaN, inf: not in range
-        texts = (("%.14g\n" * len(rows)) % tuple(v[rows].tolist())).split("\n")[:-1]  # f"{v:.14g}" each
-        c = np.fromiter(map(float, texts), float, len(texts))
-        exact = c * factor == a[rows]
-    out: list = [None] * len(xs)
-    for i, t in zip(rows[exact].tolist(), [t for t, e in zip(texts, exact.tolist()) if e]):
-        # repr(float(t)): t has <= 14 significant digits, so it is its float's shortest text
-        # (15 digits always read back); positional in both in this range; repr adds ".0"
-        out[i] = t if "." in t else t + ".0"
-    for i in [i for i, t in enumerate(out) if t is None]:
-        out[i] = number(xs[i], factor)
+        texts = (("%.14g\n" * n) % tuple(v.tolist())).split("\n")[:-1]  # f"{v:.14g}" each, one C call
+        c = np.fromiter(map(float, texts), float, n)
+        av = np.abs(v)
+        settled = (av >= _BULK_LO) & (av < _SHORT_HI) & (np.abs(a) >= _BULK_LO) & (c * factor == a)
+    # t is repr(float(t)) (no shorter decimal reads as the same float, as any two decimals of <= 14
+    # digits lie further apart than an ulp), except that repr writes a whole number with ".0"
+    out = [t if "." in t or "e" in t else t + ".0" for t in texts]
+    rest = np.flatnonzero(~settled)
+    if rest.size:
+        finite = np.isfinite(a[rest]) & np.isfinite(v[rest]) & (a[rest] != 0.0)
+        for i, t in zip(rest[finite].tolist(), searched(a[rest[finite]], v[rest[finite]], factor)):
+            out[i] = t
+        for i in rest[~finite].tolist():
+            out[i] = number(xs[i], factor)
     return out
+
+
+#: the decimal roundings `toml_write._search` tries, and how many ulps either side of v / factor
+_DIGITS = range(6, 18)
+_ULPS = 3
+
+
+def searched(x: np.ndarray, v: np.ndarray, factor: float) -> list[str]:
+    """`toml_write._search(x, v, factor)` of each finite, non-zero x (v = x / factor, finite), in bulk.
+
+    The same candidates (v's roundings to 6..17 digits, v, and 3 floats either
+    side of it), each made in bulk (one C formatting call per digit count,
+    numpy's nextafter); the same rank (exact, else within one ulp of x, else
+    nearest; then the shortest text, then the text itself) taken per value over
+    its ~19 candidates.
+    """
+    m = len(x)
+    cands = []
+    for d in _DIGITS:
+        texts = ((f"%.{d}g\n" * m) % tuple(v.tolist())).split("\n")[:-1]
+        cands.append(np.fromiter(map(float, texts), float, m))
+    cands.append(v)
+    up = down = v
+    for _ in range(_ULPS):
+        up, down = np.nextafter(up, np.inf), np.nextafter(down, -np.inf)
+        cands += [up, down]
+    c = np.stack(cands, axis=1)  # (m, k)
+    with np.errstate(all="ignore"):
+        err = np.abs(c * factor - x[:, None])
+    one_ulp = np.fromiter(map(math.ulp, x.tolist()), float, m)[:, None]
+    grade = np.where(err == 0, 0, np.where(err <= one_ulp, 1, 2))
+    key_err = np.where(grade == 2, err, 0.0)
+    ok = np.isfinite(c)
+    flat = c.ravel().tolist()
+    text = list(map(repr, flat))  # finite floats' repr always has '.' or 'e': `_float_text` is repr
+    k = c.shape[1]
+    rows = zip(grade.tolist(), key_err.tolist(), ok.tolist())
+    return [min((g, e, len(t), t) for g, e, t, f in zip(gs, es, text[j * k:(j + 1) * k], fs) if f)[3]
+            for j, (gs, es, fs) in enumerate(rows)]
 
 
 def _templated(it: Item) -> bool:
@@ -60,40 +122,84 @@ def item_head(it: Item) -> str:
     return text
 
 
+def _strings(texts: list[str], lead: str) -> list[str]:
+    """`lead + string(t)` of each text, "" for an empty one when `lead` starts a line of its own."""
+    if _NEEDS_ESCAPE.search("".join(texts)) is None:  # no text needs an escape: quote them as they are
+        quoted = [f'{lead}"{t}"' for t in texts]
+    else:
+        quoted = [lead + string(t) for t in texts]
+    if lead.startswith("\n"):  # name, group: written only when not empty
+        return [q if t else "" for q, t in zip(quoted, texts)]
+    return quoted
+
+
+#: what an item without any key beyond v1 holds in them (`removable` may be False or None)
+_NO_MORE = (None,) * len(_MORE)
+_NO_MORE_REMOVABLE = tuple(False if k == "removable" else None for k in _MORE)
+_MORE_OF = attrgetter(*_MORE)
+
+
+def _more_text(it: Item) -> str:
+    text = ""
+    for key in _MORE:
+        v = getattr(it, key)
+        if key == "removable":
+            v = v or None
+        if v is not None:
+            text += f"\n{key} = {value(v)}"
+    return text
+
+
 def items_text(items, u: FileUnits) -> list[str]:
-    """`"\\n".join(item_lines(it, u))` of every item."""
+    """`"\\n".join(item_lines(it, u))` of every item.
+
+    Items the template writes are spelled a field at a time: each field's
+    texts as one column (attribute getters and formatting mapped in C), the
+    columns then joined item by item. The rest go through `item_lines`.
+    """
     from steelyard.io.ledger.write import item_lines
 
-    plain = [it for it in items if _templated(it)]
+    items = list(items)
+    odd = [k for k, it in enumerate(items) if not _templated(it)]
+    at = set(odd)
+    plain = [it for k, it in enumerate(items) if k not in at] if odd else items
     fm, fl, fi = unit_factor(u.mass, "mass"), unit_factor(u.length, "length"), unit_factor(u.inertia, "inertia")
-    mass = numbers([it.mass for it in plain], fm)
-    cgs = [numbers([it.cg[k] for it in plain], fl) for k in range(3)]
-    own = [it for it in plain if it.inertia is not None]
-    six = [numbers([it.inertia[k] for it in own], fi) for k in range(6)]
-    xx, yy, zz, xy, xz, yz = six  # COMPONENTS order
-    six_of = {id(it): j for j, it in enumerate(own)}
-    out = []
-    j = 0
-    for it in items:
-        if not _templated(it):
+    n = len(plain)
+    cg = list(map(attrgetter("cg"), plain))
+    cols = [_strings(list(map(attrgetter("id"), plain)), "[[item]]\nid = "),
+            _strings(list(map(attrgetter("name"), plain)), "\nname = "),
+            _strings(list(map(attrgetter("group"), plain)), "\ngroup = "),
+            list(map("\nmass = {}\ncg = [{}, {}, {}]".format, numbers(list(map(attrgetter("mass"), plain)), fm),
+                     *(numbers([c[k] for c in cg], fl) for k in range(3))))]
+    quantity = list(map(attrgetter("quantity"), plain))
+    if quantity.count(1) != n:
+        cols.append([f"\nquantity = {q}" if q != 1 else "" for q in quantity])
+    inertia = list(map(attrgetter("inertia"), plain))
+    rows = [k for k, six in enumerate(inertia) if six is not None]
+    if rows:
+        six = [numbers([inertia[k][j] for k in rows], fi) for j in range(6)]  # COMPONENTS order
+        col = [""] * n
+        for k, text in zip(rows, map("\ninertia = {{ xx = {}, yy = {}, zz = {}, xy = {}, xz = {}, yz = {} }}".format,
+                                     *six)):
+            col[k] = text
+        cols.append(col)
+    variable = list(map(attrgetter("variable"), plain))
+    if any(variable):
+        cols.append(["\nvariable = true" if v else "" for v in variable])
+    more = [k for k, held in enumerate(map(_MORE_OF, plain)) if held != _NO_MORE_REMOVABLE and held != _NO_MORE]
+    if more:
+        col = [""] * n
+        for k in more:
+            col[k] = _more_text(plain[k])
+        cols.append(col)
+    texts = list(map("".join, zip(*cols))) if n else []
+    if not odd:
+        return texts
+    out, j = [], 0
+    for k, it in enumerate(items):
+        if k in at:
             out.append("\n".join(item_lines(it, u)))
-            continue
-        text = item_head(it)
-        text += f"\nmass = {mass[j]}\ncg = [{cgs[0][j]}, {cgs[1][j]}, {cgs[2][j]}]"
-        j += 1
-        if it.quantity != 1:
-            text += f"\nquantity = {it.quantity}"
-        if it.inertia is not None:
-            k = six_of[id(it)]
-            text += (f"\ninertia = {{ xx = {xx[k]}, yy = {yy[k]}, zz = {zz[k]}, xy = {xy[k]}, xz = {xz[k]}, "
-                     f"yz = {yz[k]} }}")
-        if it.variable:
-            text += "\nvariable = true"
-        for key in _MORE:
-            v = getattr(it, key)
-            if key == "removable":
-                v = v or None
-            if v is not None:
-                text += f"\n{key} = {value(v)}"
-        out.append(text)
+        else:
+            out.append(texts[j])
+            j += 1
     return out
