@@ -63,7 +63,7 @@ def run(args) -> int:
     with located(loaded), gc_paused():
         texts = []
         if args.csv:
-            from steelyard.io.exchange.csv_io import ledger_to_csv
+            from steelyard.io.exchange.csv_write import ledger_to_csv  # not csv_io: the import side is not needed
 
             text = ledger_to_csv(loaded.ledger, system=args.units, decimal_comma=args.decimal_comma)
             if args.csv == "-" and sys.stdout.isatty():

@@ -25,7 +25,6 @@ from steelyard.io.exchange.csv_cells import (COLUMNS, CONTROL_KEYS, TOL_COLUMNS,
 from steelyard.io.exchange.csv_model import density_unit, item_more
 from steelyard.io.exchange.csv_rows import body, number_args
 from steelyard.io.exchange.item_columns import all_of_type, field, given as given_values, more_rows, own_at, own_rows
-from steelyard.io.ledger.toml_write import value as toml_value
 from steelyard.io.report.control import growth_value, tolerance_si
 
 
@@ -178,7 +177,10 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
             for k, c in zip(("tol x", "tol y", "tol z"), cg or (None, None, None)):
                 row[k] = num(k, c)
         rest = {k: v for k, v in e.items() if k not in CONTROL_KEYS}
-        row["other"] = toml_value(rest) if rest else ""
+        if rest:
+            from steelyard.io.ledger.toml_write import value as toml_value  # here: few ledgers have such keys
+
+            row["other"] = toml_value(rest)
         for k in tail:
             if k != "density":
                 cells[k][i] = quoted(row.get(k, ""), sep)

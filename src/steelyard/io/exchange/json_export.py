@@ -174,11 +174,13 @@ def export_json(ledger: Ledger, **kw) -> str:
     import json
 
     items = ledger.items
-    if not items or not all_of_type(field(items, "variable"), bool):
+    variable = field(items, "variable")
+    if not items or not all_of_type(variable, bool):
         return json.dumps(_plain(export_record(ledger, **kw)), indent=2, allow_nan=False, ensure_ascii=False) + "\n"
-    listed = items_text(ledger, lambda *row: _one_item(ledger, *row))  # first: an item's bad key stops here
+    listed = items_text(ledger, variable, lambda *row: _one_item(ledger, *row))  # first: a bad key stops here
     head = json.dumps(_plain(export_record(ledger, items=_SENTINEL, **kw)), indent=2, allow_nan=False,
                       ensure_ascii=False)
     token = '"items": ' + json.dumps(_SENTINEL, ensure_ascii=False)
-    assert head.count(token) == 1, "the item list's place holder must appear once"
-    return head.replace(token, '"items": ' + listed) + "\n"
+    before, found, after = head.partition(token)
+    assert found and token not in after, "the item list's place holder must appear once"
+    return "".join((before, '"items": ', listed, after, "\n"))

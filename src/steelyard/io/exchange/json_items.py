@@ -1,38 +1,41 @@
 """The item list of `export --json`, written a column at a time: the characters json.dumps(indent=2) writes.
 
 json's indenting encoder is pure Python: for 100,000 items it costs several
-times the rest of the export. Here each field is turned into JSON text for every
-item at once (the C string escaper json.encoder.encode_basestring, float.__repr__
-as json writes floats, mapped in C) and the rows are laid out by one `%` format
-of a fixed row template. Numpy masks find the rows that template cannot write
-(keys beyond v1, a type other than the usual one, a non-finite number); only
-those are written one by one, by `row_text`, as before.
+times the rest of the export. Here the whole list is one `%` format of a row
+template repeated, its values put into one flat tuple a column at a time
+(slice assignment): strings through json's C escaper (encode_basestring, as
+json.dumps(ensure_ascii=False) writes them), floats by "%r" (float.__repr__,
+as json writes them). Numpy masks find the rows that template cannot write
+(keys beyond v1, a type other than the usual one, a non-finite number); each
+of those is written on its own by the caller's `row_text` and takes the
+template "%s" followed by "%.0s" for the values it does not show.
 """
 
 from __future__ import annotations
 
 import math
-from itertools import chain, compress
 from json.encoder import encode_basestring
 from operator import not_
+from itertools import compress
 
 import numpy as np
 
 from steelyard.core.document.model import Ledger
 from steelyard.io.exchange.item_columns import all_of_type, field, given, more_rows, own_at, own_rows
 
-#: one item as json.dumps(indent=2) writes it inside the list (level 2): id, name, group, mass, quantity,
-#: x, y, z, variable, inertia (null or `_TENSOR`) and density (null or a number)
-_ROW = ('    {\n      "id": %s,\n      "name": %s,\n      "group": %s,\n      "mass_kg": %s,\n      "quantity": %s,\n'
-        '      "cg_m": [\n        %s,\n        %s,\n        %s\n      ],\n      "variable": %s,\n'
+#: one item as json.dumps(indent=2) writes it inside the list (level 2): id, name, group (JSON strings),
+#: mass (float), quantity (int), x, y, z (floats), variable, inertia (null or `_TENSOR`'s text), density (text)
+_ROW = ('    {\n      "id": %s,\n      "name": %s,\n      "group": %s,\n      "mass_kg": %r,\n      "quantity": %s,\n'
+        '      "cg_m": [\n        %r,\n        %r,\n        %r\n      ],\n      "variable": %s,\n'
         '      "inertia_kg_m2": %s,\n      "density_kg_m3": %s\n    }')
-_TENSOR = "[\n" + ",\n".join("        [\n" + ",\n".join(["          %s"] * 3) + "\n        ]" for _ in range(3)) + "\n      ]"
-
-
-def _reprs(values: list) -> list[str]:
-    """float.__repr__ of each value, the text json writes for a float (any other value gets its repr:
-    such a row is not written by the template)."""
-    return list(map(repr, values))
+_WIDTH = 11
+_OTHER = "%s" + "%.0s" * (_WIDTH - 1)  # a row written apart: its text, the other values not shown
+_ROWS = "[\n        [\n          {}\n        ],\n        [\n          {}\n        ],\n        [\n          {}\n        ]\n      ]"
+#: a (3, 3) tensor at level 3; a symmetric one takes 6 values (xx, xy, xz, yy, yz, zz), the
+#: off-diagonal texts each given once as a string and written twice
+_SYMMETRIC = _ROWS.format(*(",\n          ".join(r) for r in (("%r", "%s", "%s"), ("%s", "%r", "%s"),
+                                                                 ("%s", "%s", "%r"))))
+_TENSOR = _ROWS.format(*(",\n          ".join(["%r"] * 3) for _ in range(3)))
 
 
 def _finite(values: list) -> np.ndarray:
@@ -43,25 +46,44 @@ def _finite(values: list) -> np.ndarray:
 
 
 def _strings(values: list) -> tuple[list[str], np.ndarray | None]:
-    """(JSON text of each value, rows that are not an exact str or None when all are)."""
-    if all_of_type(values, str):
+    """(JSON text of each value, rows that are not a str, or None when all are)."""
+    try:
         return list(map(encode_basestring, values)), None
-    odd = np.array([type(v) is not str for v in values], dtype=bool)
-    return [encode_basestring(v) if type(v) is str else "" for v in values], odd
+    except TypeError:
+        odd = np.array([not isinstance(v, str) for v in values], dtype=bool)
+        return [encode_basestring(v) if isinstance(v, str) else "" for v in values], odd
 
 
-def _tensors(rows_own: np.ndarray) -> tuple[list[str], np.ndarray]:
-    """(JSON text of each (3, 3) tensor laid out as json indents it at level 3, finite mask)."""
-    k = len(rows_own)
-    flat = rows_own.reshape(k, 9)
-    texts = _reprs(flat.ravel().tolist())
-    return ("\x00".join([_TENSOR] * k) % tuple(texts)).split("\x00") if k else [], np.isfinite(flat).all(axis=1)
+def _tensors(own: np.ndarray) -> list[str]:
+    """JSON text of each (3, 3) tensor as json.dumps(indent=2) lays it out at level 3. A symmetric
+    one (bit for bit: -0.0 and 0.0 are written differently) has its three off-diagonal texts made once."""
+    k = len(own)
+    out = [""] * k
+    if not k:
+        return out
+    flat = own.reshape(k, 9)
+    bits = flat.view(np.int64)
+    symmetric = (bits[:, 1] == bits[:, 3]) & (bits[:, 2] == bits[:, 6]) & (bits[:, 5] == bits[:, 7])
+    sym = np.flatnonzero(symmetric)
+    if len(sym):
+        s = flat[sym]
+        off = list(map(repr, s[:, [1, 2, 5]].ravel().tolist()))  # xy, xz, yz of each
+        xy, xz, yz = off[0::3], off[1::3], off[2::3]
+        args = [None] * (9 * len(sym))
+        for j, column in enumerate((s[:, 0].tolist(), xy, xz, xy, s[:, 4].tolist(), yz, xz, yz, s[:, 8].tolist())):
+            args[j::9] = column
+        texts = ("\x00".join([_SYMMETRIC] * len(sym)) % tuple(args)).split("\x00")
+        for r, text in zip(sym.tolist(), texts):
+            out[r] = text
+    for r in np.flatnonzero(~symmetric).tolist():
+        out[r] = _TENSOR % tuple(flat[r].tolist())
+    return out
 
 
-def items_text(ledger: Ledger, row_text) -> str:
-    """The item list as json.dumps(indent=2) writes it as the value of "items" (level 1), every
-    item a variable that is a bool (the caller checks). `row_text(i, has_own, own_i, cg_i, fraction)`
-    writes one item the template cannot."""
+def items_text(ledger: Ledger, variable: list, row_text) -> str:
+    """The item list as json.dumps(indent=2) writes it as the value of "items" (level 1); `variable`
+    is every item's `variable`, all bools (the caller checks). `row_text(i, has_own, own_i, cg_i,
+    fraction)` writes one item the template cannot."""
     items = ledger.items
     n = len(items)
     a = ledger.arrays
@@ -90,38 +112,37 @@ def items_text(ledger: Ledger, row_text) -> str:
         plain &= np.array([type(q) is int for q in quantities], dtype=bool)
     cg = a.cg
     plain &= np.isfinite(cg).all(axis=1)
-    variable = ["true" if v else "false" for v in field(items, "variable")]
 
     inertia = ["null"] * n
     rows = own_rows(items)
     own = own_at(a, rows)
-    texts, finite = _tensors(own)
-    for r, text in zip(rows.tolist(), texts):
+    for r, text in zip(rows.tolist(), _tensors(own)):
         inertia[r] = text
-    plain[rows[~finite]] = False
+    plain[rows[~np.isfinite(own.reshape(-1, 9)).all(axis=1)]] = False
 
     densities = field(items, "density")
     density = ["null"] * n
     at = np.flatnonzero(given(densities)).tolist()
     if at:
         values = [densities[i] for i in at]
-        for i, text in zip(at, _reprs(values)):
+        for i, text in zip(at, map(repr, values)):
             density[i] = text
         plain[np.array(at)[~_finite(values)]] = False
 
-    columns = [ids, names, groups, _reprs(masses), list(map(str, quantities)),
-               *(_reprs(cg[:, j].tolist()) for j in range(3)), variable, inertia, density]
-    args = list(zip(*columns))
-    template = [_ROW] * n
+    columns = [ids, names, groups, masses, quantities, *(cg[:, j].tolist() for j in range(3)),
+               list(map(("false", "true").__getitem__, variable)), inertia, density]
+    flat = [None] * (n * _WIDTH)
+    for j, column in enumerate(columns):
+        flat[j::_WIDTH] = column
+    templates = [_ROW] * n
     others = np.flatnonzero(~plain).tolist()
     if others:
-        cg_rows = cg[others].tolist()
         own_index = dict(zip(rows.tolist(), range(len(rows))))
-        for i, cg_i in zip(others, cg_rows):
+        for i, cg_i in zip(others, cg[others].tolist()):
             k = own_index.get(i)
-            template[i] = "%s"
-            args[i] = (row_text(i, k is not None, None if k is None else own[k].tolist(), cg_i, fractions[i]),)
-    return "[\n" + ",\n".join(template) % tuple(chain.from_iterable(args)) + "\n  ]"
+            templates[i] = _OTHER
+            flat[i * _WIDTH] = row_text(i, k is not None, None if k is None else own[k].tolist(), cg_i, fractions[i])
+    return "[\n" + ",\n".join(templates) % tuple(flat) + "\n  ]"
 
 
 def _fractions(ledger: Ledger, more: list[int]) -> np.ndarray:
