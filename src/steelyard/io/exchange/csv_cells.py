@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import math
 import re
+from itertools import compress
 
 import numpy as np
 
@@ -127,15 +128,26 @@ def _reads_back(v: np.ndarray, si: np.ndarray, factor: float) -> np.ndarray:
 def number_column(si: np.ndarray, factor: float, decimal_comma: bool = False) -> list[str]:
     """`number_text` of every value of `si`, the same texts: the common case (12 significant
     digits multiply back exactly) in one formatting pass, checked with numpy (`_reads_back`);
-    the rest parsed back, and those that fail that one by one."""
+    the rest parsed back, then number_text's ladder (15, 16, 17 digits) a step at a time for
+    all the values still left, and only those no digit count fits one by one."""
     si = np.asarray(si, dtype=float)
     v = si / factor + 0.0
     texts = (("%.12g\n" * len(v)) % tuple(v.tolist())).split("\n")[:-1]  # one C call: f"{x:.12g}" each
     rest = np.flatnonzero(~_reads_back(v, si, factor))
-    if len(rest):
-        back = np.fromiter(map(float, [texts[i] for i in rest.tolist()]), float, len(rest))
-        for i in rest[back * factor != si[rest]].tolist():
-            texts[i] = number_text(float(si[i]), factor)
+    for digits in (12, 15, 16, 17):  # number_text's ladder, each step for all the values still left
+        if not len(rest):
+            break
+        if digits == 12:
+            tried = [texts[i] for i in rest.tolist()]
+        else:
+            tried = (f"%.{digits}g\n" * len(rest) % tuple(v[rest].tolist())).split("\n")[:-1]
+        back = np.fromiter(map(float, tried), float, len(rest))
+        hit = back * factor == si[rest]
+        for i, text in zip(rest[hit].tolist(), compress(tried, hit.tolist())):
+            texts[i] = text
+        rest = rest[~hit]
+    for i in rest.tolist():  # no digit count multiplies back exactly: number_text looks at the neighbours
+        texts[i] = number_text(float(si[i]), factor)
     if decimal_comma:
         texts = "\n".join(texts).replace(".", ",").split("\n")
     return texts

@@ -62,6 +62,8 @@ def more_rows(items: Sequence[Item]) -> list[int]:
     comparison per item, in C."""
     held = list(map(_MORE, items))
     n = len(held)
+    if held.count(_NONE) + held.count(_NONE_REMOVABLE) == n:  # no tuple equals both (None != False)
+        return []
     some = (np.fromiter(map(ne, held, repeat(_NONE)), bool, n)
             & np.fromiter(map(ne, held, repeat(_NONE_REMOVABLE)), bool, n))
     return np.flatnonzero(some).tolist()
