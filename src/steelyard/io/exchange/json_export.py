@@ -19,7 +19,7 @@ from steelyard.core.loading.loadout import resolve
 from steelyard.core.document.model import ITEM_MORE, Ledger, more_keys
 from steelyard.io.report.control import tolerance_si
 from steelyard.io.report.control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth
-from steelyard.io.exchange.item_columns import all_of_type, field
+from steelyard.io.exchange.item_columns import all_of_type, field, more_rows
 from steelyard.io.exchange.json_items import items_text
 from steelyard.io.exchange.rollup_json import rollup_record
 
@@ -72,8 +72,9 @@ def items_record(ledger: Ledger) -> list[dict]:
 
 
 def export_record(ledger: Ledger, *, source: str | None = None, samples: int = DEFAULT_SAMPLES,
-                  seed: int = DEFAULT_SEED, items: object = None) -> dict:
-    """The whole record; `items` stands in for the item list when given (it is written apart)."""
+                  seed: int = DEFAULT_SEED, items: object = None, control: bool = True) -> dict:
+    """The whole record; `items` stands in for the item list when given (it is written apart).
+    `control=False`: the caller knows the ledger has nothing `control_record` reports."""
     f = ledger.frame
     out = {
         "format": FORMAT, "version": VERSION, "source": source, "convention": CONVENTION,
@@ -84,11 +85,23 @@ def export_record(ledger: Ledger, *, source: str | None = None, samples: int = D
     }
     # Denormal masses (5e-324 kg) overflow the uncertainty figures' divisions (core.control.uncertainty);
     # such a figure becomes null below (`_num`) instead of a RuntimeWarning on the user's terminal.
+    if not control:
+        return out
     with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
         control = control_record(ledger, resolve(ledger, None), samples=samples, seed=seed)
     if control:
         out["control"] = control
     return out
+
+
+def _no_control(ledger: Ledger, more: list[int]) -> bool:
+    """True when `control_record` has nothing to report: no [growth] table, no [[allocation]], and no
+    item with a maturity, growth or tolerance (only the `more` rows, the items with keys beyond v1,
+    can have one). Spares its three passes over every item (has_growth twice, has_tolerances)."""
+    items = ledger.items
+    return (ledger.growth is None and not ledger.allocations
+            and all(items[i].maturity is None and items[i].growth is None and items[i].tolerance is None
+                    for i in more))
 
 
 def _plain(v):
@@ -177,9 +190,10 @@ def export_json(ledger: Ledger, **kw) -> str:
     variable = field(items, "variable")
     if not items or not all_of_type(variable, bool):
         return json.dumps(_plain(export_record(ledger, **kw)), indent=2, allow_nan=False, ensure_ascii=False) + "\n"
-    listed = items_text(ledger, variable, lambda *row: _one_item(ledger, *row))  # first: a bad key stops here
-    head = json.dumps(_plain(export_record(ledger, items=_SENTINEL, **kw)), indent=2, allow_nan=False,
-                      ensure_ascii=False)
+    more = more_rows(items)
+    listed = items_text(ledger, variable, more, lambda *row: _one_item(ledger, *row))  # first: a bad key stops here
+    record = export_record(ledger, items=_SENTINEL, control=not _no_control(ledger, more), **kw)
+    head = json.dumps(_plain(record), indent=2, allow_nan=False, ensure_ascii=False)
     token = '"items": ' + json.dumps(_SENTINEL, ensure_ascii=False)
     before, found, after = head.partition(token)
     assert found and token not in after, "the item list's place holder must appear once"

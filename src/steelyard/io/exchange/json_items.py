@@ -21,7 +21,7 @@ from itertools import compress
 import numpy as np
 
 from steelyard.core.document.model import Ledger
-from steelyard.io.exchange.item_columns import all_of_type, field, given, more_rows, own_at, own_rows
+from steelyard.io.exchange.item_columns import all_of_type, field, given, own_at, own_rows
 
 #: one item as json.dumps(indent=2) writes it inside the list (level 2): id, name, group (JSON strings),
 #: mass (float), quantity (int), x, y, z (floats), variable, inertia (null or `_TENSOR`'s text), density (text)
@@ -80,14 +80,14 @@ def _tensors(own: np.ndarray) -> list[str]:
     return out
 
 
-def items_text(ledger: Ledger, variable: list, row_text) -> str:
+def items_text(ledger: Ledger, variable: list, more: list[int], row_text) -> str:
     """The item list as json.dumps(indent=2) writes it as the value of "items" (level 1); `variable`
-    is every item's `variable`, all bools (the caller checks). `row_text(i, has_own, own_i, cg_i,
-    fraction)` writes one item the template cannot."""
+    is every item's `variable`, all bools (the caller checks); `more` the rows of the items with keys
+    beyond v1 (item_columns.more_rows). `row_text(i, has_own, own_i, cg_i, fraction)` writes one
+    item the template cannot."""
     items = ledger.items
     n = len(items)
     a = ledger.arrays
-    more = more_rows(items)
     fractions = _fractions(ledger, more)  # first, as before: a bad maturity or growth stops here
     plain = np.ones(n, dtype=bool)
     plain[more] = False  # keys beyond v1: more keys in the record
