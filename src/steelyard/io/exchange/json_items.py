@@ -3,9 +3,10 @@
 json's indenting encoder is pure Python: for 100,000 items it costs several
 times the rest of the export. Here the whole list is one `%` format of a row
 template repeated, its values put into one flat tuple a column at a time
-(slice assignment): strings through json's C escaper (encode_basestring, as
-json.dumps(ensure_ascii=False) writes them), floats by "%r" (float.__repr__,
-as json writes them). Numpy masks find the rows that template cannot write
+(slice assignment): strings as json.dumps(ensure_ascii=False) writes them (a
+column with nothing to escape goes in as it is, between quotes in the
+template; else through json's C escaper, encode_basestring), floats by "%r"
+(float.__repr__, as json writes them). Numpy masks find the rows that template cannot write
 (keys beyond v1, a type other than the usual one, a non-finite number); each
 of those is written on its own by the caller's `row_text` and takes the
 template "%s" followed by "%.0s" for the values it does not show.
@@ -14,6 +15,7 @@ template "%s" followed by "%.0s" for the values it does not show.
 from __future__ import annotations
 
 import math
+import re
 from json.encoder import encode_basestring
 from operator import not_
 from itertools import compress
@@ -23,11 +25,12 @@ import numpy as np
 from steelyard.core.document.model import Ledger
 from steelyard.io.exchange.item_columns import all_of_type, field, given, own_at, own_rows
 
-#: one item as json.dumps(indent=2) writes it inside the list (level 2): id, name, group (JSON strings),
-#: mass (float), quantity (int), x, y, z (floats), variable, inertia (null or `_TENSOR`'s text), density (text)
-_ROW = ('    {\n      "id": %s,\n      "name": %s,\n      "group": %s,\n      "mass_kg": %r,\n      "quantity": %s,\n'
+#: one item as json.dumps(indent=2) writes it inside the list (level 2): id, name, group (each JSON
+#: string, or its text inside quotes, `_row`), mass (float), quantity (int), x, y, z (floats), variable,
+#: inertia (null or `_TENSOR`'s text), density (text)
+_ROW = ('    {{\n      "id": {},\n      "name": {},\n      "group": {},\n      "mass_kg": %r,\n      "quantity": %s,\n'
         '      "cg_m": [\n        %r,\n        %r,\n        %r\n      ],\n      "variable": %s,\n'
-        '      "inertia_kg_m2": %s,\n      "density_kg_m3": %s\n    }')
+        '      "inertia_kg_m2": %s,\n      "density_kg_m3": %s\n    }}')
 _WIDTH = 11
 _OTHER = "%s" + "%.0s" * (_WIDTH - 1)  # a row written apart: its text, the other values not shown
 _ROWS = "[\n        [\n          {}\n        ],\n        [\n          {}\n        ],\n        [\n          {}\n        ]\n      ]"
@@ -45,13 +48,21 @@ def _finite(values: list) -> np.ndarray:
     return np.array([type(v) is float and math.isfinite(v) for v in values], dtype=bool)
 
 
-def _strings(values: list) -> tuple[list[str], np.ndarray | None]:
-    """(JSON text of each value, rows that are not a str, or None when all are)."""
+#: the characters json.dumps(ensure_ascii=False) escapes in a string: the quote, the backslash, C0 controls
+_ESCAPED = re.compile(r'[\x00-\x1f"\\]')
+
+
+def _strings(values: list) -> tuple[list[str], bool, np.ndarray | None]:
+    """(text of each value, quoted, rows that are not a str or None when all are). When no value
+    holds a character json escapes, each value is its own text and `quoted` False: the row
+    template puts the quotes around it; else each text is json's (encode_basestring), quotes included."""
     try:
-        return list(map(encode_basestring, values)), None
+        if not _ESCAPED.search("".join(values)):  # TypeError unless every value is a str
+            return values, False, None
+        return list(map(encode_basestring, values)), True, None
     except TypeError:
         odd = np.array([not isinstance(v, str) for v in values], dtype=bool)
-        return [encode_basestring(v) if isinstance(v, str) else "" for v in values], odd
+        return [encode_basestring(v) if isinstance(v, str) else "" for v in values], True, odd
 
 
 def _tensors(own: np.ndarray) -> list[str]:
@@ -92,18 +103,16 @@ def items_text(ledger: Ledger, variable: list, more: list[int], row_text) -> str
     plain = np.ones(n, dtype=bool)
     plain[more] = False  # keys beyond v1: more keys in the record
 
-    ids, odd = _strings(field(items, "id"))
-    if odd is not None:
-        plain &= ~odd
     names = field(items, "name")
     for i in compress(range(n), map(not_, names)):  # "name": the name, or the id when there is none
         names[i] = items[i].id
-    names, odd = _strings(names)
-    if odd is not None:
-        plain &= ~odd
-    groups, odd = _strings(field(items, "group"))
-    if odd is not None:
-        plain &= ~odd
+    strings, quoted = [], []
+    for values in (field(items, "id"), names, field(items, "group")):
+        texts, done, odd = _strings(values)
+        strings.append(texts)
+        quoted.append(done)
+        if odd is not None:
+            plain &= ~odd
 
     masses = field(items, "mass")
     plain &= _finite(masses)
@@ -129,12 +138,12 @@ def items_text(ledger: Ledger, variable: list, more: list[int], row_text) -> str
             density[i] = text
         plain[np.array(at)[~_finite(values)]] = False
 
-    columns = [ids, names, groups, masses, quantities, *(cg[:, j].tolist() for j in range(3)),
+    columns = [*strings, masses, quantities, *(cg[:, j].tolist() for j in range(3)),
                list(map(("false", "true").__getitem__, variable)), inertia, density]
     flat = [None] * (n * _WIDTH)
     for j, column in enumerate(columns):
         flat[j::_WIDTH] = column
-    templates = [_ROW] * n
+    templates = [_ROW.format(*("%s" if done else '"%s"' for done in quoted))] * n
     others = np.flatnonzero(~plain).tolist()
     if others:
         own_index = dict(zip(rows.tolist(), range(len(rows))))
