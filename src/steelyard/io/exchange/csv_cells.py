@@ -101,16 +101,57 @@ def number_text(si: float, factor: float, decimal_comma: bool = False) -> str:
     return text.replace(".", ",") if decimal_comma else text
 
 
+#: 10**k for k = 0..22, each exact in a float (int -> float conversion is exact below 2**53 * 2**k)
+_POW10 = np.array([float(10 ** k) for k in range(23)])
+
+
+def _reads_back(v: np.ndarray, si: np.ndarray, factor: float) -> np.ndarray:
+    """(n,) bool, True where t = f"{v:.12g}" is known to pass `number_text`'s first test,
+    float(t) * factor == si, shown without formatting or parsing t.
+
+    With e the decimal exponent of v and k = 11 - e, t holds the digits of q, the integer
+    nearest the exact v·10**k (10**11 <= |q| < 10**12), so float(t) is q / 10**k correctly
+    rounded: exactly what the float division of q by 10**k (both exact, k <= 22) gives.
+    v * 10**k is computed with an error below 2**-14 (|product| < 2**40), so when it lies
+    less than 0.499 from q, q is that nearest integer. False is only "not shown": the
+    caller then formats and parses."""
+    with np.errstate(all="ignore"):
+        a = np.abs(v)
+        k = 11.0 - np.floor(np.log10(np.where(a == 0.0, 1.0, a)))
+        fits = (k >= 0.0) & (k <= 22.0)  # NaN and inf drop out here
+        scale = _POW10[np.where(fits, k, 0.0).astype(np.intp)]
+        p = v * scale
+        q = np.rint(p)
+        twelve = ((np.abs(q) >= 1e11) & (np.abs(q) < 1e12)) | (a == 0.0)  # 0 is written "0"
+        return fits & twelve & (np.abs(p - q) < 0.499) & ((q / scale) * factor == si)
+
+
 def number_column(si: np.ndarray, factor: float, decimal_comma: bool = False) -> list[str]:
     """`number_text` of every value of `si`, the same texts: the common case (12 significant
-    digits multiply back exactly) in one pass; the rest one by one."""
+    digits multiply back exactly) in one formatting pass, checked with numpy (`_reads_back`);
+    the rest parsed back, then number_text's ladder (15, 16, 17 digits) a step at a time for
+    all the values still left, and only those no digit count fits one by one."""
     si = np.asarray(si, dtype=float)
     v = si / factor + 0.0
     texts = (("%.12g\n" * len(v)) % tuple(v.tolist())).split("\n")[:-1]  # one C call: f"{x:.12g}" each
-    back = np.fromiter(map(float, texts), float, len(texts))
-    for i in np.flatnonzero(back * factor != si).tolist():
+    rest = np.flatnonzero(~_reads_back(v, si, factor))
+    for digits in (12, 15, 16, 17):  # number_text's ladder, each step for all the values still left
+        if not len(rest):
+            break
+        if digits == 12:
+            tried = [texts[i] for i in rest.tolist()]
+        else:
+            tried = (f"%.{digits}g\n" * len(rest) % tuple(v[rest].tolist())).split("\n")[:-1]
+        back = np.fromiter(map(float, tried), float, len(rest))
+        hit = back * factor == si[rest]
+        for i, text in zip(rest[hit].tolist(), compress(tried, hit.tolist())):
+            texts[i] = text
+        rest = rest[~hit]
+    for i in rest.tolist():  # no digit count multiplies back exactly: number_text looks at the neighbours
         texts[i] = number_text(float(si[i]), factor)
-    return [t.replace(".", ",") for t in texts] if decimal_comma else texts
+    if decimal_comma:
+        texts = "\n".join(texts).replace(".", ",").split("\n")
+    return texts
 
 
 _CELL = re.compile(NUMBER)
