@@ -195,17 +195,28 @@ def rows_with(items: Sequence[Item], *names: str, unset: object = None,
     return np.flatnonzero(hit).tolist()
 
 
+def more_rows_of(items: Sequence[Item]) -> list[int]:
+    """Rows of the items that give some key beyond v1 (ITEM_MORE), ascending: one comparison per item,
+    in C (`removable` unset may be False or None)."""
+    from operator import attrgetter, ne
+
+    held = list(map(attrgetter(*ITEM_MORE), items))
+    n = len(held)
+    none = tuple(None for _ in ITEM_MORE)
+    none_removable = tuple(False if k == "removable" else None for k in ITEM_MORE)
+    if held.count(none) + held.count(none_removable) == n:  # no tuple equals both (None != False)
+        return []
+    some = (np.fromiter(map(ne, held, repeat(none)), bool, n)
+            & np.fromiter(map(ne, held, repeat(none_removable)), bool, n))
+    return np.flatnonzero(some).tolist()
+
+
 def more_rows(ledger: "Ledger") -> list[int]:
-    """Rows whose Item gives any key beyond v1 (ITEM_MORE), ascending; one pass, kept with the ledger
-    (immutable: an edit makes a new one). The checks of those keys loop over these rows only."""
+    """`more_rows_of(ledger.items)`, kept with the ledger (immutable: an edit makes a new one, and
+    `_carry_more_rows` follows a one-row edit). The checks of those keys loop over these rows only."""
     cached = ledger.__dict__.get("_more_rows")
     if cached is None:
-        from operator import attrgetter, ne
-
-        items = ledger.items
-        unset = tuple(False if k == "removable" else None for k in ITEM_MORE)
-        flags = np.fromiter(map(ne, map(attrgetter(*ITEM_MORE), items), repeat(unset)), bool, len(items))
-        cached = ledger.__dict__["_more_rows"] = np.flatnonzero(flags).tolist()
+        cached = ledger.__dict__["_more_rows"] = more_rows_of(ledger.items)
     return cached
 
 
@@ -505,11 +516,9 @@ def _carry_more_rows(old: Ledger, new: Ledger, row: int) -> None:
     if cached is None:
         return
     from bisect import insort
-    from operator import attrgetter
 
     rows = [r for r in cached if r != row]
-    unset = tuple(False if k == "removable" else None for k in ITEM_MORE)
-    if attrgetter(*ITEM_MORE)(new.items[row]) != unset:
+    if more_rows_of(new.items[row:row + 1]):
         insort(rows, row)
     new.__dict__["_more_rows"] = rows
 

@@ -9,17 +9,13 @@ and numpy, and the few rows that need more are then handled one by one.
 from __future__ import annotations
 
 from itertools import repeat
-from operator import attrgetter, is_not, ne
+from operator import attrgetter, is_not
 from typing import Sequence
 
 import numpy as np
 
-from steelyard.core.document.model import ITEM_MORE, Item, ItemArrays
+from steelyard.core.document.model import Item, ItemArrays, more_rows_of
 
-_MORE = attrgetter(*ITEM_MORE)
-#: what an item without any key beyond v1 holds in them (`removable` may be False or None)
-_NONE = tuple(None for _ in ITEM_MORE)
-_NONE_REMOVABLE = tuple(False if k == "removable" else None for k in ITEM_MORE)
 
 
 def field(items: Sequence[Item], key: str) -> list:
@@ -58,12 +54,5 @@ def own_at(arrays: ItemArrays, rows: np.ndarray) -> np.ndarray:
 
 
 def more_rows(items: Sequence[Item]) -> list[int]:
-    """Rows of the items that give some key beyond v1 (csv_model.item_more is not empty): one
-    comparison per item, in C."""
-    held = list(map(_MORE, items))
-    n = len(held)
-    if held.count(_NONE) + held.count(_NONE_REMOVABLE) == n:  # no tuple equals both (None != False)
-        return []
-    some = (np.fromiter(map(ne, held, repeat(_NONE)), bool, n)
-            & np.fromiter(map(ne, held, repeat(_NONE_REMOVABLE)), bool, n))
-    return np.flatnonzero(some).tolist()
+    """Rows of the items that give some key beyond v1 (csv_model.item_more is not empty)."""
+    return more_rows_of(items)
