@@ -343,7 +343,11 @@ def test_sigkill_mid_appends_keeps_every_complete_record(ledger_file):
 
 
 _CHILD = textwrap.dedent("""
+    import signal
     import sys
+    # an editor in a live terminal session ends on SIGHUP; a test run under nohup
+    # would hand this child an ignored SIGHUP and the kill would never land
+    signal.signal(signal.SIGHUP, signal.SIG_DFL)
     import steelyard.io.durability.journal as J
     from steelyard.io.ledger.file import open_ledger
     path, sha = sys.argv[1], sys.argv[2]
