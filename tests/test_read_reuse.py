@@ -218,6 +218,39 @@ def test_more_rows_are_the_rows_a_plain_loop_names_and_follow_an_edit(tmp_path):
             i for i, it in enumerate(edited.items) if any(getattr(it, k) not in (None, False) for k in ITEM_MORE)]
 
 
+def _plain_more(ledger) -> list[int]:
+    from steelyard.core.document.model import ITEM_MORE
+
+    return [i for i, it in enumerate(ledger.items) if any(getattr(it, k) not in (None, False) for k in ITEM_MORE)]
+
+
+@pytest.mark.parametrize("seed", [1, 2, 5])
+def test_more_rows_kept_through_the_memory_are_the_rows_a_plain_loop_names(generated, seed):
+    # the rows giving keys beyond v1 known after a reading through the memory (taken rows from the
+    # earlier reading, parsed rows looked at now) against a loop over the later ledger's items; rows
+    # gain and lose such keys, tables are dropped and copied in, a chain carries the list on
+    from steelyard.core.document.model import more_rows
+
+    head, tables, tail = _tables(generated)
+    gave = list(range(5, len(tables) - 1, 37))
+    for k in gave:
+        tables[k] = tables[k].rstrip("\n") + '\nmaturity = "layout"\n'
+    a_text = _join(head, tables, tail)
+    tables[gave[0]] = re.sub(r"(?m)^maturity = .*\n", "", tables[gave[0]])
+    plain_row = next(k for k, t in enumerate(tables) if "maturity" not in t and k not in gave)
+    tables[plain_row] = tables[plain_row].rstrip("\n") + '\nmaturity = "estimated"\n'
+    b_text = bench_diff.perturb(_join(head, tables[:30] + tables[31:], tail), seed)[0]
+    memory = ReadMemory()
+    first = _read(a_text, memory)
+    assert memory.earlier.more == _plain_more(first) and len(_plain_more(first)) == len(gave)
+    got = _read(b_text, memory)
+    assert memory.reused > 0
+    assert got.__dict__["_more_rows"] == _plain_more(got) == more_rows(_read(b_text))
+    c_text = bench_diff.perturb(a_text, seed + 100)[0]
+    third = _read(c_text, memory)
+    assert third.__dict__["_more_rows"] == _plain_more(third)
+
+
 # ---------------------------------------------------------------------------------------------- the diff
 
 

@@ -7,6 +7,7 @@ computed here independently of the program; tomllib for the stored hash.
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import hashlib
 import sys
@@ -18,7 +19,7 @@ import pytest
 import steelyard.io.ledger.snapshot as snapshot_mod
 from steelyard.io.ledger.file import load_ledger, open_ledger
 from steelyard.io.ledger.snapshot import SnapshotMismatch, snapshot_text, verify_loaded
-from steelyard.io.ledger.snapshot_bytes import content_sha256_of_bytes, written_content_sha256
+from steelyard.io.ledger.snapshot_bytes import content_sha256_of_bytes, file_hashes, written_content_sha256
 
 ROOT = Path(__file__).resolve().parents[1]
 TAKEN = dt.datetime(2026, 1, 1, tzinfo=dt.timezone.utc)
@@ -111,7 +112,9 @@ def test_an_item_added_after_the_snapshot_table_is_not_taken_on_trust(snap):
 
 
 def test_bytes_changed_after_the_read_are_not_used(snap, monkeypatch):
-    loaded = open_ledger(snap)
+    """A read that kept no content hash (from the cache, at a git revision) reads the file again:
+    bytes that are no longer the ones the ledger came from are not used."""
+    loaded = dataclasses.replace(open_ledger(snap), content_sha256=None)
     snap.write_bytes(b"# changed on disk\n" + snap.read_bytes())
     assert written_content_sha256(loaded) is None  # not the bytes the ledger came from
     count = _Counting(monkeypatch)
@@ -122,3 +125,37 @@ def test_bytes_changed_after_the_read_are_not_used(snap, monkeypatch):
 def test_not_a_snapshot_file_gives_no_shortcut():
     assert content_sha256_of_bytes(b"steelyard = 1\n") is None
     assert content_sha256_of_bytes(b"steelyard = 1\n\n[snapshot]\nformat = [\n") is None  # broken tail
+
+
+def test_opening_hashes_the_file_and_its_content_in_one_pass(snap):
+    """The hashes taken while opening equal hashlib's over the whole file and over the content bytes."""
+    data = snap.read_bytes()
+    loaded = open_ledger(snap)
+    assert loaded.sha256 == hashlib.sha256(data).hexdigest()
+    assert loaded.content_sha256 == _reference_sha(data)
+    assert file_hashes(data) == (hashlib.sha256(data).hexdigest(), _reference_sha(data))
+
+
+def test_file_hashes_of_other_files_give_no_content_hash(tmp_path):
+    plain = (ROOT / "fixtures" / "trainer.toml").read_bytes()
+    assert file_hashes(plain) == (hashlib.sha256(plain).hexdigest(), None)
+    assert open_ledger(ROOT / "fixtures" / "trainer.toml").content_sha256 is None
+    # a [snapshot] header followed by more than that table: no shortcut (docs/format.md)
+    odd = b"steelyard = 1\n\n[snapshot]\nloadout = \"a\"\n\n[units]\nmass = \"kg\"\n"
+    assert file_hashes(odd) == (hashlib.sha256(odd).hexdigest(), None)
+
+
+def test_a_snapshot_edited_after_opening_is_judged_on_the_bytes_read(snap, monkeypatch):
+    """The content hash of the bytes the ledger came from; a later change on disk does not enter."""
+    loaded = open_ledger(snap)
+    snap.write_bytes(snap.read_bytes().replace(b"steelyard = 1", b"steelyard = 1\n# changed later", 1))
+    count = _Counting(monkeypatch)
+    verify_loaded(loaded)
+    assert count.calls == 0
+
+
+def test_the_snapshot_table_name_is_the_diffs():
+    from steelyard.core.history.diff import SNAPSHOT_TABLE as in_diff
+    from steelyard.io.ledger.snapshot_bytes import SNAPSHOT_TABLE
+
+    assert SNAPSHOT_TABLE == in_diff

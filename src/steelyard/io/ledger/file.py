@@ -30,6 +30,7 @@ from steelyard.io.durability.atomic import (  # noqa: F401 - ChangedOnDisk re-ex
 )
 from steelyard.io.ledger.read import Progress
 from steelyard.io.ledger.read_stream import ledger_from_text
+from steelyard.io.ledger.snapshot_bytes import file_hashes
 from steelyard.io.ledger.toml_read import decode
 
 if TYPE_CHECKING:
@@ -60,6 +61,9 @@ class LoadedLedger:
     not_kept: str = ""
     #: the ledger came from the read cache (io.ledger.cache): never written from before `confirmed_fresh`
     from_cache: bool = False
+    #: SHA-256 of the bytes read before a trailing [snapshot] table (io.ledger.snapshot_bytes), None when
+    #: the file does not end so or the read came from elsewhere (cache, git): a snapshot check then hashes anew
+    content_sha256: str | None = None
 
 
 def read_bytes(path: str | os.PathLike) -> bytes:
@@ -119,7 +123,8 @@ def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
     tree = None
     try:
         data = read_bytes(path)
-        sha = hashlib.sha256(data).hexdigest()  # once: the cache's key, the disk check's and the entry's
+        # once: the cache's key, the disk check's and the entry's; a snapshot's content hash on the way
+        sha, content_sha = file_hashes(data)
         if cache:
             hit = _from_cache(source, data, fast, sha)
             if hit is not None:
@@ -134,7 +139,7 @@ def open_ledger(path: str | os.PathLike, *, progress: Progress | None = None,
             mark_failed(source)
         raise
     mark_loaded(source)
-    loaded = LoadedLedger(ledger, source, sha, has_comments(text), time.time())
+    loaded = LoadedLedger(ledger, source, sha, has_comments(text), time.time(), content_sha256=content_sha)
     if cache:
         from steelyard.io.ledger import cache as _cache
 

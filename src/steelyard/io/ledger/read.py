@@ -332,7 +332,9 @@ def _placed(assemblies: tuple, items: list, arrays, units: FileUnits, frame: Fra
 
 
 def _ledger_from_data(data: object, *, source: str, progress: Progress | None = None, tree=None,
-                      tree_source=None, read_items=None) -> Ledger:
+                      tree_source=None, read_items=None, more_rows=None) -> Ledger:
+    """`more_rows`: the items' `core.document.model.more_rows`, when the caller knows them already
+    (io.ledger.read_reuse); kept with the ledger unless rows were placed from assemblies."""
     if not isinstance(data, dict):
         raise FormatError("not a steelyard ledger", file=source)
     version = data.get("steelyard")
@@ -380,6 +382,8 @@ def _ledger_from_data(data: object, *, source: str, progress: Progress | None = 
                     assemblies=assemblies, placed=placed)
     ledger.__dict__["index"] = index
     ledger = with_arrays(ledger, arrays)
+    if more_rows is not None and not placed:
+        ledger.__dict__["_more_rows"] = more_rows
     notes = _unit_notes(data, units, bare_inertia)
     if notes:
         ledger.__dict__["_read_notes"] = notes

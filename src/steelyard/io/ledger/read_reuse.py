@@ -69,6 +69,9 @@ class _Earlier:
     arrays: ItemArrays
     own_at: np.ndarray  # (n,) index into arrays' sparse own values, -1 where none
     bare: np.ndarray  # (n,) bool: the row gives an inertia component as a bare number
+    #: the ledger's `more_rows` (core.document.model) once it was made from these rows alone (no rows
+    #: placed from assemblies); None until then
+    more: list[int] | None = None
     _rows: dict[int, int] | None = None
 
     @property
@@ -212,14 +215,32 @@ class _Reading:
         self.memory.shared = (src, hit)
         return items.tolist(), arrays, bool(self.bare_rows.any())
 
-    def remember(self, items: list, arrays: ItemArrays) -> None:
-        """Keep this reading for the next one (only when every piece cut as expected)."""
+    def more_rows(self, items: list) -> list[int] | None:
+        """`more_rows_of(items)` of the assembled rows when the earlier reading's ledger left its own:
+        the taken rows hold the very Items it looked at, so only the parsed rows are looked at now.
+        Call after `assemble` (and after the caller refused a repeated id); None when not known."""
+        from steelyard.core.document.model import more_rows_of
+
+        e, shared = self.earlier, self.memory.shared
+        if e is None or e.more is None or shared is None:
+            return None
+        src, hit = shared
+        new_row = np.full(len(e.items), -1, dtype=np.intp)
+        new_row[src] = hit
+        kept = new_row[np.asarray(e.more, dtype=np.intp)]
+        miss = np.flatnonzero(np.array(self.code, dtype=np.intp) < 0)
+        parsed = more_rows_of(_pick(items, miss))
+        return np.sort(np.concatenate([kept[kept >= 0], miss[np.asarray(parsed, dtype=np.intp)]])).tolist()
+
+    def remember(self, items: list, arrays: ItemArrays) -> _Earlier | None:
+        """Keep this reading for the next one (only when every piece cut as expected); the kept
+        reading, or None when nothing new was kept."""
         n = len(items)
         if self.earlier is not None and not self.memory.chain:
-            return
+            return None
         if self.bad or len(self.keys) != n or self.bare_rows is None or len(self.bare_rows) != n:
             self.memory.earlier = None
-            return
+            return None
         obj = np.empty(n, dtype=object)
         obj[:] = items
         own_rows, _ = arrays.own_sparse()
@@ -227,3 +248,4 @@ class _Reading:
         own_at[own_rows] = np.arange(len(own_rows))
         self.memory.earlier = _Earlier(self.head, self.fast, self.keys, self.whole, obj, arrays, own_at,
                                        self.bare_rows)
+        return self.memory.earlier

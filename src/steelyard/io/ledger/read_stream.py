@@ -106,6 +106,7 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
         *(np.empty(0), np.empty(0), np.empty((0, 3)), np.empty(0, dtype=bool), np.empty(0, dtype=np.intp),
           np.empty((0, 3, 3))))
     del parts
+    more = kept = None
     if reading is not None:
         got = reading.assemble(items, arrays)
         if got is None:
@@ -117,6 +118,10 @@ def _streamed(text: str, at: list[int], *, source: str, progress: Progress | Non
             if len(seen) != len(items):
                 memory.earlier = None
                 raise toml_chunks.NotChunkable("a repeated id: the fresh reading words it")
-        reading.remember(items, arrays)
-    return _ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source,
-                             read_items=(items, arrays, bare, seen))  # seen: id -> row, the index
+            more = reading.more_rows(items)
+        kept = reading.remember(items, arrays)
+    ledger = _ledger_from_data(data, source=source, progress=progress, tree=tree, tree_source=tree_source,
+                               read_items=(items, arrays, bare, seen), more_rows=more)  # seen: id -> row
+    if kept is not None and not ledger.placed and len(ledger.items) == len(kept.items):
+        kept.more = ledger.__dict__.get("_more_rows")  # the next reading looks only at its parsed rows
+    return ledger
