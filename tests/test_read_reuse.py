@@ -194,6 +194,13 @@ def test_rows_with_names_the_rows_a_plain_loop_names(generated):
     for name in ("inertia", "density", "shape", "maturity"):
         assert rows_with(items, name) == [i for i, it in enumerate(items) if getattr(it, name) is not None]
     assert rows_with(items, "variable", unset=False) == [i for i, it in enumerate(items) if it.variable is not False]
+    # looking only at some rows (`among`: one, none, several): the plain loop over those rows
+    shaped = [i for i, it in enumerate(items) if it.shape is not None]
+    some = list(range(0, len(items), 3))
+    for among in (some, [shaped[0]], [1], []):
+        for names in (("shape",), ("shape", "density")):
+            assert rows_with(items, *names, among=among) == [
+                i for i in among if any(getattr(items[i], k) is not None for k in names)]
 
 
 

@@ -184,8 +184,17 @@ def rows_with(items: Sequence[Item], *names: str, unset: object = None,
     from operator import attrgetter, is_not
 
     if among is not None:
-        get = [attrgetter(name) for name in names]
-        return [i for i in among if any(g(items[i]) is not unset for g in get)]
+        if not among:
+            return []
+        from operator import itemgetter
+
+        picked = itemgetter(*among)(items)
+        if len(among) == 1:
+            picked = (picked,)
+        hit = np.zeros(len(among), dtype=bool)
+        for name in names:
+            hit |= np.fromiter(map(is_not, map(attrgetter(name), picked), repeat(unset)), bool, len(among))
+        return np.asarray(among, dtype=np.intp)[hit].tolist()
     n = len(items)
     if n == 0:
         return []
