@@ -133,6 +133,20 @@ def test_a_chain_of_versions_each_read_through_the_one_before(generated):
         _same(_read(t, memory), _read(t))
 
 
+def test_equal_hashes_alone_take_nothing(generated, monkeypatch):
+    # every table text hashed alike (the worst collisions): the texts decide, and the reading is the
+    # fresh one; a hash that never matches takes nothing either
+    import steelyard.io.ledger.read_reuse as read_reuse
+
+    b_text = bench_diff.perturb(generated, 6)[0]
+    for fake in (lambda text: 7, lambda text: id(text)):
+        monkeypatch.setattr(read_reuse, "hash", fake, raising=False)
+        memory, got = _through(generated, b_text)
+        assert got[0] == "ok", got[1]
+        _same(got[1], _read(b_text))
+        assert memory.reused <= 1
+
+
 def test_the_first_reading_is_kept_when_chain_is_off(generated):
     b_text = bench_diff.perturb(generated, 4)[0]
     memory = ReadMemory(chain=False)

@@ -72,17 +72,26 @@ class _Earlier:
     #: the ledger's `more_rows` (core.document.model) once it was made from these rows alone (no rows
     #: placed from assemblies); None until then
     more: list[int] | None = None
-    _rows: dict[int, int] | None = None
+    _lookup: tuple[np.ndarray, np.ndarray] | None = None
 
-    @property
-    def rows(self) -> dict[int, int]:
-        """hash of a table's text -> row, made when a later reading first asks (a hit is then
-        compared text to text: equal hashes alone decide nothing)"""
-        if self._rows is None:
-            keys = self.keys if all(self.whole) else [k for k, w in zip(self.keys, self.whole) if w]
-            rows = range(len(keys)) if all(self.whole) else [i for i, w in enumerate(self.whole) if w]
-            self._rows = dict(zip(map(hash, reversed(keys)), reversed(rows)))  # the first row of a text wins
-        return self._rows
+    def find(self, keys: list[str]) -> np.ndarray:
+        """Per table text of `keys`: the earlier row whose text has the same hash (the first such row),
+        or -1. Equal hashes alone decide nothing: the caller compares the texts."""
+        if self._lookup is None:  # made when a later reading first asks: sorted hashes, their rows
+            rows = np.flatnonzero(np.array(self.whole, dtype=bool))  # only a whole table can be taken
+            h = np.fromiter(map(hash, self.keys), np.int64, len(self.keys))[rows]
+            order = np.argsort(h, kind="stable")  # equal hashes keep file order: the first row wins
+            self._lookup = (h[order], rows[order])
+        sorted_h, rows = self._lookup
+        m = len(keys)
+        got = np.full(m, -1, dtype=np.intp)
+        if not len(sorted_h) or not m:
+            return got
+        want = np.fromiter(map(hash, keys), np.int64, m)
+        at = np.minimum(np.searchsorted(sorted_h, want), len(sorted_h) - 1)
+        hit = sorted_h[at] == want
+        got[hit] = rows[at[hit]]
+        return got
 
 
 @dataclass
@@ -137,7 +146,7 @@ class _Reading:
         if e is None:
             self.code.extend(repeat(-1, m))
             return text
-        got = np.fromiter(map(e.rows.get, map(hash, keys), repeat(-1)), np.intp, m)
+        got = e.find(keys)
         at = np.flatnonzero(got >= 0)
         if len(at):
             equal = np.fromiter(map(operator.eq, _pick(keys, at), _pick(e.keys, got[at])), bool, len(at))
