@@ -36,7 +36,7 @@ from steelyard.core.history.diff_tables import (DefinitionChanges, TableChanges,
 from steelyard.core.history.diff_text import change_rows
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.loading.loadout import fill_fractions, state_from_fill
-from steelyard.core.document.model import ITEM_MORE, Ledger, rows_with
+from steelyard.core.document.model import ITEM_MORE, Ledger, more_rows, rows_with
 from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
 from steelyard.core.limits.status import EnvelopeResult, envelope_results
 
@@ -153,16 +153,18 @@ def _loaded_marker(item_id: str, raw: object) -> tuple[float, float]:
     return float(raw["capacity_kg"]), float(raw["fill"])
 
 
-def _markers(items, capacity: np.ndarray, variable: np.ndarray) -> None:
+def _markers(ledger: Ledger, capacity: np.ndarray, variable: np.ndarray) -> None:
     """A snapshot's load items, from their markers: capacity and `variable` set in place.
 
     Every marker is checked: in bulk when each is a table of two finite numbers, else one at a
-    time, so the first bad one is named as `_loaded_marker` words it."""
-    rows = rows_with(items, LOADED_KEY)
-    marks = [getattr(items[i], LOADED_KEY) for i in rows]
-    if all(type(m) is dict for m in marks):
-        caps = [m.get("capacity_kg") for m in marks]
-        fills = [m.get("fill") for m in marks]
+    time, so the first bad one is named as `_loaded_marker` words it. Only the rows giving keys
+    beyond v1 (`more_rows`, known from the reading) can hold one."""
+    items = ledger.items
+    rows = rows_with(items, LOADED_KEY, among=more_rows(ledger))
+    marks = list(map(operator.attrgetter(LOADED_KEY), _pick(items, rows)))
+    if {dict}.issuperset(map(type, marks)):
+        caps = list(map(dict.get, marks, repeat("capacity_kg")))
+        fills = list(map(dict.get, marks, repeat("fill")))
         if {float, int}.issuperset(map(type, caps)) and {float, int}.issuperset(map(type, fills)):
             try:
                 c, f = np.array(caps, dtype=float), np.array(fills, dtype=float)
@@ -215,7 +217,7 @@ def carried(ledger: Ledger, loadout: str | None = None) -> Carried:
     variable = a.variable.copy()
     capacity = np.where(variable, a.unit_mass * a.quantity, np.nan)
     if is_snapshot(ledger):  # every marker is checked here, whichever rows are compared later
-        _markers(items, capacity, variable)
+        _markers(ledger, capacity, variable)
     mp = rollup_state(state)
     check_finite_rollup(mp, items)  # a side beyond a float is refused naming the item, before any arithmetic
     return Carried(ledger, loadout, a.quantity, a.unit_mass * fill, a.cg, variable, capacity, mp, state.mass,
