@@ -81,7 +81,7 @@ def _new_units(r: CsvTable) -> FileUnits:
 
 def _inertia(r: CsvTable) -> tuple[np.ndarray, np.ndarray]:
     """(six (n, 6) SI, given (n,)); the three moments are required on a row that gives any."""
-    n = len(r.rows)
+    n = r.n
     six, blanks = np.zeros((n, 6)), np.ones((n, 6), dtype=bool)
     present = [c for c in COMPONENTS if r.has(c)]
     for c in present:
@@ -160,7 +160,7 @@ class _Columns:
     """Every column converted and checked, before any item is built."""
 
     def __init__(self, r: CsvTable, into: Ledger | None, units: FileUnits):
-        n = len(r.rows)
+        n = r.n
         _ids(r, into)
         if r.has("group") and any(map(group_depth_problem, set(r.cols["group"]))):  # each path once
             for k, g in enumerate(r.cols["group"]):
@@ -201,7 +201,7 @@ class _Columns:
 
     @staticmethod
     def _tolerances(r: CsvTable, units: FileUnits) -> list:
-        n = len(r.rows)
+        n = r.n
         kinds = r.cols["tol kind"] if r.has("tol kind") else [""] * n
         cols = {c: r.floats(c) if r.has(c) else (np.full(n, np.nan), np.ones(n, bool)) for c in TOL_COLUMNS[1:]}
         out = []
@@ -298,8 +298,9 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
         ledger = Ledger(tuple(_new_items(r, cols)), units)
         ids = r.ids
         places = CsvPlaces(RowPlaces(r.lines, ids), r.labels)
+        given = _given(r)
         del r, cols  # the cells (millions of strings): freed before the write and read-back need the memory
-        check_ledger(ledger, source, places)
+        check_ledger(ledger, source, places, given)  # (the number cells kept for the writer, freed after it)
         return CsvImport(ledger, tuple(ids), (), (), places)
     index = into.index
     items = list(into.items)
@@ -333,6 +334,16 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
     places = CsvPlaces(RowPlaces(r.lines, r.ids), r.labels)
     check_ledger(ledger, source, places)
     return CsvImport(ledger, tuple(added), tuple(replaced), tuple(same), places)
+
+
+#: writer field (write_items.items_text) -> the CSV column that gives it
+_NUMBER_FIELDS = {"mass": "mass", "cg.0": "x", "cg.1": "y", "cg.2": "z", **{f"inertia.{c}": c for c in COMPONENTS}}
+
+
+def _given(r: CsvTable) -> dict:
+    """The number cells of a new ledger's items and their values, for the writer to take those that
+    already are its text: field -> (cells, float of each cell), one per item."""
+    return {name: (r.cols[key], r.values[key]) for name, key in _NUMBER_FIELDS.items() if key in r.values}
 
 
 def _new_items(r: CsvTable, cols: _Columns) -> list[Item]:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import csv
 import io
+from itertools import repeat
 
 import numpy as np
 
@@ -42,33 +43,32 @@ def _no_space(text: str) -> bool:
     return text.isascii() and not any(c in text for c in _ASCII_SPACE)
 
 
+def _first_line(text: str) -> str | None:
+    """`next(s for s in text.splitlines() if s.strip(" \\t,;"))`, without splitting all of a long text."""
+    head = text[:65536].splitlines()
+    complete = head if len(text) <= 65536 else head[:-1]  # the last piece of a cut text may be cut short
+    first = next((s for s in complete if s.strip(" \t,;")), None)
+    if first is None and len(text) > 65536:
+        first = next((s for s in text.splitlines() if s.strip(" \t,;")), None)
+    return first
+
+
 class CsvTable:
     """One CSV text: header, columns of cell strings, then typed, located values."""
 
     def __init__(self, text: str, source: str, decimal_comma: bool):
         self.source, self.comma = source, decimal_comma
         text = text[1:] if text.startswith("\ufeff") else text  # a byte-order mark from a spreadsheet
-        first = next((s for s in text.splitlines() if s.strip(" \t,;")), None)
+        first = _first_line(text)
         if first is None:
             raise SteelyardError("empty CSV file (needs a header line: id,name,mass [kg],...)", file=source)
         sep = _sniff(first, decimal_comma, source)
-        if csv.field_size_limit() < _FIELD_LIMIT:
-            csv.field_size_limit(_FIELD_LIMIT)
-        if not self._read_fast(text, sep):
-            self._read_records(text, sep)
-        if not self.rows:
-            raise SteelyardError("has a header but no item rows", file=source)
-        self.ids = [""] * len(self.rows)
-        width = len(self.header)
-        if set(map(len, self.rows)) != {width}:
-            for k, cells in enumerate(self.rows):
-                if len(cells) > width and any(c.strip() for c in cells[width:]):
-                    raise self.fail(k, None, f"has {len(cells)} cells, the header has {width}")
-                cells += [""] * (width - len(cells))
-                del cells[width:]
+        columns = self._split_plain(text, sep)
+        if columns is None:
+            columns = self._records(text, sep)
         # text verbatim (less a formula guard); everything else without surrounding spaces
-        columns = list(zip(*self.rows))
         self.cols: dict[str, list[str]] = {}
+        self.values: dict[str, np.ndarray] = {}  # key -> float of each (stripped) cell, once `floats` read it
         for key, j in self.index.items():
             col = columns[j]
             if key in TEXT_COLUMNS:
@@ -76,6 +76,63 @@ class CsvTable:
                 self.cols[key] = [unprotect(c) for c in col] if "'" in "".join(col) else list(col)
             else:
                 self.cols[key] = list(col) if _no_space("".join(col)) else list(map(str.strip, col))
+
+    def _records(self, text: str, sep: str) -> list:
+        """The columns, read record by record with the csv module (quotes, line breaks in cells, ragged rows)."""
+        if csv.field_size_limit() < _FIELD_LIMIT:
+            csv.field_size_limit(_FIELD_LIMIT)
+        if not self._read_fast(text, sep):
+            self._read_records(text, sep)
+        if not self.rows:
+            raise SteelyardError("has a header but no item rows", file=self.source)
+        self.n = len(self.rows)
+        self.ids = [""] * self.n
+        width = len(self.header)
+        if set(map(len, self.rows)) != {width}:
+            for k, cells in enumerate(self.rows):
+                if len(cells) > width and any(c.strip() for c in cells[width:]):
+                    raise self.fail(k, None, f"has {len(cells)} cells, the header has {width}")
+                cells += [""] * (width - len(cells))
+                del cells[width:]
+        columns = list(zip(*self.rows))
+        del self.rows
+        return columns
+
+    def _split_plain(self, text: str, sep: str) -> list[list[str]] | None:
+        """The columns of a plain CSV text, cut with str.split; None when the csv module must read it.
+
+        Plain: no quote, no CR and no NUL anywhere, the first line is the header,
+        every line has the header's number of cells, and no row is blank (every id
+        cell holds more than white space). The csv module (RFC 4180 reading, the
+        excel dialect) then makes each line one record and cuts it at each
+        separator and nothing else, so its cells are these, line k + 1 being row k
+        (tests/test_csv_split.py compares the two).
+        """
+        if '"' in text or "\r" in text or "\0" in text:
+            return None
+        lines = text.split("\n")
+        if lines[-1] == "":
+            lines.pop()  # the text's final line break ends the last record
+        if len(lines) < 2 or not lines[0].replace(sep, "").strip():
+            return None
+        header = lines[0].split(sep)
+        width = len(header)
+        if set(map(str.count, lines, repeat(sep, len(lines)))) != {width - 1}:
+            return None  # a ragged or blank line: the records are worded and padded one by one
+        n = len(lines) - 1
+        del lines
+        cells = text[text.index("\n") + 1:].replace(sep, "\n").split("\n")
+        if len(cells) == n * width + 1:
+            cells.pop()  # after the final line break
+        columns = [cells[j::width] for j in range(width)]
+        del cells
+        self.header, self.header_line = [c.strip() for c in header], 1
+        self._columns()
+        if not all(map(str.strip, columns[self.index["id"]])):
+            self.header = None
+            return None  # a row without an id may be blank: the csv reading skips those
+        self.n, self.ids, self.lines = n, [""] * n, list(range(2, n + 2))
+        return columns
 
     def _read_fast(self, text: str, sep: str) -> bool:
         """All records at once, when each is one physical line (line k+1 is record k); False otherwise."""
@@ -168,6 +225,7 @@ class CsvTable:
         vals, blank, bad, why = parse_cells(self.cols[key], self.comma)
         if bad is not None:
             raise self.fail(bad, key, why)
+        self.values[key] = vals
         return vals, blank
 
     def reject(self, key: str, bad: np.ndarray, message: str) -> None:

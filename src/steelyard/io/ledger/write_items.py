@@ -18,9 +18,10 @@ from operator import attrgetter
 import numpy as np
 
 from steelyard.core.document.model import FileUnits, Item
-from steelyard.core.physics.inertia import COMPONENTS  # noqa: F401 - the order of `six`
+from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.units import unit_factor
 from steelyard.io.ledger.toml_write import _NEEDS_ESCAPE, _SHORT_HI, number, string, value
+from steelyard.io.ledger.write_given import given_texts
 
 _MORE = ("cg_table", "growth", "loaded", "maturity", "removable", "tolerance", "user")
 
@@ -29,8 +30,11 @@ _MORE = ("cg_table", "growth", "loaded", "maturity", "removable", "tolerance", "
 _BULK_LO = 1e-290
 
 
-def numbers(xs: list, factor: float) -> list[str]:
+def numbers(xs: list, factor: float, given: tuple[list[str], np.ndarray] | None = None) -> list[str]:
     """`[number(x, factor) for x in xs]`, the same texts.
+
+    `given`: (texts, their float values) the caller has for these numbers (a CSV's
+    cells): each one shown to be the answer is taken as it is (write_given).
 
     `number` takes the 14-digit rounding c of v = x / factor when it reads back
     exactly (c * factor == x) and 1e-3 <= |v| < 1e13; below 1e-3 it runs its
@@ -45,6 +49,12 @@ def numbers(xs: list, factor: float) -> list[str]:
     """
     if factor == 1.0 or not xs:
         return list(map(number, xs))
+    if given is not None:
+        out, rest = given_texts(np.array(xs, dtype=float), factor, *given)
+        if rest.size:
+            for i, t in zip(rest.tolist(), numbers([xs[i] for i in rest.tolist()], factor)):
+                out[i] = t
+        return out
     a = np.array(xs, dtype=float)
     n = len(a)
     with np.errstate(all="ignore"):
@@ -150,12 +160,23 @@ def _more_text(it: Item) -> str:
     return text
 
 
-def items_text(items, u: FileUnits) -> list[str]:
+def _given(given: dict | None, key: str, rows: list[int] | None) -> tuple[list[str], np.ndarray] | None:
+    """given[key] (texts, values, one per item) at `rows` (all when None), or None."""
+    g = given.get(key) if given else None
+    if g is None or rows is None:
+        return g
+    texts, values = g
+    return [texts[k] for k in rows], np.asarray(values)[rows]
+
+
+def items_text(items, u: FileUnits, given: dict | None = None) -> list[str]:
     """`"\\n".join(item_lines(it, u))` of every item.
 
     Items the template writes are spelled a field at a time: each field's
     texts as one column (attribute getters and formatting mapped in C), the
     columns then joined item by item. The rest go through `item_lines`.
+    `given`: "mass", "cg.0".."cg.2", "inertia.xx".. (COMPONENTS) -> (texts,
+    float values), one per item, that may already say those numbers (`numbers`).
     """
     from steelyard.io.ledger.write import item_lines
 
@@ -163,21 +184,25 @@ def items_text(items, u: FileUnits) -> list[str]:
     odd = [k for k, it in enumerate(items) if not _templated(it)]
     at = set(odd)
     plain = [it for k, it in enumerate(items) if k not in at] if odd else items
+    kept = [k for k in range(len(items)) if k not in at] if odd else None
     fm, fl, fi = unit_factor(u.mass, "mass"), unit_factor(u.length, "length"), unit_factor(u.inertia, "inertia")
     n = len(plain)
     cg = list(map(attrgetter("cg"), plain))
     cols = [_strings(list(map(attrgetter("id"), plain)), "[[item]]\nid = "),
             _strings(list(map(attrgetter("name"), plain)), "\nname = "),
             _strings(list(map(attrgetter("group"), plain)), "\ngroup = "),
-            list(map("\nmass = {}\ncg = [{}, {}, {}]".format, numbers(list(map(attrgetter("mass"), plain)), fm),
-                     *(numbers([c[k] for c in cg], fl) for k in range(3))))]
+            list(map("\nmass = {}\ncg = [{}, {}, {}]".format,
+                     numbers(list(map(attrgetter("mass"), plain)), fm, _given(given, "mass", kept)),
+                     *(numbers([c[k] for c in cg], fl, _given(given, f"cg.{k}", kept)) for k in range(3))))]
     quantity = list(map(attrgetter("quantity"), plain))
     if quantity.count(1) != n:
         cols.append([f"\nquantity = {q}" if q != 1 else "" for q in quantity])
     inertia = list(map(attrgetter("inertia"), plain))
     rows = [k for k, six in enumerate(inertia) if six is not None]
     if rows:
-        six = [numbers([inertia[k][j] for k in rows], fi) for j in range(6)]  # COMPONENTS order
+        at_rows = rows if kept is None else [kept[k] for k in rows]
+        six = [numbers([inertia[k][j] for k in rows], fi, _given(given, f"inertia.{c}", at_rows))
+               for j, c in enumerate(COMPONENTS)]
         col = [""] * n
         for k, text in zip(rows, map("\ninertia = {{ xx = {}, yy = {}, zz = {}, xy = {}, xz = {}, yz = {} }}".format,
                                      *six)):
