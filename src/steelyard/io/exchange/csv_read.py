@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import csv
 import io
-from itertools import repeat
 
 import numpy as np
 
@@ -33,6 +32,9 @@ def _sniff(first_line: str, decimal_comma: bool, source: str) -> str:
                              subject="line 1")
     return best
 
+
+#: a character a plain CSV text may not hold: `_split_plain` marks the line ends with it
+_MARK = "\x01"
 
 #: the ASCII characters str.strip() removes (str.isspace)
 _ASCII_SPACE = " \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f"
@@ -69,13 +71,20 @@ class CsvTable:
         # text verbatim (less a formula guard); everything else without surrounding spaces
         self.cols: dict[str, list[str]] = {}
         self.values: dict[str, np.ndarray] = {}  # key -> float of each (stripped) cell, once `floats` read it
+        self._lines: dict[str, str] = {}  # key -> its cells one a line (each ending "\n"), kept for `floats`
+        apostrophes = "'" in text
         for key, j in self.index.items():
             col = columns[j]
             if key in TEXT_COLUMNS:
                 # only a cell starting with an apostrophe can lose one (csv_cells.unprotect)
-                self.cols[key] = [unprotect(c) for c in col] if "'" in "".join(col) else list(col)
+                self.cols[key] = [unprotect(c) for c in col] if apostrophes and "'" in "".join(col) else list(col)
+                continue
+            lines = "\n".join(col) + "\n"
+            if lines.count("\n") == len(col) and _no_space(lines.replace("\n", "")):
+                self.cols[key] = list(col)  # no cell holds a line break or space: each is as stripped
+                self._lines[key] = lines
             else:
-                self.cols[key] = list(col) if _no_space("".join(col)) else list(map(str.strip, col))
+                self.cols[key] = list(map(str.strip, col))
 
     def _records(self, text: str, sep: str) -> list:
         """The columns, read record by record with the csv module (quotes, line breaks in cells, ragged rows)."""
@@ -101,30 +110,32 @@ class CsvTable:
     def _split_plain(self, text: str, sep: str) -> list[list[str]] | None:
         """The columns of a plain CSV text, cut with str.split; None when the csv module must read it.
 
-        Plain: no quote, no CR and no NUL anywhere, the first line is the header,
+        Plain: no quote, CR, NUL or U+0001 anywhere, the first line is the header,
         every line has the header's number of cells, and no row is blank (every id
         cell holds more than white space). The csv module (RFC 4180 reading, the
         excel dialect) then makes each line one record and cuts it at each
         separator and nothing else, so its cells are these, line k + 1 being row k
         (tests/test_csv_split.py compares the two).
         """
-        if '"' in text or "\r" in text or "\0" in text:
+        if '"' in text or "\r" in text or "\0" in text or _MARK in text or "\n" not in text:
             return None
-        lines = text.split("\n")
-        if lines[-1] == "":
-            lines.pop()  # the text's final line break ends the last record
-        if len(lines) < 2 or not lines[0].replace(sep, "").strip():
-            return None
-        header = lines[0].split(sep)
+        cut = text.index("\n")
+        header = text[:cut].split(sep)
         width = len(header)
-        if set(map(str.count, lines, repeat(sep, len(lines)))) != {width - 1}:
+        if not text[:cut].replace(sep, "").strip():
+            return None
+        body = text[cut + 1:]
+        if not body.endswith("\n"):
+            body += "\n"
+        # each line break becomes one more cell, _MARK: every line has `width` cells exactly when the
+        # marks are all in the column after the last one, and the count comes out even
+        cells = body.replace("\n", sep + _MARK + sep).split(sep)
+        del body
+        n, left = divmod(len(cells), width + 1)
+        if left != 1 or cells[-1] or n == 0 or cells[width::width + 1].count(_MARK) != n:
             return None  # a ragged or blank line: the records are worded and padded one by one
-        n = len(lines) - 1
-        del lines
-        cells = text[text.index("\n") + 1:].replace(sep, "\n").split("\n")
-        if len(cells) == n * width + 1:
-            cells.pop()  # after the final line break
-        columns = [cells[j::width] for j in range(width)]
+        cells.pop()  # after the last mark
+        columns = [cells[j::width + 1] for j in range(width)]
         del cells
         self.header, self.header_line = [c.strip() for c in header], 1
         self._columns()
@@ -222,7 +233,7 @@ class CsvTable:
 
     def floats(self, key: str) -> tuple[np.ndarray, np.ndarray]:
         """(values in the column's unit, blank mask); NaN where blank."""
-        vals, blank, bad, why = parse_cells(self.cols[key], self.comma)
+        vals, blank, bad, why = parse_cells(self.cols[key], self.comma, self._lines.pop(key, None))
         if bad is not None:
             raise self.fail(bad, key, why)
         self.values[key] = vals

@@ -41,6 +41,8 @@ def canonical(texts: list[str]) -> np.ndarray | None:
     most 15 characters besides its sign (so a point and <= 14 digits, or a whole number; the caller
     checks sizes).
     """
+    if not texts:
+        return np.zeros(0, bool)
     joined = "\n" + "\n".join(texts) + "\n"
     if (not joined.isascii() or joined.encode("ascii").translate(None, _PLAIN_BYTES)
             or joined.count("-") != joined.count("\n-") or "\n." in joined or "-." in joined or ".\n" in joined
