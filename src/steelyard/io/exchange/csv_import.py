@@ -59,8 +59,9 @@ def _bool(r: CsvTable, k: int, cell: str) -> bool:
 def _bools(r: CsvTable, key: str) -> list[bool]:
     """A column of true/false cells: each distinct spelling looked up once."""
     cells = r.cols[key]
-    known = {c: c.lower() in TRUE for c in set(cells) if c.lower() in TRUE | FALSE}
-    if len(known) < len(set(cells)):
+    distinct = set(cells)
+    known = {c: c.lower() in TRUE for c in distinct if c.lower() in TRUE | FALSE}
+    if len(known) < len(distinct):
         for k, c in enumerate(cells):
             if c not in known:
                 _bool(r, k, c)  # raises, naming the first bad cell
@@ -182,7 +183,6 @@ class _Columns:
             self.quantity = np.where(blank, 1.0, q).astype(np.int64).tolist()
         self.variable = _bools(r, "variable") if r.has("variable") else None
         self.six, self.given = _inertia(r)
-        self.six_rows = self.six.tolist()
         self.density = None
         if r.has("density"):
             d, blank = r.si("density")
@@ -257,7 +257,7 @@ def _own(base: Item | None, j: int | None, into: Ledger | None, cols: _Columns, 
         scale = max(float(np.abs(old[:3]).sum()), np.finfo(float).tiny)
         if np.all(np.abs(cols.six[k] - old) <= SHAPE_MATCH_RTOL * scale):
             return base.inertia, base.shape, base.rotate
-    return tuple(cols.six_rows[k]), None, ()
+    return tuple(cols.six[k].tolist()), None, ()
 
 
 @contextmanager
@@ -350,14 +350,18 @@ def _new_items(r: CsvTable, cols: _Columns) -> list[Item]:
     """The items of a new ledger, a field at a time: what `make_item` gives row by row
     (tests/test_csv_import_fast.py compares the two)."""
     n = len(r.ids)
-    columns: dict = {"id": r.ids, "mass": cols.mass.tolist(), "cg": list(map(tuple, cols.cg.tolist()))}
+    columns: dict = {"id": r.ids, "mass": cols.mass.tolist(), "cg": list(zip(*cols.cg.T.tolist()))}
     for key in ("name", "group"):
         if r.has(key):
             columns[key] = r.cols[key]
     if cols.quantity is not None:
         columns["quantity"] = cols.quantity
     if any(r.has(c) for c in COMPONENTS):
-        columns["inertia"] = [tuple(six) if g else None for six, g in zip(cols.six_rows, cols.given.tolist())]
+        inertia: list = [None] * n
+        rows = np.flatnonzero(cols.given)
+        for k, six in zip(rows.tolist(), zip(*cols.six[rows].T.tolist())):  # tuples of the rows that give one
+            inertia[k] = six
+        columns["inertia"] = inertia
     if cols.variable is not None:
         columns["variable"] = cols.variable
     if cols.density is not None:
