@@ -110,3 +110,9 @@ def test_a_generated_ledger_imports_to_the_plain_writers_bytes(tmp_path):
         back = tomllib.loads(written)["item"]
         f = {"lb": 0.45359237, "kg": 1.0}[imp.ledger.units.mass]
         assert [b["mass"] * f for b in back] == [it.mass for it in imp.ledger.items]
+
+
+def test_texts_not_one_per_number_are_not_taken():
+    out, rest = given_texts(np.array([0.0254]), 0.0254, ["1", "2"], np.array([1.0, 2.0]))
+    assert out == [None] and rest.tolist() == [0]
+    assert numbers([0.0254], 0.0254, (["1", "2"], np.array([1.0, 2.0]))) == [number(0.0254, 0.0254)]

@@ -70,8 +70,8 @@ def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarr
     number gets ".0" as there.
     """
     n = len(a)
-    if n == 0:
-        return [], np.zeros(0, np.intp)
+    if n == 0 or len(texts) != n or len(values) != n:  # (texts not one per number: none taken)
+        return [None] * n, np.arange(n)
     c = np.asarray(values, dtype=float)
     with np.errstate(all="ignore"):
         v = a / factor
