@@ -196,8 +196,11 @@ def _bare_floats(joined: str, work: list[str], blank: np.ndarray, n: int) -> np.
     return vals
 
 
-def parse_cells(cells: list[str], decimal_comma: bool) -> tuple[np.ndarray, np.ndarray, int | None, str]:
+def parse_cells(cells: list[str], decimal_comma: bool, lines: str | None = None
+                ) -> tuple[np.ndarray, np.ndarray, int | None, str]:
     """(values, blank mask, first bad row or None, why) for a column of stripped cells.
+
+    `lines`: the caller's `"\\n".join(cells) + "\\n"`, if it has it.
 
     One regular-expression pass checks the whole column; numpy then converts it. A
     literal that is not zero but reads as 0.0 (underflow) or that reads as inf is bad.
@@ -211,7 +214,7 @@ def parse_cells(cells: list[str], decimal_comma: bool) -> tuple[np.ndarray, np.n
         if dot is not None:
             return np.full(n, np.nan), blank, dot, cell_problem(cells[dot], True) or ""
         work = [c.replace(",", ".") for c in cells]
-    joined = "\n".join(work) + "\n"
+    joined = lines if lines is not None and work is cells else "\n".join(work) + "\n"
     vals = _bare_floats(joined, work, blank, n)
     if vals is None:  # some cell is not plain ASCII digits: the full pattern says which, and why
         if joined.count("\n") != n or not _COLUMN.fullmatch(joined):

@@ -90,18 +90,22 @@ class RowPlaces(Mapping):
 _last: tuple[weakref.ref, str] | None = None
 
 
-def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None) -> str:
+def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None, given: dict | None = None) -> str:
     """Write the ledger to text and read it back with the full loader: what is saved will open.
 
     Returns the text, ready to write. With `places`, a problem on an item from
     the CSV names its CSV line and column. The same ledger object (immutable)
     checked again gets the text of its first check, without a second pass.
+    `given`: the CSV's number cells for the writer (`ledger_to_toml`), emptied
+    once the text is written, so its cells are freed before the read-back.
     """
     global _last
     if _last is not None and _last[0]() is ledger:
         return _last[1]
     try:
-        text = ledger_to_toml(ledger)
+        text = ledger_to_toml(ledger, given=given)
+        if given:
+            given.clear()
         final = ledger_from_text(text, source=source)
         growth_fractions(final)
         parse_tolerances(final)

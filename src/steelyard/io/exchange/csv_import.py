@@ -59,8 +59,9 @@ def _bool(r: CsvTable, k: int, cell: str) -> bool:
 def _bools(r: CsvTable, key: str) -> list[bool]:
     """A column of true/false cells: each distinct spelling looked up once."""
     cells = r.cols[key]
-    known = {c: c.lower() in TRUE for c in set(cells) if c.lower() in TRUE | FALSE}
-    if len(known) < len(set(cells)):
+    distinct = set(cells)
+    known = {c: c.lower() in TRUE for c in distinct if c.lower() in TRUE | FALSE}
+    if len(known) < len(distinct):
         for k, c in enumerate(cells):
             if c not in known:
                 _bool(r, k, c)  # raises, naming the first bad cell
@@ -81,7 +82,7 @@ def _new_units(r: CsvTable) -> FileUnits:
 
 def _inertia(r: CsvTable) -> tuple[np.ndarray, np.ndarray]:
     """(six (n, 6) SI, given (n,)); the three moments are required on a row that gives any."""
-    n = len(r.rows)
+    n = r.n
     six, blanks = np.zeros((n, 6)), np.ones((n, 6), dtype=bool)
     present = [c for c in COMPONENTS if r.has(c)]
     for c in present:
@@ -160,7 +161,7 @@ class _Columns:
     """Every column converted and checked, before any item is built."""
 
     def __init__(self, r: CsvTable, into: Ledger | None, units: FileUnits):
-        n = len(r.rows)
+        n = r.n
         _ids(r, into)
         if r.has("group") and any(map(group_depth_problem, set(r.cols["group"]))):  # each path once
             for k, g in enumerate(r.cols["group"]):
@@ -182,7 +183,6 @@ class _Columns:
             self.quantity = np.where(blank, 1.0, q).astype(np.int64).tolist()
         self.variable = _bools(r, "variable") if r.has("variable") else None
         self.six, self.given = _inertia(r)
-        self.six_rows = self.six.tolist()
         self.density = None
         if r.has("density"):
             d, blank = r.si("density")
@@ -201,7 +201,7 @@ class _Columns:
 
     @staticmethod
     def _tolerances(r: CsvTable, units: FileUnits) -> list:
-        n = len(r.rows)
+        n = r.n
         kinds = r.cols["tol kind"] if r.has("tol kind") else [""] * n
         cols = {c: r.floats(c) if r.has(c) else (np.full(n, np.nan), np.ones(n, bool)) for c in TOL_COLUMNS[1:]}
         out = []
@@ -257,7 +257,7 @@ def _own(base: Item | None, j: int | None, into: Ledger | None, cols: _Columns, 
         scale = max(float(np.abs(old[:3]).sum()), np.finfo(float).tiny)
         if np.all(np.abs(cols.six[k] - old) <= SHAPE_MATCH_RTOL * scale):
             return base.inertia, base.shape, base.rotate
-    return tuple(cols.six_rows[k]), None, ()
+    return tuple(cols.six[k].tolist()), None, ()
 
 
 @contextmanager
@@ -298,8 +298,9 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
         ledger = Ledger(tuple(_new_items(r, cols)), units)
         ids = r.ids
         places = CsvPlaces(RowPlaces(r.lines, ids), r.labels)
+        given = _given(r)
         del r, cols  # the cells (millions of strings): freed before the write and read-back need the memory
-        check_ledger(ledger, source, places)
+        check_ledger(ledger, source, places, given)  # (the number cells kept for the writer, freed after it)
         return CsvImport(ledger, tuple(ids), (), (), places)
     index = into.index
     items = list(into.items)
@@ -335,18 +336,32 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
     return CsvImport(ledger, tuple(added), tuple(replaced), tuple(same), places)
 
 
+#: writer field (write_items.items_text) -> the CSV column that gives it
+_NUMBER_FIELDS = {"mass": "mass", "cg.0": "x", "cg.1": "y", "cg.2": "z", **{f"inertia.{c}": c for c in COMPONENTS}}
+
+
+def _given(r: CsvTable) -> dict:
+    """The number cells of a new ledger's items and their values, for the writer to take those that
+    already are its text: field -> (cells, float of each cell), one per item."""
+    return {name: (r.cols[key], r.values[key]) for name, key in _NUMBER_FIELDS.items() if key in r.values}
+
+
 def _new_items(r: CsvTable, cols: _Columns) -> list[Item]:
     """The items of a new ledger, a field at a time: what `make_item` gives row by row
     (tests/test_csv_import_fast.py compares the two)."""
     n = len(r.ids)
-    columns: dict = {"id": r.ids, "mass": cols.mass.tolist(), "cg": list(map(tuple, cols.cg.tolist()))}
+    columns: dict = {"id": r.ids, "mass": cols.mass.tolist(), "cg": list(zip(*cols.cg.T.tolist()))}
     for key in ("name", "group"):
         if r.has(key):
             columns[key] = r.cols[key]
     if cols.quantity is not None:
         columns["quantity"] = cols.quantity
     if any(r.has(c) for c in COMPONENTS):
-        columns["inertia"] = [tuple(six) if g else None for six, g in zip(cols.six_rows, cols.given.tolist())]
+        inertia: list = [None] * n
+        rows = np.flatnonzero(cols.given)
+        for k, six in zip(rows.tolist(), zip(*cols.six[rows].T.tolist())):  # tuples of the rows that give one
+            inertia[k] = six
+        columns["inertia"] = inertia
     if cols.variable is not None:
         columns["variable"] = cols.variable
     if cols.density is not None:

@@ -33,6 +33,9 @@ def _sniff(first_line: str, decimal_comma: bool, source: str) -> str:
     return best
 
 
+#: a character a plain CSV text may not hold: `_split_plain` marks the line ends with it
+_MARK = "\x01"
+
 #: the ASCII characters str.strip() removes (str.isspace)
 _ASCII_SPACE = " \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f"
 
@@ -42,23 +45,57 @@ def _no_space(text: str) -> bool:
     return text.isascii() and not any(c in text for c in _ASCII_SPACE)
 
 
+def _first_line(text: str) -> str | None:
+    """`next(s for s in text.splitlines() if s.strip(" \\t,;"))`, without splitting all of a long text."""
+    head = text[:65536].splitlines()
+    complete = head if len(text) <= 65536 else head[:-1]  # the last piece of a cut text may be cut short
+    first = next((s for s in complete if s.strip(" \t,;")), None)
+    if first is None and len(text) > 65536:
+        first = next((s for s in text.splitlines() if s.strip(" \t,;")), None)
+    return first
+
+
 class CsvTable:
     """One CSV text: header, columns of cell strings, then typed, located values."""
 
     def __init__(self, text: str, source: str, decimal_comma: bool):
         self.source, self.comma = source, decimal_comma
         text = text[1:] if text.startswith("\ufeff") else text  # a byte-order mark from a spreadsheet
-        first = next((s for s in text.splitlines() if s.strip(" \t,;")), None)
+        first = _first_line(text)
         if first is None:
             raise SteelyardError("empty CSV file (needs a header line: id,name,mass [kg],...)", file=source)
         sep = _sniff(first, decimal_comma, source)
+        columns = self._split_plain(text, sep)
+        if columns is None:
+            columns = self._records(text, sep)
+        # text verbatim (less a formula guard); everything else without surrounding spaces
+        self.cols: dict[str, list[str]] = {}
+        self.values: dict[str, np.ndarray] = {}  # key -> float of each (stripped) cell, once `floats` read it
+        self._lines: dict[str, str] = {}  # key -> its cells one a line (each ending "\n"), kept for `floats`
+        apostrophes = "'" in text
+        for key, j in self.index.items():
+            col = columns[j]
+            if key in TEXT_COLUMNS:
+                # only a cell starting with an apostrophe can lose one (csv_cells.unprotect)
+                self.cols[key] = [unprotect(c) for c in col] if apostrophes and "'" in "".join(col) else list(col)
+                continue
+            lines = "\n".join(col) + "\n"
+            if lines.count("\n") == len(col) and _no_space(lines.replace("\n", "")):
+                self.cols[key] = list(col)  # no cell holds a line break or space: each is as stripped
+                self._lines[key] = lines
+            else:
+                self.cols[key] = list(map(str.strip, col))
+
+    def _records(self, text: str, sep: str) -> list:
+        """The columns, read record by record with the csv module (quotes, line breaks in cells, ragged rows)."""
         if csv.field_size_limit() < _FIELD_LIMIT:
             csv.field_size_limit(_FIELD_LIMIT)
         if not self._read_fast(text, sep):
             self._read_records(text, sep)
         if not self.rows:
-            raise SteelyardError("has a header but no item rows", file=source)
-        self.ids = [""] * len(self.rows)
+            raise SteelyardError("has a header but no item rows", file=self.source)
+        self.n = len(self.rows)
+        self.ids = [""] * self.n
         width = len(self.header)
         if set(map(len, self.rows)) != {width}:
             for k, cells in enumerate(self.rows):
@@ -66,16 +103,47 @@ class CsvTable:
                     raise self.fail(k, None, f"has {len(cells)} cells, the header has {width}")
                 cells += [""] * (width - len(cells))
                 del cells[width:]
-        # text verbatim (less a formula guard); everything else without surrounding spaces
         columns = list(zip(*self.rows))
-        self.cols: dict[str, list[str]] = {}
-        for key, j in self.index.items():
-            col = columns[j]
-            if key in TEXT_COLUMNS:
-                # only a cell starting with an apostrophe can lose one (csv_cells.unprotect)
-                self.cols[key] = [unprotect(c) for c in col] if "'" in "".join(col) else list(col)
-            else:
-                self.cols[key] = list(col) if _no_space("".join(col)) else list(map(str.strip, col))
+        del self.rows
+        return columns
+
+    def _split_plain(self, text: str, sep: str) -> list[list[str]] | None:
+        """The columns of a plain CSV text, cut with str.split; None when the csv module must read it.
+
+        Plain: no quote, CR, NUL or U+0001 anywhere, the first line is the header,
+        every line has the header's number of cells, and no row is blank (every id
+        cell holds more than white space). The csv module (RFC 4180 reading, the
+        excel dialect) then makes each line one record and cuts it at each
+        separator and nothing else, so its cells are these, line k + 1 being row k
+        (tests/test_csv_split.py compares the two).
+        """
+        if '"' in text or "\r" in text or "\0" in text or _MARK in text or "\n" not in text:
+            return None
+        cut = text.index("\n")
+        header = text[:cut].split(sep)
+        width = len(header)
+        if not text[:cut].replace(sep, "").strip():
+            return None
+        body = text[cut + 1:]
+        if not body.endswith("\n"):
+            body += "\n"
+        # each line break becomes one more cell, _MARK: every line has `width` cells exactly when the
+        # marks are all in the column after the last one, and the count comes out even
+        cells = body.replace("\n", sep + _MARK + sep).split(sep)
+        del body
+        n, left = divmod(len(cells), width + 1)
+        if left != 1 or cells[-1] or n == 0 or cells[width::width + 1].count(_MARK) != n:
+            return None  # a ragged or blank line: the records are worded and padded one by one
+        cells.pop()  # after the last mark
+        columns = [cells[j::width + 1] for j in range(width)]
+        del cells
+        self.header, self.header_line = [c.strip() for c in header], 1
+        self._columns()
+        if not all(map(str.strip, columns[self.index["id"]])):
+            self.header = None
+            return None  # a row without an id may be blank: the csv reading skips those
+        self.n, self.ids, self.lines = n, [""] * n, list(range(2, n + 2))
+        return columns
 
     def _read_fast(self, text: str, sep: str) -> bool:
         """All records at once, when each is one physical line (line k+1 is record k); False otherwise."""
@@ -165,9 +233,10 @@ class CsvTable:
 
     def floats(self, key: str) -> tuple[np.ndarray, np.ndarray]:
         """(values in the column's unit, blank mask); NaN where blank."""
-        vals, blank, bad, why = parse_cells(self.cols[key], self.comma)
+        vals, blank, bad, why = parse_cells(self.cols[key], self.comma, self._lines.pop(key, None))
         if bad is not None:
             raise self.fail(bad, key, why)
+        self.values[key] = vals
         return vals, blank
 
     def reject(self, key: str, bad: np.ndarray, message: str) -> None:

@@ -192,17 +192,18 @@ def other_blocks(ledger: Ledger, *, snapshot: bool = True) -> list[list[str]]:
     return blocks
 
 
-def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True) -> str:
+def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True, given: dict | None = None) -> str:
     """The whole file; `snapshot=False` leaves out the [snapshot] record (what its hash covers).
 
     Items placed from assemblies are never written: a file holds its own items and [[assembly]] tables.
+    `given`: texts the caller has for the items' numbers (write_items.items_text); the same bytes.
     """
     ledger = document_of(ledger)
     u = ledger.units
     from steelyard.io.ledger.write_items import items_text
 
     blocks = ["steelyard = 1", "\n".join(table_lines("units", units_fields(u))),
-              "\n".join(table_lines("frame", frame_fields(ledger.frame))), *items_text(ledger.items, u)]
+              "\n".join(table_lines("frame", frame_fields(ledger.frame))), *items_text(ledger.items, u, given)]
     blocks.extend("\n".join(loadout_lines(lo)) for lo in ledger.loadouts)
     blocks.extend("\n".join(envelope_lines(env, u)) for env in ledger.envelopes)
     return "\n\n".join(blocks) + "\n" + other_text(ledger, snapshot=snapshot)

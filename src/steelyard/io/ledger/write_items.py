@@ -17,10 +17,11 @@ from operator import attrgetter
 
 import numpy as np
 
-from steelyard.core.document.model import FileUnits, Item
-from steelyard.core.physics.inertia import COMPONENTS  # noqa: F401 - the order of `six`
+from steelyard.core.document.model import NO_UNITS, FileUnits, Item
+from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.units import unit_factor
 from steelyard.io.ledger.toml_write import _NEEDS_ESCAPE, _SHORT_HI, number, string, value
+from steelyard.io.ledger.write_given import given_texts
 
 _MORE = ("cg_table", "growth", "loaded", "maturity", "removable", "tolerance", "user")
 
@@ -29,8 +30,11 @@ _MORE = ("cg_table", "growth", "loaded", "maturity", "removable", "tolerance", "
 _BULK_LO = 1e-290
 
 
-def numbers(xs: list, factor: float) -> list[str]:
+def numbers(xs: list, factor: float, given: tuple[list[str], np.ndarray] | None = None) -> list[str]:
     """`[number(x, factor) for x in xs]`, the same texts.
+
+    `given`: (texts, their float values) the caller has for these numbers (a CSV's
+    cells): each one shown to be the answer is taken as it is (write_given).
 
     `number` takes the 14-digit rounding c of v = x / factor when it reads back
     exactly (c * factor == x) and 1e-3 <= |v| < 1e13; below 1e-3 it runs its
@@ -45,6 +49,12 @@ def numbers(xs: list, factor: float) -> list[str]:
     """
     if factor == 1.0 or not xs:
         return list(map(number, xs))
+    if given is not None:
+        out, rest = given_texts(np.array(xs, dtype=float), factor, *given)
+        if rest.size:
+            for i, t in zip(rest.tolist(), numbers([xs[i] for i in rest.tolist()], factor)):
+                out[i] = t
+        return out
     a = np.array(xs, dtype=float)
     n = len(a)
     with np.errstate(all="ignore"):
@@ -96,17 +106,31 @@ def searched(x: np.ndarray, v: np.ndarray, factor: float) -> list[str]:
     one_ulp = np.fromiter(map(math.ulp, x.tolist()), float, m)[:, None]
     grade = np.where(err == 0, 0, np.where(err <= one_ulp, 1, 2))
     key_err = np.where(grade == 2, err, 0.0)
-    ok = np.isfinite(c)
-    flat = c.ravel().tolist()
-    text = list(map(repr, flat))  # finite floats' repr always has '.' or 'e': `_float_text` is repr
-    k = c.shape[1]
-    rows = zip(grade.tolist(), key_err.tolist(), ok.tolist())
-    return [min((g, e, len(t), t) for g, e, t, f in zip(gs, es, text[j * k:(j + 1) * k], fs) if f)[3]
-            for j, (gs, es, fs) in enumerate(rows)]
+    # the rank's first two keys in numpy: per row, the finite candidates of the best grade, then of
+    # the least error among those; only they need a text (v is finite: every row keeps one)
+    grade = np.where(np.isfinite(c), grade, 3)
+    best = grade == grade.min(axis=1, keepdims=True)
+    key_err = np.where(best, key_err, np.inf)
+    best &= key_err == key_err.min(axis=1, keepdims=True)
+    at = np.flatnonzero(best.ravel())
+    out: list = [None] * m
+    # finite floats' repr always has '.' or 'e': `_float_text` is repr; then the shortest, then the least
+    for j, t in zip((at // c.shape[1]).tolist(), map(repr, c.ravel()[at].tolist())):
+        o = out[j]
+        if o is None or len(t) < len(o) or (len(t) == len(o) and t < o):
+            out[j] = t
+    return out
 
 
 def _templated(it: Item) -> bool:
     return not (it.given_units or it.shape is not None or it.rotate or it.density is not None)
+
+
+#: what `_templated` looks at, and what an item the template writes holds there: an empty mapping,
+#: no shape, no rotation, no density (equal only to the empty ones, as Mapping, tuple and the
+#: dataclasses compare)
+_ODD_OF = attrgetter("given_units", "shape", "rotate", "density")
+_PLAIN = (NO_UNITS, None, (), None)
 
 
 def item_head(it: Item) -> str:
@@ -128,7 +152,7 @@ def _strings(texts: list[str], lead: str) -> list[str]:
         quoted = [f'{lead}"{t}"' for t in texts]
     else:
         quoted = [lead + string(t) for t in texts]
-    if lead.startswith("\n"):  # name, group: written only when not empty
+    if lead.startswith("\n") and "" in texts:  # name, group: written only when not empty
         return [q if t else "" for q, t in zip(quoted, texts)]
     return quoted
 
@@ -150,34 +174,52 @@ def _more_text(it: Item) -> str:
     return text
 
 
-def items_text(items, u: FileUnits) -> list[str]:
+def _given(given: dict | None, key: str, rows: list[int] | None) -> tuple[list[str], np.ndarray] | None:
+    """given[key] (texts, values, one per item) at `rows` (all when None), or None."""
+    g = given.get(key) if given else None
+    if g is None or rows is None:
+        return g
+    texts, values = g
+    return list(map(texts.__getitem__, rows)), np.asarray(values)[rows]
+
+
+def items_text(items, u: FileUnits, given: dict | None = None) -> list[str]:
     """`"\\n".join(item_lines(it, u))` of every item.
 
     Items the template writes are spelled a field at a time: each field's
     texts as one column (attribute getters and formatting mapped in C), the
     columns then joined item by item. The rest go through `item_lines`.
+    `given`: "mass", "cg.0".."cg.2", "inertia.xx".. (COMPONENTS) -> (texts,
+    float values), one per item, that may already say those numbers (`numbers`).
     """
     from steelyard.io.ledger.write import item_lines
 
     items = list(items)
-    odd = [k for k, it in enumerate(items) if not _templated(it)]
+    # no item holds what the template does not write (the usual case): seen in one C-level count
+    held = list(map(_ODD_OF, items))
+    odd = [] if held.count(_PLAIN) == len(held) else [k for k, it in enumerate(items) if not _templated(it)]
+    del held
     at = set(odd)
     plain = [it for k, it in enumerate(items) if k not in at] if odd else items
+    kept = [k for k in range(len(items)) if k not in at] if odd else None
     fm, fl, fi = unit_factor(u.mass, "mass"), unit_factor(u.length, "length"), unit_factor(u.inertia, "inertia")
     n = len(plain)
-    cg = list(map(attrgetter("cg"), plain))
+    cg = list(zip(*map(attrgetter("cg"), plain))) if n else [(), (), ()]  # x, y, z columns
     cols = [_strings(list(map(attrgetter("id"), plain)), "[[item]]\nid = "),
             _strings(list(map(attrgetter("name"), plain)), "\nname = "),
             _strings(list(map(attrgetter("group"), plain)), "\ngroup = "),
-            list(map("\nmass = {}\ncg = [{}, {}, {}]".format, numbers(list(map(attrgetter("mass"), plain)), fm),
-                     *(numbers([c[k] for c in cg], fl) for k in range(3))))]
+            list(map("\nmass = {}\ncg = [{}, {}, {}]".format,
+                     numbers(list(map(attrgetter("mass"), plain)), fm, _given(given, "mass", kept)),
+                     *(numbers(cg[k], fl, _given(given, f"cg.{k}", kept)) for k in range(3))))]
     quantity = list(map(attrgetter("quantity"), plain))
     if quantity.count(1) != n:
         cols.append([f"\nquantity = {q}" if q != 1 else "" for q in quantity])
     inertia = list(map(attrgetter("inertia"), plain))
     rows = [k for k, six in enumerate(inertia) if six is not None]
     if rows:
-        six = [numbers([inertia[k][j] for k in rows], fi) for j in range(6)]  # COMPONENTS order
+        at_rows = rows if kept is None else [kept[k] for k in rows]
+        columns = list(zip(*(inertia[k] for k in rows)))  # COMPONENTS order
+        six = [numbers(columns[j], fi, _given(given, f"inertia.{c}", at_rows)) for j, c in enumerate(COMPONENTS)]
         col = [""] * n
         for k, text in zip(rows, map("\ninertia = {{ xx = {}, yy = {}, zz = {}, xy = {}, xz = {}, yz = {} }}".format,
                                      *six)):
@@ -186,7 +228,10 @@ def items_text(items, u: FileUnits) -> list[str]:
     variable = list(map(attrgetter("variable"), plain))
     if any(variable):
         cols.append(["\nvariable = true" if v else "" for v in variable])
-    more = [k for k, held in enumerate(map(_MORE_OF, plain)) if held != _NO_MORE_REMOVABLE and held != _NO_MORE]
+    held = list(map(_MORE_OF, plain))
+    more = ([] if held.count(_NO_MORE_REMOVABLE) + held.count(_NO_MORE) == n else
+            [k for k, h in enumerate(held) if h != _NO_MORE_REMOVABLE and h != _NO_MORE])
+    del held
     if more:
         col = [""] * n
         for k in more:
