@@ -98,9 +98,9 @@ def _tensor_slots(n: int, rows: np.ndarray, own: np.ndarray) -> tuple[list[list]
         texts[:] = off
         for slot, j in ((1, 0), (3, 0), (2, 1), (6, 1), (5, 2), (7, 2)):
             values[sym, slot] = texts[j::3]
-    slots = np.full((n, 9), "", dtype=object)
-    slots[rows] = values
-    return [slots[:, j].tolist() for j in range(9)], kind
+    slots = np.full((9, n), "", dtype=object)  # slot by slot: each row of this is one column
+    slots[:, rows] = values.T
+    return slots.tolist(), kind
 
 
 def item_blocks(ledger: Ledger, variable: list, more: list[int], row_text) -> Iterator[str]:
