@@ -30,8 +30,8 @@ from steelyard.io.ledger.read import ledger_from_data
 from test_export_columns import FILE, hostile_text, make_ledger, ref_csv_body, ref_items
 
 #: keys beyond v1 (each makes its row one written apart in the JSON and cell by cell in the CSV)
-_MORE = ['maturity = "estimated"', "growth = 0.125", 'tolerance = { mass = 0.05, cg = [0.01, 0.02, 0.0], kind = "sigma" }',
-         'user = { part = "R-100", rev = 3 }', "removable = true"]
+_MORE = ['maturity = "estimated"', "growth = 0.125",
+         'tolerance = { mass = 0.05, cg = [0.01, 0.02, 0.0], kind = "sigma" }', 'user = { part = "R-100", rev = 3 }', "removable = true"]
 
 
 def _with_more(text: str, every: int) -> str:

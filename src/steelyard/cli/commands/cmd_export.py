@@ -72,8 +72,8 @@ def run(args) -> int:
             from steelyard.io.exchange.csv_write import csv_parts  # not csv_io: the import side is not needed
 
             parts = csv_parts(loaded.ledger, system=args.units, decimal_comma=args.decimal_comma)
-            if args.csv == "-" and sys.stdout.isatty():
-                parts = [_for_terminal("".join(parts))]  # shown, not saved: no ESC, BEL or CR from a name reaches the terminal
+            if args.csv == "-" and sys.stdout.isatty():  # shown, not saved: no ESC, BEL or CR from a name
+                parts = [_for_terminal("".join(parts))]  # reaches the terminal
             outputs.append((args.csv, _encoded(args.csv, parts)))
         if args.json:
             from steelyard.io.exchange.json_export import export_json_parts

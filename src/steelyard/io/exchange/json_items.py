@@ -35,11 +35,11 @@ from steelyard.io.exchange.item_columns import all_of_type, field, given, own_at
 BLOCK = 1024
 
 #: one item as json.dumps(indent=2) writes it inside the list (level 2), up to its inertia: id, name,
-#: group (each a JSON string, or its text inside quotes, `_templates`), mass (float), quantity (int),
+#: group (each a JSON string, or its text inside quotes: `item_blocks`), mass (float), quantity (int),
 #: x, y, z (floats), variable (text)
-_HEAD = ('    {{\n      "id": {},\n      "name": {},\n      "group": {},\n      "mass_kg": %r,\n      "quantity": %s,\n'
-         '      "cg_m": [\n        %r,\n        %r,\n        %r\n      ],\n      "variable": %s,\n      "inertia_kg_m2": ')
-_LEAD = 9  # values before the tensor's nine slots
+_HEAD = ('    {{\n      "id": {},\n      "name": {},\n      "group": {},\n      "mass_kg": %r,\n'
+         '      "quantity": %s,\n      "cg_m": [\n        %r,\n        %r,\n        %r\n      ],\n'
+         '      "variable": %s,\n      "inertia_kg_m2": ')
 _ROWS = "[\n        [\n          {}\n        ],\n        [\n          {}\n        ],\n        [\n          {}\n        ]\n      ]"
 #: a (3, 3) tensor at level 3, nine floats
 _TENSOR = _ROWS.format(*(",\n          ".join(["%r"] * 3) for _ in range(3)))
