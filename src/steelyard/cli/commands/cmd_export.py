@@ -26,14 +26,20 @@ def add_arguments(p) -> None:
     p.add_argument("--seed", type=int, default=0, help="Monte Carlo seed (default 0)")
 
 
-def _write(out: str, text: str, source: str, *, bom: bool = False) -> None:
+def _write(out: str, parts: list[str] | list[bytes], source: str) -> None:
+    """`parts` as text for stdout ('-'), else encoded (UTF-8) for a file, written atomically in one go."""
     from steelyard.io.durability.atomic import write_output
 
     if out == "-":
-        sys.stdout.write(text)
+        sys.stdout.write("".join(parts))
         return
-    data = ("\ufeff" + text if bom else text).encode("utf-8")  # one copy of a 40 MB export, not two
-    write_output(out, data, inputs=(source,))
+    write_output(out, parts, inputs=(source,))
+
+
+def _encoded(out: str, parts) -> list:
+    """A file's pieces encoded one at a time as they come (each piece's text freed before the next is
+    made: no copy of a 40 MB text); stdout's kept as text."""
+    return list(parts) if out == "-" else [p.encode("utf-8") for p in parts]
 
 
 def _for_terminal(csv_text: str) -> str:
@@ -61,21 +67,21 @@ def run(args) -> int:
             check_output(out, inputs=(args.file,))  # a symlink, a directory, a read-only file: before the work
     loaded = load_for_cli(args.file)
     with located(loaded), gc_paused():
-        texts = []
+        outputs = []
         if args.csv:
-            from steelyard.io.exchange.csv_write import ledger_to_csv  # not csv_io: the import side is not needed
+            from steelyard.io.exchange.csv_write import csv_parts  # not csv_io: the import side is not needed
 
-            text = ledger_to_csv(loaded.ledger, system=args.units, decimal_comma=args.decimal_comma)
-            if args.csv == "-" and sys.stdout.isatty():
-                text = _for_terminal(text)  # shown, not saved: no ESC, BEL or CR from a name reaches the terminal
-            texts.append((args.csv, text))
+            parts = csv_parts(loaded.ledger, system=args.units, decimal_comma=args.decimal_comma)
+            if args.csv == "-" and sys.stdout.isatty():  # shown, not saved: no ESC, BEL or CR from a name
+                parts = [_for_terminal("".join(parts))]  # reaches the terminal
+            outputs.append((args.csv, _encoded(args.csv, parts)))
         if args.json:
-            from steelyard.io.exchange.json_export import export_json
+            from steelyard.io.exchange.json_export import export_json_parts
 
-            texts.append((args.json, export_json(loaded.ledger, source=loaded.path, samples=args.samples,
-                                                 seed=args.seed)))
-    for out, text in texts:  # everything built before anything is written
-        _write(out, text, loaded.path)
+            outputs.append((args.json, _encoded(args.json, export_json_parts(
+                loaded.ledger, source=loaded.path, samples=args.samples, seed=args.seed))))
+    for out, parts in outputs:  # everything built before anything is written
+        _write(out, parts, loaded.path)
         if out != "-":
             print(f"wrote {out}", file=sys.stderr)
     return 0

@@ -19,6 +19,7 @@ import hashlib
 import os
 import stat
 import tempfile
+from collections.abc import Sequence
 from pathlib import Path
 
 from steelyard.core.errors import SteelyardError
@@ -108,8 +109,9 @@ def check_output(path: str | os.PathLike, *, inputs=(), force: bool = False,
         writable_check(path, force=False, what=hint)
 
 
-def write_output(path: str | os.PathLike, data: bytes, *, inputs=(), force: bool = False) -> None:
-    """Write a derived file (report, chart, export, snapshot) atomically, after `check_output`."""
+def write_output(path: str | os.PathLike, data: bytes | Sequence[bytes], *, inputs=(), force: bool = False) -> None:
+    """Write a derived file (report, chart, export, snapshot) atomically, after `check_output`.
+    `data`: the bytes, or pieces written one after the other (a big export need not be joined)."""
     check_output(path, inputs=inputs, force=force)
     write_atomic(path, data)
 
@@ -129,9 +131,10 @@ def file_sha256(path: str | os.PathLike) -> str:
         os.close(fd)
 
 
-def write_atomic(path: str | os.PathLike, data: bytes, *, through_symlink: bool = False,
+def write_atomic(path: str | os.PathLike, data: bytes | Sequence[bytes], *, through_symlink: bool = False,
                  expect_sha256: str | None = None) -> None:
-    """Replace `path` with `data` atomically, keeping the old file's permissions.
+    """Replace `path` with `data` atomically, keeping the old file's permissions. `data` may be a
+    list (or tuple) of bytes pieces, written in order as one file.
 
     `through_symlink`: a symlink at `path` is followed and its target replaced
     (a ledger saved where it was read); otherwise a symlink there is refused.
@@ -164,7 +167,10 @@ def write_atomic(path: str | os.PathLike, data: bytes, *, through_symlink: bool 
         raise SteelyardError(f"cannot write: {exc.strerror}", file=name) from None
     try:
         with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
+            if isinstance(data, (list, tuple)):
+                fh.writelines(data)
+            else:
+                fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
         os.chmod(tmp, mode)

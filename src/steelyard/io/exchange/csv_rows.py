@@ -1,8 +1,8 @@
-"""The CSV body laid out by one `%` format: a row template per kind of row, numbers formatted in it.
+"""The CSV body laid out by `%` formats: a row template per kind of row, numbers formatted in it.
 
 Joining 16 columns of 100,000 cells costs more than formatting the numbers;
-here every row is a template ("%s,%s,%s,%.12g,...") and the whole body is one
-`%` of the joined templates with every row's values, so a number's text is
+here every row is a template ("%s,%s,%s,%.12g,...") and each block of rows is
+one `%` of its joined templates with its rows' values, so a number's text is
 written straight into the output. Every row has the same slots (an item without
 an own inertia gets "%s" slots with empty cells), so the values go into their
 flat tuple a column at a time by slice assignment. A number whose 12-digit
@@ -12,12 +12,16 @@ csv_cells.number_column and a "%s" in its row's template instead.
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+
 import numpy as np
 
 from steelyard.io.exchange.csv_cells import _reads_back, number_column
 
 #: cells before the six inertia cells: id, name, group, mass, x, y, z, quantity, variable
 LEAD = 9
+#: rows per block of text
+BLOCK = 1024
 
 
 def number_args(si: np.ndarray, factor: float, decimal_comma: bool) -> tuple[list, dict[int, str]]:
@@ -43,10 +47,12 @@ def _spread(n: int, rows: np.ndarray, values: list) -> list:
 
 def body(texts: list[list[str]], numbers: list[tuple[list, dict]], quantity: list, variable: list[str],
          own: np.ndarray, inertia: list[tuple[list, dict]], tail: list[list[str]], *, sep: str,
-         decimal_comma: bool) -> str:
-    """The rows, each ending in "\\n": id, name, group (cells as written), mass, x, y, z (`number_args`),
-    quantity (str of each), variable, the six inertia cells of the `own` rows (`number_args` of those
-    rows, in order; empty cells elsewhere), then the `tail` cells."""
+         decimal_comma: bool) -> Iterator[str]:
+    """The rows, each ending in "\\n", a block of BLOCK rows at a time: id, name, group (cells as
+    written), mass, x, y, z (`number_args`), quantity (str of each), variable, the six inertia cells of
+    the `own` rows (`number_args` of those rows, in order; empty cells elsewhere), then the `tail`
+    cells. The caller may encode each block as it comes (no copy of the whole text); a block's values
+    and text stay in the processor's caches."""
     n = len(quantity)
     num = "%s" if decimal_comma else "%.12g"
     formats = [*(["%s"] * 3), *([num] * 4), "%s", "%s"]
@@ -57,9 +63,6 @@ def body(texts: list[list[str]], numbers: list[tuple[list, dict]], quantity: lis
     rows = own.tolist()
     columns = [*texts, *(a for a, _ in numbers), quantity, variable,
                *(_spread(n, own, a) for a, _ in inertia), *tail]
-    flat = [None] * (n * width)
-    for j, column in enumerate(columns):
-        flat[j::width] = column
     templates = [plain] * n
     for r in rows:
         templates[r] = with_own
@@ -74,6 +77,15 @@ def body(texts: list[list[str]], numbers: list[tuple[list, dict]], quantity: lis
         kinds = formats + [num] * 6 if templates[r] is with_own else formats + ["%s"] * 6
         for s, text in slots.items():
             kinds[s] = "%s"
-            flat[r * width + s] = text
+            columns[s][r] = text  # every column here is a list of its own (`number_args`, `_spread`)
         templates[r] = sep.join(kinds) + "".join(after) + "\n"
-    return "".join(templates) % tuple(flat)
+    return _blocks(n, width, columns, templates)
+
+
+def _blocks(n: int, width: int, columns: list[list], templates: list[str]) -> Iterator[str]:
+    for start in range(0, n, BLOCK):
+        stop = min(n, start + BLOCK)
+        flat = [None] * ((stop - start) * width)
+        for j, column in enumerate(columns):
+            flat[j::width] = column[start:stop]
+        yield "".join(templates[start:stop]) % tuple(flat)

@@ -8,7 +8,8 @@ at all (NUL: import refuses the file) stops the export with the item and field.
 from __future__ import annotations
 
 import re
-from itertools import compress, repeat
+from collections.abc import Iterable
+from itertools import chain, compress, repeat
 from operator import is_not
 
 import numpy as np
@@ -16,7 +17,7 @@ import numpy as np
 from steelyard.core.control.growth import growth_fractions
 from steelyard.core.control.uncertainty import parse_tolerances
 from steelyard.core.display import DisplayUnits
-from steelyard.core.document.model import NO_UNITS, Ledger
+from steelyard.core.document.model import NO_UNITS, Ledger, more_rows
 from steelyard.core.errors import SteelyardError, item_subject
 from steelyard.core.physics.inertia import COMPONENTS, six_from_tensor
 from steelyard.core.units import SYSTEMS, unit_factor
@@ -24,7 +25,7 @@ from steelyard.io.exchange.csv_cells import (COLUMNS, CONTROL_KEYS, TOL_COLUMNS,
                                             quoted, row_text)
 from steelyard.io.exchange.csv_model import density_unit, item_more
 from steelyard.io.exchange.csv_rows import body, number_args
-from steelyard.io.exchange.item_columns import all_of_type, field, given as given_values, more_rows, own_at, own_rows
+from steelyard.io.exchange.item_columns import all_of_type, field, given as given_values, own_at, own_rows
 from steelyard.io.report.control import growth_value, tolerance_si
 
 
@@ -112,7 +113,14 @@ def _sparse_column(n: int, rows: np.ndarray, texts: list[str]) -> list[str]:
 
 
 def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: bool = False) -> str:
-    """Every item as one CSV row; numbers in the file's units (or `system`), exact on re-import.
+    """Every item as one CSV row; numbers in the file's units (or `system`), exact on re-import
+    (`csv_parts` joined)."""
+    return "".join(csv_parts(ledger, system=system, decimal_comma=decimal_comma))
+
+
+def csv_parts(ledger: Ledger, *, system: str | None = None, decimal_comma: bool = False) -> Iterable[str]:
+    """The CSV text in pieces whose concatenation is the file (the header, then blocks of rows: the
+    caller may encode each as it comes). Every check runs before this returns.
 
     Own inertia is per unit about the item's CG in body axes, products as
     integrals (∫xy dm); an item with a shape gets the inertia its shape gives.
@@ -122,7 +130,7 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
     growth_fractions(ledger), parse_tolerances(ledger)  # bad keys stop here, named, not half-written
     items = ledger.items
     n = len(items)
-    more = more_rows(items)
+    more = more_rows(ledger)
     extras = {i: item_more(items[i]) for i in more}
     given = [e for e in extras.values() if e]  # most items have no key beyond v1
     densities = field(items, "density")
@@ -143,7 +151,7 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
     f = {k: unit_factor(u[COLUMNS[k]], COLUMNS[k]) for k in keys if COLUMNS[k]}
     sep = ";" if decimal_comma else ","
     if not n:
-        return row_text(header, sep)
+        return [row_text(header, sep)]
 
     def num(k: str, si: float | None) -> str:
         return "" if si is None else number_text(si, f[k], decimal_comma)
@@ -184,5 +192,5 @@ def ledger_to_csv(ledger: Ledger, *, system: str | None = None, decimal_comma: b
         for k in tail:
             if k != "density":
                 cells[k][i] = quoted(row.get(k, ""), sep)
-    return row_text(header, sep) + body(texts, numbers, quantity, variable, rows, inertia, [cells[k] for k in tail],
-                                        sep=sep, decimal_comma=decimal_comma)
+    return chain((row_text(header, sep),), body(texts, numbers, quantity, variable, rows, inertia,
+                                                [cells[k] for k in tail], sep=sep, decimal_comma=decimal_comma))

@@ -14,7 +14,7 @@ from typing import Sequence
 
 import numpy as np
 
-from steelyard.core.document.model import Item, ItemArrays, more_rows_of
+from steelyard.core.document.model import Item, ItemArrays
 
 
 
@@ -51,8 +51,3 @@ def own_at(arrays: ItemArrays, rows: np.ndarray) -> np.ndarray:
         hit[hit] = held[at[hit]] == rows[hit]
         out[hit] = values[at[hit]]
     return out
-
-
-def more_rows(items: Sequence[Item]) -> list[int]:
-    """Rows of the items that give some key beyond v1 (csv_model.item_more is not empty)."""
-    return more_rows_of(items)

@@ -10,17 +10,19 @@ and uncertainty figures come from the same function as the terminal tables.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator
+from itertools import chain
 from operator import attrgetter
 
 import numpy as np
 
 from steelyard.core.control.growth import growth_fractions
 from steelyard.core.loading.loadout import resolve
-from steelyard.core.document.model import ITEM_MORE, Ledger, more_keys
+from steelyard.core.document.model import ITEM_MORE, Ledger, more_keys, more_rows
 from steelyard.io.report.control import tolerance_si
 from steelyard.io.report.control import DEFAULT_SAMPLES, DEFAULT_SEED, control_record, has_growth
-from steelyard.io.exchange.item_columns import all_of_type, field, more_rows
-from steelyard.io.exchange.json_items import items_text
+from steelyard.io.exchange.item_columns import all_of_type, field
+from steelyard.io.exchange.json_items import item_blocks
 from steelyard.io.exchange.rollup_json import rollup_record
 
 FORMAT = "steelyard-export"
@@ -180,21 +182,28 @@ def _one_item(ledger: Ledger, i: int, has_own: bool, own: list | None, cg: list,
     return text
 
 
-def export_json(ledger: Ledger, **kw) -> str:
-    """The export record as json.dumps(indent=2) writes it. The item list, most of the text, is
-    written a column at a time (json_items: the same characters, a fraction of the time of
-    json's indenting encoder, which is pure Python); the rest of the record goes through json."""
+def export_json_parts(ledger: Ledger, **kw) -> list[str] | Iterator[str]:
+    """The export record as json.dumps(indent=2) writes it, in pieces whose concatenation is that text
+    (the caller may encode each as it comes: no copy of the whole). The item list, most of the text,
+    is written a block of rows at a time (json_items: the same characters, a fraction of the time of
+    json's indenting encoder, which is pure Python); the rest of the record goes through json.
+    Every check runs before this returns: the pieces still to come are only formatted."""
     import json
 
     items = ledger.items
     variable = field(items, "variable")
     if not items or not all_of_type(variable, bool):
-        return json.dumps(_plain(export_record(ledger, **kw)), indent=2, allow_nan=False, ensure_ascii=False) + "\n"
-    more = more_rows(items)
-    listed = items_text(ledger, variable, more, lambda *row: _one_item(ledger, *row))  # first: a bad key stops here
+        return [json.dumps(_plain(export_record(ledger, **kw)), indent=2, allow_nan=False, ensure_ascii=False) + "\n"]
+    more = more_rows(ledger)
+    listed = item_blocks(ledger, variable, more, lambda *row: _one_item(ledger, *row))  # first: a bad key stops here
     record = export_record(ledger, items=_SENTINEL, control=not _no_control(ledger, more), **kw)
     head = json.dumps(_plain(record), indent=2, allow_nan=False, ensure_ascii=False)
     token = '"items": ' + json.dumps(_SENTINEL, ensure_ascii=False)
     before, found, after = head.partition(token)
     assert found and token not in after, "the item list's place holder must appear once"
-    return "".join((before, '"items": ', listed, after, "\n"))
+    return chain((before + '"items": ',), listed, (after + "\n",))
+
+
+def export_json(ledger: Ledger, **kw) -> str:
+    """The export record as json.dumps(indent=2) writes it (`export_json_parts` joined)."""
+    return "".join(export_json_parts(ledger, **kw))

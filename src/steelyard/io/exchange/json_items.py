@@ -1,21 +1,27 @@
-"""The item list of `export --json`, written a column at a time: the characters json.dumps(indent=2) writes.
+"""The item list of `export --json`, written in blocks of rows: the characters json.dumps(indent=2) writes.
 
 json's indenting encoder is pure Python: for 100,000 items it costs several
-times the rest of the export. Here the whole list is one `%` format of a row
-template repeated, its values put into one flat tuple a column at a time
-(slice assignment): strings as json.dumps(ensure_ascii=False) writes them (a
-column with nothing to escape goes in as it is, between quotes in the
-template; else through json's C escaper, encode_basestring), floats by "%r"
-(float.__repr__, as json writes them). Numpy masks find the rows that template cannot write
-(keys beyond v1, a type other than the usual one, a non-finite number); each
-of those is written on its own by the caller's `row_text` and takes the
-template "%s" followed by "%.0s" for the values it does not show.
+times the rest of the export. Here each block of rows is one `%` format of its
+rows' templates, its values put into one flat list a column at a time (slice
+assignment): strings as json.dumps(ensure_ascii=False) writes them (a column
+with nothing to escape goes in as it is, between quotes in the template; else
+through json's C escaper, encode_basestring), floats by "%r" (float.__repr__,
+as json writes them), each number formatted straight into the output. A row's
+own tensor takes nine slots in its template ("null" and nine empty texts when
+it has none), so no tensor text is made apart. Numpy masks find the rows that
+the templates cannot write (keys beyond v1, a type other than the usual one, a
+non-finite number); each of those is written on its own by the caller's
+`row_text` and fills its row's slots alone. Blocks (not one text of the whole
+list) let the caller encode each as it comes: no copy of a 40 MB text, and the
+next block reuses the memory of the last.
 """
 
 from __future__ import annotations
 
 import math
 import re
+from bisect import bisect_left
+from collections.abc import Iterator
 from json.encoder import encode_basestring
 from operator import not_
 from itertools import compress
@@ -25,20 +31,24 @@ import numpy as np
 from steelyard.core.document.model import Ledger
 from steelyard.io.exchange.item_columns import all_of_type, field, given, own_at, own_rows
 
-#: one item as json.dumps(indent=2) writes it inside the list (level 2): id, name, group (each JSON
-#: string, or its text inside quotes, `_row`), mass (float), quantity (int), x, y, z (floats), variable,
-#: inertia (null or `_TENSOR`'s text), density (text)
-_ROW = ('    {{\n      "id": {},\n      "name": {},\n      "group": {},\n      "mass_kg": %r,\n      "quantity": %s,\n'
-        '      "cg_m": [\n        %r,\n        %r,\n        %r\n      ],\n      "variable": %s,\n'
-        '      "inertia_kg_m2": %s,\n      "density_kg_m3": %s\n    }}')
-_WIDTH = 11
-_OTHER = "%s" + "%.0s" * (_WIDTH - 1)  # a row written apart: its text, the other values not shown
+#: rows per block: a block's text (about 0.4 MB) and its values stay in the processor's caches
+BLOCK = 1024
+
+#: one item as json.dumps(indent=2) writes it inside the list (level 2), up to its inertia: id, name,
+#: group (each a JSON string, or its text inside quotes: `item_blocks`), mass (float), quantity (int),
+#: x, y, z (floats), variable (text)
+_HEAD = ('    {{\n      "id": {},\n      "name": {},\n      "group": {},\n      "mass_kg": %r,\n'
+         '      "quantity": %s,\n      "cg_m": [\n        %r,\n        %r,\n        %r\n      ],\n'
+         '      "variable": %s,\n      "inertia_kg_m2": ')
 _ROWS = "[\n        [\n          {}\n        ],\n        [\n          {}\n        ],\n        [\n          {}\n        ]\n      ]"
-#: a (3, 3) tensor at level 3; a symmetric one takes 6 values (xx, xy, xz, yy, yz, zz), the
-#: off-diagonal texts each given once as a string and written twice
+#: a (3, 3) tensor at level 3, nine floats
+_TENSOR = _ROWS.format(*(",\n          ".join(["%r"] * 3) for _ in range(3)))
+#: a symmetric one: the diagonal floats, the off-diagonal texts each made once and given twice
 _SYMMETRIC = _ROWS.format(*(",\n          ".join(r) for r in (("%r", "%s", "%s"), ("%s", "%r", "%s"),
                                                                  ("%s", "%s", "%r"))))
-_TENSOR = _ROWS.format(*(",\n          ".join(["%r"] * 3) for _ in range(3)))
+_NULL = "null" + "%s" * 9  # no tensor: its nine slots hold empty texts
+#: row kinds (`_templates`): no own tensor, symmetric, any other, written apart
+NONE, SYMMETRIC, GENERAL, APART = range(4)
 
 
 def _finite(values: list) -> np.ndarray:
@@ -65,37 +75,40 @@ def _strings(values: list) -> tuple[list[str], bool, np.ndarray | None]:
         return [encode_basestring(v) if isinstance(v, str) else "" for v in values], True, odd
 
 
-def _tensors(own: np.ndarray) -> list[str]:
-    """JSON text of each (3, 3) tensor as json.dumps(indent=2) lays it out at level 3. A symmetric
-    one (bit for bit: -0.0 and 0.0 are written differently) has its three off-diagonal texts made once."""
-    k = len(own)
-    out = [""] * k
+def _tensor_slots(n: int, rows: np.ndarray, own: np.ndarray) -> tuple[list[list], np.ndarray]:
+    """(nine columns of n values for the tensor slots, kind of each row: NONE, SYMMETRIC or GENERAL).
+
+    A tensor is symmetric bit for bit (-0.0 and 0.0 are written differently): its three
+    off-diagonal texts are made once (float.__repr__) and each given to two "%s" slots; the
+    diagonal, and every value of another tensor, is a float for a "%r" slot. Rows without a
+    tensor hold empty texts."""
+    kind = np.full(n, NONE, dtype=np.int8)
+    k = len(rows)
     if not k:
-        return out
+        return [[""] * n for _ in range(9)], kind
     flat = own.reshape(k, 9)
     bits = flat.view(np.int64)
     symmetric = (bits[:, 1] == bits[:, 3]) & (bits[:, 2] == bits[:, 6]) & (bits[:, 5] == bits[:, 7])
+    kind[rows] = np.where(symmetric, SYMMETRIC, GENERAL)
+    values = flat.astype(object)  # Python floats, as .tolist() gives them
     sym = np.flatnonzero(symmetric)
     if len(sym):
-        s = flat[sym]
-        off = list(map(repr, s[:, [1, 2, 5]].ravel().tolist()))  # xy, xz, yz of each
-        xy, xz, yz = off[0::3], off[1::3], off[2::3]
-        args = [None] * (9 * len(sym))
-        for j, column in enumerate((s[:, 0].tolist(), xy, xz, xy, s[:, 4].tolist(), yz, xz, yz, s[:, 8].tolist())):
-            args[j::9] = column
-        texts = ("\x00".join([_SYMMETRIC] * len(sym)) % tuple(args)).split("\x00")
-        for r, text in zip(sym.tolist(), texts):
-            out[r] = text
-    for r in np.flatnonzero(~symmetric).tolist():
-        out[r] = _TENSOR % tuple(flat[r].tolist())
-    return out
+        off = list(map(repr, flat[sym][:, [1, 2, 5]].ravel().tolist()))  # xy, xz, yz of each
+        texts = np.empty(len(off), dtype=object)
+        texts[:] = off
+        for slot, j in ((1, 0), (3, 0), (2, 1), (6, 1), (5, 2), (7, 2)):
+            values[sym, slot] = texts[j::3]
+    slots = np.full((9, n), "", dtype=object)  # slot by slot: each row of this is one column
+    slots[:, rows] = values.T
+    return slots.tolist(), kind
 
 
-def items_text(ledger: Ledger, variable: list, more: list[int], row_text) -> str:
-    """The item list as json.dumps(indent=2) writes it as the value of "items" (level 1); `variable`
-    is every item's `variable`, all bools (the caller checks); `more` the rows of the items with keys
-    beyond v1 (item_columns.more_rows). `row_text(i, has_own, own_i, cg_i, fraction)` writes one
-    item the template cannot."""
+def item_blocks(ledger: Ledger, variable: list, more: list[int], row_text) -> Iterator[str]:
+    """The item list as json.dumps(indent=2) writes it as the value of "items" (level 1), in pieces
+    whose concatenation is that text; `variable` is every item's `variable`, all bools (the caller
+    checks); `more` the rows of the items with keys beyond v1 (model.more_rows). `row_text(i,
+    has_own, own_i, cg_i, fraction)` writes one item the templates cannot. Everything that can
+    fail (a bad key, a row written apart) runs before this returns; the pieces are only formatted."""
     items = ledger.items
     n = len(items)
     a = ledger.arrays
@@ -122,36 +135,52 @@ def items_text(ledger: Ledger, variable: list, more: list[int], row_text) -> str
     cg = a.cg
     plain &= np.isfinite(cg).all(axis=1)
 
-    inertia = ["null"] * n
     rows = own_rows(items)
     own = own_at(a, rows)
-    for r, text in zip(rows.tolist(), _tensors(own)):
-        inertia[r] = text
+    tensor, kind = _tensor_slots(n, rows, own)
     plain[rows[~np.isfinite(own.reshape(-1, 9)).all(axis=1)]] = False
 
     densities = field(items, "density")
-    density = ["null"] * n
     at = np.flatnonzero(given(densities)).tolist()
+    columns = [*strings, masses, quantities, *(cg[:, j].tolist() for j in range(3)),
+               list(map(("false", "true").__getitem__, variable)), *tensor]
+    tail = ',\n      "density_kg_m3": null\n    }'  # no item gives a density: no slot for it
     if at:
+        density = ["null"] * n
         values = [densities[i] for i in at]
         for i, text in zip(at, map(repr, values)):
             density[i] = text
         plain[np.array(at)[~_finite(values)]] = False
-
-    columns = [*strings, masses, quantities, *(cg[:, j].tolist() for j in range(3)),
-               list(map(("false", "true").__getitem__, variable)), inertia, density]
-    flat = [None] * (n * _WIDTH)
-    for j, column in enumerate(columns):
-        flat[j::_WIDTH] = column
-    templates = [_ROW.format(*("%s" if done else '"%s"' for done in quoted))] * n
-    others = np.flatnonzero(~plain).tolist()
-    if others:
+        columns.append(density)
+        tail = ',\n      "density_kg_m3": %s\n    }'
+    width = len(columns)
+    head = _HEAD.format(*("%s" if done else '"%s"' for done in quoted))
+    templates = (head + _NULL + tail, head + _SYMMETRIC + tail, head + _TENSOR + tail, "%s" * width)
+    kind[~plain] = APART
+    apart = {}
+    if not plain.all():
         own_index = dict(zip(rows.tolist(), range(len(rows))))
-        for i, cg_i in zip(others, cg[others].tolist()):
+        for i in np.flatnonzero(~plain).tolist():
             k = own_index.get(i)
-            templates[i] = _OTHER
-            flat[i * _WIDTH] = row_text(i, k is not None, None if k is None else own[k].tolist(), cg_i, fractions[i])
-    return "[\n" + ",\n".join(templates) % tuple(flat) + "\n  ]"
+            apart[i] = row_text(i, k is not None, None if k is None else own[k].tolist(), cg[i].tolist(), fractions[i])
+    return _blocks(n, columns, list(map(templates.__getitem__, kind.tolist())), apart)
+
+
+def _blocks(n: int, columns: list[list], templates: list[str], apart: dict[int, str]) -> Iterator[str]:
+    """The list's text a block of rows at a time: "[\\n", the rows joined by ",\\n", "\\n  ]"."""
+    width = len(columns)
+    empty = [""] * (width - 1)
+    rows_apart = sorted(apart)
+    for start in range(0, n, BLOCK):
+        stop = min(n, start + BLOCK)
+        flat = [""] * ((stop - start) * width)
+        for j, column in enumerate(columns):
+            flat[j::width] = column[start:stop]
+        for i in rows_apart[bisect_left(rows_apart, start):bisect_left(rows_apart, stop)]:
+            at = (i - start) * width
+            flat[at:at + width] = [apart[i], *empty]
+        yield ("[\n" if start == 0 else ",\n") + ",\n".join(templates[start:stop]) % tuple(flat)
+    yield "\n  ]"
 
 
 def _fractions(ledger: Ledger, more: list[int]) -> np.ndarray:
