@@ -151,6 +151,7 @@ class FileFlows:
             self.notify(message.error, title="Cannot open", severity="error", markup=False, timeout=8)
 
     def on_loaded(self, message: Loaded) -> None:
+        self.call_after_refresh(thaw)  # what the load froze, back to the collector once the table is painted
         self._close_loading()
         if self.session is not None:
             self.session.close_journal(discard=True)  # saved, or the user chose to discard (_keep_work)
@@ -172,7 +173,6 @@ class FileFlows:
             self.new_ledger_setup()
         if holder is not None:
             self._locked(holder)
-        self.call_after_refresh(thaw)  # the read's objects, frozen by the load, back to the collector
         self.call_after_refresh(self._warm_units)
 
     def _late_groups(self) -> None:
