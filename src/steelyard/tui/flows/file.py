@@ -48,9 +48,9 @@ def groups_of(ledger: Ledger, state) -> list:
 #: (they cost about a tenth of the file's load at 100,000 items); the table shows the items meanwhile
 LATE_GROUPS = 20_000
 
-#: the loading dialog's progress is repainted at most this often (s): each repaint is the screen
-#: thread's work, taken from the reader by the GIL, and a second's read needs no more than a few
-PROGRESS_EVERY = 0.3
+#: the loading dialog's progress is repainted at most this often (s), and on each new phase: each
+#: repaint is the screen thread's work, taken from the reader by the GIL (twice a second moves a bar)
+PROGRESS_EVERY = 0.5
 
 
 @contextmanager
