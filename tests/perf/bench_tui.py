@@ -227,7 +227,8 @@ def main(n: int = 100_000, given: str | None = None) -> None:
         print(f"file: {path} ({path.stat().st_size / 1e6:.1f} MB)")
         print(f"steelyard rollup --json (in process) {wall_cli:7.3f} s   runs {runs(cli, 0)}")
         print(f"editor: first paint of the table     {wall_tui:7.3f} s   runs {runs(tui, 0)}")
-        print(f"first paint / rollup --json          {wall_tui / wall_cli:7.2f}     (goal <= 1.1; wall, best of {RUNS} each)")
+        print(f"first paint / rollup --json          {wall_tui / wall_cli:7.2f}     "
+              f"(goal <= 1.1; wall, best of {RUNS} each)")
         print(f"  in CPU time {cpu_tui:.3f} s / {cpu_cli:.3f} s      {cpu_tui / cpu_cli:7.2f}     "
               f"(CPU runs: rollup {runs(cli, 1)}; editor {runs(tui, 1)})")
         print(f"  each editor run / the rollup just before it: median {statistics.median(pairs):.2f} "
