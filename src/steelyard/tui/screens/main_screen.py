@@ -46,6 +46,19 @@ def _bindings() -> list[Binding]:
     return out
 
 
+class MainFooter(Footer):
+    """Textual's footer, not rebuilt while another screen covers the main one.
+
+    Textual rebuilds it on every change of focus or of the screen stack; behind
+    the loading dialog that is work on the screen thread, which shares the GIL
+    with the file's reader, for keys nobody sees. Closing the covering screen
+    changes the stack again, and the footer is rebuilt then."""
+
+    async def recompose(self) -> None:
+        if self.app.screen is self.screen:
+            await super().recompose()
+
+
 class MainScreen(Screen):
     BINDINGS = _bindings()
 
@@ -69,7 +82,7 @@ class MainScreen(Screen):
             yield TotalsPanel(id="totals")
             yield EnvelopePanel(id="envelopes")
             yield LogView(id="log")
-        yield Footer()
+        yield MainFooter()
 
     def on_mount(self) -> None:
         self.query_one("#filter").display = False
