@@ -137,3 +137,24 @@ def test_frame_must_be_right_handed():
         ledger_from_data(data, source="t")
     data["frame"] = {"x": "fwd", "y": "right", "z": "down"}  # right-handed (common practice)
     ledger_from_data(data, source="t")
+
+
+@pytest.mark.parametrize("data", [b"", b"\n", b" \t\r\n\x0b\x0c \n"])
+def test_a_file_of_ascii_whitespace_only_is_an_empty_file(tmp_path, data):
+    # bytes.isspace / bytes.strip: ASCII whitespace is space, \t, \n, \r, \x0b, \x0c (Python docs, bytes methods)
+    from steelyard.core.errors import FormatError
+
+    path = tmp_path / "blank.toml"
+    path.write_bytes(data)
+    with pytest.raises(FormatError, match="empty file"):
+        open_ledger(path)
+
+
+@pytest.mark.parametrize("data", [b"\x1c\n", "\u00a0\n".encode()])
+def test_other_blank_looking_bytes_are_not_an_empty_file(tmp_path, data):
+    # not ASCII whitespace: the file is read, and refused for what it holds
+    path = tmp_path / "odd.toml"
+    path.write_bytes(data)
+    with pytest.raises(SteelyardError) as err:
+        open_ledger(path)
+    assert "empty file" not in str(err.value)
