@@ -93,3 +93,12 @@ def _ledger_cache_dir(tmp_path_factory, monkeypatch):
     and never an entry another test left. The folder is made only if a read writes to it."""
     folder = tmp_path_factory.getbasetemp() / "ledger-cache" / str(next(_CACHE_DIRS))
     monkeypatch.setenv("STEELYARD_CACHE_DIR", str(folder))
+
+
+@pytest.fixture
+def alone_on_the_disk():
+    """For a test that fsyncs in a storm: never beside a test of the real program in tmux (support.serial)."""
+    from support.serial import one_at_a_time
+
+    with one_at_a_time():
+        yield

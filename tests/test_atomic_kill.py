@@ -71,6 +71,7 @@ def _save_time(path: Path, versions, mode: str) -> float:
 
 
 @pytest.mark.slow  # 240 SIGKILLs of a process saving a 0.45 MB ledger
+@pytest.mark.usefixtures("alone_on_the_disk")  # an fsync storm: never beside the tmux tests
 def test_sigkill_during_saves_leaves_old_or_new_file(tmp_path):
     a, b = _ledger(1), _ledger(2)
     versions = [(a, ledger_to_toml(a).encode("utf-8")), (b, ledger_to_toml(b).encode("utf-8"))]

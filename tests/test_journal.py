@@ -321,6 +321,7 @@ def _check_after_kill(path: Path, led, acked: int) -> int:
 
 
 @pytest.mark.slow  # 40 SIGKILLs of a journaling process
+@pytest.mark.usefixtures("alone_on_the_disk")  # an fsync storm: never beside the tmux tests
 def test_sigkill_mid_appends_keeps_every_complete_record(ledger_file):
     loaded = open_ledger(ledger_file)
     rng = random.Random(11)

@@ -31,7 +31,8 @@ def test_real_program_in_tmux_edit_one_value_save_and_quit(tmp_path, tmux):
     name = "smoke"
     tmux.timeout = 20
     tmux.start(name, tmp_path, path.name, keep_pane=True, env=dict(os.environ, TEXTUAL_ANIMATIONS="none"))
-    screen = tmux.wait_for(name, "Mass ")
+    for text in ("Mass ", "INSIDE", "Planning aid only"):  # the screen may be painted a part at a time
+        screen = tmux.wait_for(name, text)
     lines = screen.splitlines()
     assert len(lines) <= 24 and max(len(line) for line in lines) <= 80
     assert "shelf" in screen and "INSIDE" in screen and "Planning aid only" in screen
