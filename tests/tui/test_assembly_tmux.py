@@ -45,6 +45,7 @@ def test_open_a_placed_file_in_tmux_edit_save_and_back(tmp_path, tmux):
     tmux.wait_for(name, "reason for the change")
     tmux.keys(name, "Enter")  # no reason given: Enter skips it
     tmux.wait_gone(name, "* lift-pod.toml", timeout=20)
+    tmux.wait_gone(name, "reason for the change", timeout=20)  # the prompt closed: the key goes to the table
     tmux.keys(name, "BSpace")
     mass, _cg = as_floats(totals(motor_g=500))  # by hand, exact (support.assembly)
     screen = tmux.wait_for(name, f"Mass {sig_text(mass)} kg")
