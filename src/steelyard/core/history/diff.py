@@ -36,7 +36,7 @@ from steelyard.core.history.diff_tables import (DefinitionChanges, TableChanges,
 from steelyard.core.history.diff_text import change_rows
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.loading.loadout import fill_fractions, state_from_fill
-from steelyard.core.document.model import ITEM_MORE, Ledger, more_rows, rows_with
+from steelyard.core.document.model import ITEM_MORE, Ledger, more_rows, pick as _pick, rows_with
 from steelyard.core.physics.rollup import MassProperties, check_finite_rollup, rollup_state
 from steelyard.core.limits.status import EnvelopeResult, envelope_results
 
@@ -179,14 +179,6 @@ def _markers(ledger: Ledger, capacity: np.ndarray, variable: np.ndarray) -> None
             continue
         capacity[i], _ = _loaded_marker(items[i].id, m)
         variable[i] = True
-
-
-def _pick(xs: list, rows: list[int]) -> list:
-    """xs[i] for i in rows, at C speed."""
-    if not rows:
-        return []
-    got = operator.itemgetter(*rows)(xs)
-    return list(got) if len(rows) > 1 else [got]
 
 
 def _given(items, key: str, *, falsy: bool = False) -> np.ndarray:

@@ -28,7 +28,7 @@ from itertools import repeat
 
 import numpy as np
 
-from steelyard.core.document.model import ItemArrays
+from steelyard.core.document.model import ItemArrays, pick as _pick
 
 HEADER = "[[item]]"
 _SPLIT = "\n" + HEADER
@@ -43,15 +43,6 @@ def tables_of(piece: str) -> list[str] | None:
     keys = piece.split(_SPLIT)
     keys[0] = keys[0][len(HEADER):]
     return keys
-
-
-def _pick(xs: list, rows: np.ndarray) -> list:
-    """xs[i] for i in rows, at C speed."""
-    rows = rows.tolist()
-    if not rows:
-        return []
-    got = operator.itemgetter(*rows)(xs)
-    return list(got) if len(rows) > 1 else [got]
 
 
 def _whole(keys: list[str]) -> list[bool]:
