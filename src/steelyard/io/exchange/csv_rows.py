@@ -17,6 +17,7 @@ from collections.abc import Iterator
 import numpy as np
 
 from steelyard.io.exchange.csv_cells import _reads_back, number_column
+from steelyard.io.exchange.item_columns import interleaved
 
 #: cells before the six inertia cells: id, name, group, mass, x, y, z, quantity, variable
 LEAD = 9
@@ -79,13 +80,10 @@ def body(texts: list[list[str]], numbers: list[tuple[list, dict]], quantity: lis
             kinds[s] = "%s"
             columns[s][r] = text  # every column here is a list of its own (`number_args`, `_spread`)
         templates[r] = sep.join(kinds) + "".join(after) + "\n"
-    return _blocks(n, width, columns, templates)
+    return _blocks(n, columns, templates)
 
 
-def _blocks(n: int, width: int, columns: list[list], templates: list[str]) -> Iterator[str]:
+def _blocks(n: int, columns: list[list], templates: list[str]) -> Iterator[str]:
     for start in range(0, n, BLOCK):
         stop = min(n, start + BLOCK)
-        flat = [None] * ((stop - start) * width)
-        for j, column in enumerate(columns):
-            flat[j::width] = column[start:stop]
-        yield "".join(templates[start:stop]) % tuple(flat)
+        yield "".join(templates[start:stop]) % tuple(interleaved(columns, start, stop))

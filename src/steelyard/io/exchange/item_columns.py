@@ -18,6 +18,15 @@ from steelyard.core.document.model import Item, ItemArrays
 
 
 
+def interleaved(columns: list[list], start: int, stop: int, fill=None) -> list:
+    """Rows start..stop of `columns` laid out row after row (one flat list: a block's `%` values)."""
+    width = len(columns)
+    flat = [fill] * ((stop - start) * width)
+    for j, column in enumerate(columns):
+        flat[j::width] = column[start:stop]
+    return flat
+
+
 def field(items: Sequence[Item], key: str) -> list:
     """`item.<key>` of every item, in order."""
     return list(map(attrgetter(key), items))

@@ -29,7 +29,7 @@ from itertools import compress
 import numpy as np
 
 from steelyard.core.document.model import Ledger
-from steelyard.io.exchange.item_columns import all_of_type, field, given, own_at, own_rows
+from steelyard.io.exchange.item_columns import all_of_type, field, given, interleaved, own_at, own_rows
 
 #: rows per block: a block's text (about 0.4 MB) and its values stay in the processor's caches
 BLOCK = 1024
@@ -173,9 +173,7 @@ def _blocks(n: int, columns: list[list], templates: list[str], apart: dict[int, 
     rows_apart = sorted(apart)
     for start in range(0, n, BLOCK):
         stop = min(n, start + BLOCK)
-        flat = [""] * ((stop - start) * width)
-        for j, column in enumerate(columns):
-            flat[j::width] = column[start:stop]
+        flat = interleaved(columns, start, stop, "")
         for i in rows_apart[bisect_left(rows_apart, start):bisect_left(rows_apart, stop)]:
             at = (i - start) * width
             flat[at:at + width] = [apart[i], *empty]
