@@ -60,7 +60,6 @@ def body(texts: list[list[str]], numbers: list[tuple[list, dict]], quantity: lis
     after = [sep + "%s"] * len(tail)
     plain = sep.join(formats + ["%s"] * 6) + "".join(after) + "\n"
     with_own = sep.join(formats + [num] * 6) + "".join(after) + "\n"
-    width = LEAD + 6 + len(tail)
     rows = own.tolist()
     columns = [*texts, *(a for a, _ in numbers), quantity, variable,
                *(_spread(n, own, a) for a, _ in inertia), *tail]
