@@ -26,12 +26,10 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 from steelyard.core.control.growth import allocations, growth_table
-from steelyard.core.control.weighing import parse_weighing
 from steelyard.core.document.model import Amount, Envelope, FileUnits, Ledger, Loadout
 from steelyard.core.errors import SteelyardError
 from steelyard.core.history.diff_equal import same
 from steelyard.core.limits.rules import SCOPE_KEYS, limit_specs, mac_reference
-from steelyard.core.loading.sequence import sequence_specs
 from steelyard.core.physics.inertia import COMPONENTS
 from steelyard.core.units import parse_quantity, to_si, unit_factor
 
@@ -268,6 +266,10 @@ def _amount(raw: object) -> object:
 
 def sequence_meanings(ledger: Ledger) -> dict[str, Meaning]:
     """Each [[sequence]] by name: its start, end condition and every step with amounts in SI."""
+    if not ledger.sequences:
+        return {}
+    from steelyard.core.loading.sequence import sequence_specs  # here: most ledgers have no sequence
+
     raw = {r.get("name"): r for r in ledger.sequences if isinstance(r, Mapping)}
     out = {}
     for spec in sequence_specs(ledger):
@@ -323,6 +325,8 @@ def weighing_meaning(ledger: Ledger) -> Meaning | None:
     """The weighing as read (core.control.weighing): points, readings and adjustments in SI."""
     if ledger.weighing is None:
         return None
+    from steelyard.core.control.weighing import parse_weighing  # here: most ledgers have no weighing
+
     w = parse_weighing(ledger.weighing, ledger.units, ledger)
     m = Meaning()
     for k, name in enumerate(w.names):

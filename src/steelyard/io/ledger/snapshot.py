@@ -37,8 +37,6 @@ from steelyard.core.loading.tank import cg_for_fill
 from steelyard.core.document.model import Envelope, FileUnits, ItemArrays, Ledger, with_arrays
 from steelyard.core.physics.rollup import MassProperties, rollup_state
 from steelyard.core.limits.status import envelope_results
-from steelyard.io.ledger.snapshot_content import content_text as fast_content_text
-from steelyard.io.ledger.toml_write import tables
 from steelyard.io.ledger.snapshot_sources import placed_sources
 
 SNAPSHOT_FORMAT = 1
@@ -63,7 +61,10 @@ class SnapshotInfo:
 def content_text(ledger: Ledger) -> str:
     """Canonical text of the ledger without its [snapshot] table: what the hash covers.
 
-    Exactly `ledger_to_toml(ledger, snapshot=False)`, written by the snapshot's quick path."""
+    Exactly `ledger_to_toml(ledger, snapshot=False)`, written by the snapshot's quick path. Imported here:
+    checking a snapshot read from a file takes its hash from the file's bytes and needs no writer."""
+    from steelyard.io.ledger.snapshot_content import content_text as fast_content_text
+
     return fast_content_text(ledger)
 
 
@@ -177,6 +178,8 @@ def snapshot_text(ledger: Ledger, loadout: str | None, *, source: str, author: s
     envs = _envelopes(snap, mp)
     if envs:
         table["envelopes"] = envs
+    from steelyard.io.ledger.toml_write import tables
+
     return content + "\n" + tables({SNAPSHOT_TABLE: table})
 
 
