@@ -108,3 +108,14 @@ async def answer_reason(app, pilot, reason: str = "", request: str = "") -> None
         await type_into(app, pilot, "request-input", request)
     await pilot.press("enter")
     await pilot.pause()
+
+
+CHARACTERS = {"space": " ", "tab": "\t", "enter": "\r"}
+
+
+def burst(app, keys) -> None:
+    """Every key queued on the App at once, as a fast typist or a paste without bracketing sends them."""
+    from textual import events
+
+    for key in keys:
+        app.post_message(events.Key(key, CHARACTERS.get(key, key if len(key) == 1 else None)))

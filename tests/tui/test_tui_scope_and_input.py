@@ -19,17 +19,8 @@ from steelyard.tui.screens.item_form import ItemForm
 from steelyard.tui.widgets.ledger_table import share_text_width
 from support.ledgers import write_ledger
 from support.paths import FIXTURES, TRAINER
-from support.tui import SIZE, copy_fixture, cursor_to, editor, screen_text, settle, type_into, wait_for_screen
+from support.tui import SIZE, burst, copy_fixture, cursor_to, editor, screen_text, settle, type_into, wait_for_screen
 from test_scope_room_left import DRONE
-
-CHARACTERS = {"space": " ", "tab": "\t", "enter": "\r"}
-
-
-def burst(app, keys) -> None:
-    """Every key queued on the App at once, as a fast typist or a paste without bracketing sends them."""
-    for key in keys:
-        app.post_message(events.Key(key, CHARACTERS.get(key, key if len(key) == 1 else None)))
-
 
 def spelled(text: str) -> list[str]:
     return ["space" if ch == " " else ch for ch in text]

@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 from rich.text import Text
-from textual import on
 from textual.binding import Binding
 from textual.containers import Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Input, Static
 
+from steelyard.tui.screens.answered_in_order import KEYS, typed_so_far
 from steelyard.tui.text import clean
 from steelyard.tui.widgets.ordered_input import OrderedInput
 
@@ -16,8 +16,8 @@ from steelyard.tui.widgets.ordered_input import OrderedInput
 class TextPrompt(ModalScreen[str | None]):
     """Enter answers (the text, stripped), Escape gives None."""
 
-    # Tab as a priority binding moves focus in the order keys arrive (see item_form)
-    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+    # Tab moves focus, Enter and Escape close, in the order keys arrive (see screens.answered_in_order)
+    BINDINGS = [*KEYS,
                 Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
@@ -36,9 +36,9 @@ class TextPrompt(ModalScreen[str | None]):
     def on_mount(self) -> None:
         self.query_one(Input).focus()
 
-    @on(Input.Submitted)
-    def _submitted(self, event: Input.Submitted) -> None:
-        self.dismiss(event.value.strip())
+    async def action_answer(self) -> None:
+        await typed_so_far(self)
+        self.dismiss(self.query_one(Input).value.strip())
 
     def action_cancel(self) -> None:
         self.dismiss(None)

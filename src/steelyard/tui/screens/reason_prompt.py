@@ -9,19 +9,21 @@ the report and `steelyard diff`.
 from __future__ import annotations
 
 from rich.text import Text
-from textual import on
 from textual.binding import Binding
 from textual.containers import Vertical
 from textual.screen import ModalScreen
-from steelyard.tui.widgets.ordered_input import OrderedInput
 from textual.widgets import Input, Static
+
+from steelyard.tui.screens.answered_in_order import KEYS, typed_so_far
+from steelyard.tui.widgets.ordered_input import OrderedInput
 
 
 class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
     """Enter answers (reason, request), either maybe empty; Escape gives None (the save is not made)."""
 
-    # Tab moves focus in the order keys arrive (a burst or a paste over SSH lands field by field)
-    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+    # Tab moves focus, Enter and Escape close, in the order keys arrive (a burst or a paste over SSH lands
+    # field by field, and what follows the Enter reaches the screen beneath: screens.answered_in_order)
+    BINDINGS = [*KEYS,
                 Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
@@ -44,8 +46,8 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
     def on_mount(self) -> None:
         self.query_one("#reason-input", Input).focus()
 
-    @on(Input.Submitted)
-    def _submitted(self, _event: Input.Submitted) -> None:
+    async def action_answer(self) -> None:
+        await typed_so_far(self)
         self.dismiss((self.query_one("#reason-input", Input).value.strip(),
                       self.query_one("#request-input", Input).value.strip()))
 

@@ -1,0 +1,72 @@
+"""Keys typed right behind the Enter or Escape that closes a question reach the screen beneath.
+
+Keys are queued on the App all at once, as a fast typist or a paste over SSH
+sends them (see test_tui_scope_and_input.burst). The answer must be exactly
+what was typed before the Enter; the key after it must act on the ledger
+screen (here `4`, the change-log view). Saved files are read back with the
+standard library's tomllib, not with steelyard.
+"""
+
+from __future__ import annotations
+
+import tomllib
+
+from textual.widgets import ContentSwitcher
+
+from steelyard.tui.screens.prompt import TextPrompt
+from steelyard.tui.screens.reason_prompt import ReasonPrompt
+from support.tui import burst, copy_fixture, cursor_to, editor, settle, wait_for_screen
+
+
+def _view(app) -> str:
+    return app.screen.query_one(ContentSwitcher).current
+
+
+async def _unsaved_change(app, pilot) -> None:
+    await cursor_to(app, pilot, "wing-l")
+    await pilot.press("d")  # duplicate the item: one unsaved change with no reason yet
+    await settle(pilot, app)
+    assert app.session.dirty
+
+
+async def test_a_key_typed_after_the_reasons_enter_goes_to_the_table_not_the_reason(tmp_path):
+    path = copy_fixture(tmp_path)
+    async with editor(path) as (app, pilot):
+        await _unsaved_change(app, pilot)
+        await pilot.press("ctrl+s")
+        await wait_for_screen(app, pilot, ReasonPrompt)
+        burst(app, [*"doubler", "enter", "4"])
+        await settle(pilot, app)
+        assert not isinstance(app.screen, ReasonPrompt)
+        assert not app.session.dirty  # saved
+        assert _view(app) == "log"  # the 4 typed after the Enter switched the view
+    data = tomllib.loads(path.read_text())
+    assert data["change"][-1]["reason"] == "doubler"  # not "doubler4", not cut short
+
+
+async def test_a_key_typed_after_escape_at_the_reason_goes_to_the_table(tmp_path):
+    path = copy_fixture(tmp_path)
+    on_disk = path.read_bytes()
+    async with editor(path) as (app, pilot):
+        await _unsaved_change(app, pilot)
+        await pilot.press("ctrl+s")
+        await wait_for_screen(app, pilot, ReasonPrompt)
+        burst(app, [*"abc", "escape", "4"])
+        await settle(pilot, app)
+        assert not isinstance(app.screen, ReasonPrompt)
+        assert app.session.dirty and path.read_bytes() == on_disk  # Escape: no save
+        assert _view(app) == "log"
+
+
+async def test_the_group_prompt_takes_what_came_before_its_enter_only(tmp_path):
+    path = copy_fixture(tmp_path)
+    async with editor(path) as (app, pilot):
+        await cursor_to(app, pilot, "wing-l")
+        await pilot.press("m")
+        await wait_for_screen(app, pilot, TextPrompt)
+        # the prompt opens on the item's group, "structure/wing" (fixtures/trainer.toml), selected: End keeps it
+        burst(app, ["end", *"/spar", "enter", "4"])
+        await settle(pilot, app)
+        assert not isinstance(app.screen, TextPrompt)
+        assert app.session.ledger.item("wing-l").group == "structure/wing/spar"
+        assert _view(app) == "log"
