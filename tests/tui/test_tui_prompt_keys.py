@@ -10,12 +10,17 @@ standard library's tomllib, not with steelyard.
 from __future__ import annotations
 
 import tomllib
+from fractions import Fraction
 
 from textual.widgets import ContentSwitcher
 
+from steelyard.tui.screens.item_form import ItemForm
 from steelyard.tui.screens.prompt import TextPrompt
 from steelyard.tui.screens.reason_prompt import ReasonPrompt
 from support.tui import burst, copy_fixture, cursor_to, editor, settle, wait_for_screen
+
+
+LB = Fraction("0.45359237")  # kg in one pound, exact by definition (NIST SP 811)
 
 
 def _view(app) -> str:
@@ -69,4 +74,17 @@ async def test_the_group_prompt_takes_what_came_before_its_enter_only(tmp_path):
         await settle(pilot, app)
         assert not isinstance(app.screen, TextPrompt)
         assert app.session.ledger.item("wing-l").group == "structure/wing/spar"
+        assert _view(app) == "log"
+
+
+async def test_the_item_form_applies_what_came_before_its_enter_and_the_next_key_reaches_the_table(tmp_path):
+    path = copy_fixture(tmp_path)
+    async with editor(path) as (app, pilot):
+        await cursor_to(app, pilot, "wing-l")
+        # Enter opens the form on the mass (99.0 lb, trainer.toml) with its text selected; 4 is the log view
+        burst(app, ["enter", "backspace", *"88.5", "enter", "4"])
+        await settle(pilot, app)
+        assert not isinstance(app.screen, ItemForm)
+        got = app.session.ledger.item("wing-l").mass  # kg
+        assert abs(Fraction(got) - Fraction("88.5") * LB) < Fraction(1, 10**9)  # 88.5 lb, not 88.54 lb
         assert _view(app) == "log"

@@ -293,3 +293,22 @@ async def test_a_burst_of_keys_in_a_set_up_form_lands_field_by_field(tmp_path):
         assert app.screen.query_one(f"#{_fid('name')}").value == "mtow"
         assert app.screen.query_one(f"#{_fid('max_mass')}").value == "7.2 kg"
         await pilot.press("escape")
+
+
+async def test_enter_in_a_burst_moves_on_before_the_next_key(tmp_path):
+    # the same burst with Enter, which moves to the next field as Tab does (the form's own hint line):
+    # each Enter must take effect before the characters typed after it are routed (common practice)
+    from textual import events
+
+    path = copy_fixture(tmp_path)
+    async with editor(path) as (app, pilot):
+        await open_entry(app, pilot, "limit:new")
+        chars = {"enter": "\r", "space": " "}
+        for key in [*"mtow", "enter", "enter", "enter", "enter", *"7.2", "space", *"kg"]:
+            app.post_message(events.Key(key, chars.get(key, key)))
+        await settle(pilot, app)
+        from steelyard.tui.screens.setup_form import _fid
+
+        assert app.screen.query_one(f"#{_fid('name')}").value == "mtow"
+        assert app.screen.query_one(f"#{_fid('max_mass')}").value == "7.2 kg"
+        await pilot.press("escape")

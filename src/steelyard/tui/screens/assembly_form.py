@@ -26,6 +26,7 @@ from steelyard.core.display import pretty_unit
 from steelyard.core.document.model import Ledger
 from steelyard.core.errors import SteelyardError
 from steelyard.tui.state.assembly import fields_of, placement_edit, placement_removed, read_child, table_from_fields
+from steelyard.tui.screens.answered_in_order import KEYS, InOrder
 from steelyard.tui.text import clean, literal
 
 
@@ -42,7 +43,7 @@ def _at_text(table: dict) -> str:
     return ", ".join(str(v) for v in table.get("at", []))
 
 
-class AssemblyForm(ModalScreen[PlacementResult | None]):
+class AssemblyForm(InOrder, ModalScreen[PlacementResult | None]):
     DEFAULT_CSS = """
     AssemblyForm { align: center middle; }
     #asm-box { width: 100%; max-width: 100; height: auto; max-height: 100%; border: thick $primary;
@@ -56,7 +57,7 @@ class AssemblyForm(ModalScreen[PlacementResult | None]):
     #asm-buttons Button { margin-right: 2; }
     """
     # Tab moves focus in the order keys arrive (a burst or a paste over SSH lands field by field)
-    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+    BINDINGS = [*KEYS, Binding("escape", "cancel", "Cancel"),
                 Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
@@ -149,12 +150,22 @@ class AssemblyForm(ModalScreen[PlacementResult | None]):
             self.values[event.input.id[2:]] = event.value
             self.check()
 
+    def _take_fields(self) -> None:
+        """Every field as typed (their change messages may still be on the way)."""
+        for field in self.query(Input):
+            if field.id and field.id.startswith("a-"):
+                self.values[field.id[2:]] = field.value
+
     @on(Select.Changed, "#a-mirror")
     def _mirror(self, _event) -> None:
         self.check()
 
     # ---------------------------------------------------------------- finish
-    @on(Input.Submitted)
+    async def entered(self) -> None:
+        """Enter in a field: Apply, on the fields as typed."""
+        self._take_fields()
+        self.action_apply()
+
     @on(Button.Pressed, "#asm-apply")
     def action_apply(self) -> None:
         self.check()

@@ -24,6 +24,7 @@ from steelyard.core.document.model import Item, Ledger
 from steelyard.tui.state.edits import add_item, replace_item
 from steelyard.tui.state.form_values import (GIVEN_INERTIA, check_loadouts, initial_fields, item_from_fields, kinds,
                                             shape_fields, shape_keys)
+from steelyard.tui.screens.answered_in_order import KEYS, InOrder
 from steelyard.tui.text import clean, literal
 from steelyard.tui.widgets.ordered_input import OrderedInput
 
@@ -43,10 +44,10 @@ class FormResult:
     summary: str
 
 
-class ItemForm(ModalScreen[FormResult | None]):
+class ItemForm(InOrder, ModalScreen[FormResult | None]):
     # Tab is a priority binding so it moves focus in the order keys arrive: as a plain binding it runs
     # only after bubbling up from the field, when the keys typed after it are already in that field.
-    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+    BINDINGS = [*KEYS, Binding("escape", "cancel", "Cancel"),
                 Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
@@ -265,8 +266,11 @@ class ItemForm(ModalScreen[FormResult | None]):
     def _changed(self, event: Input.Changed) -> None:
         if not event.input.id:
             return
-        self.values[event.input.id[2:].replace("-", ".", 1)] = event.value  # inverse of fid()
+        self._take(event.input)
         self._queue_check()
+
+    def _take(self, field: Input) -> None:
+        self.values[field.id[2:].replace("-", ".", 1)] = field.value  # inverse of fid()
 
     def _queue_check(self) -> None:
         """Check once after the keys already queued: a burst of keys costs one check, not one per key."""
@@ -290,7 +294,13 @@ class ItemForm(ModalScreen[FormResult | None]):
         self.check()
 
     # ---------------------------------------------------------------- finish
-    @on(Input.Submitted)
+    async def entered(self) -> None:
+        """Enter in a field: Apply, on the fields as typed (their change messages may still be on the way)."""
+        for field in self.query(Input):
+            if field.id:
+                self._take(field)
+        self.action_apply()
+
     @on(Button.Pressed, "#form-apply")
     def action_apply(self) -> None:
         self.check(wait=True)

@@ -8,16 +8,16 @@ from textual.containers import Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Input, Static
 
-from steelyard.tui.screens.answered_in_order import KEYS, typed_so_far
+from steelyard.tui.screens.answered_in_order import KEYS, InOrder
 from steelyard.tui.text import clean
 from steelyard.tui.widgets.ordered_input import OrderedInput
 
 
-class TextPrompt(ModalScreen[str | None]):
+class TextPrompt(InOrder, ModalScreen[str | None]):
     """Enter answers (the text, stripped), Escape gives None."""
 
     # Tab moves focus, Enter and Escape close, in the order keys arrive (see screens.answered_in_order)
-    BINDINGS = [*KEYS,
+    BINDINGS = [*KEYS, Binding("escape", "cancel", "Cancel"),
                 Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
@@ -36,8 +36,7 @@ class TextPrompt(ModalScreen[str | None]):
     def on_mount(self) -> None:
         self.query_one(Input).focus()
 
-    async def action_answer(self) -> None:
-        await typed_so_far(self)
+    async def entered(self) -> None:
         self.dismiss(self.query_one(Input).value.strip())
 
     def action_cancel(self) -> None:

@@ -14,16 +14,16 @@ from textual.containers import Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Input, Static
 
-from steelyard.tui.screens.answered_in_order import KEYS, typed_so_far
+from steelyard.tui.screens.answered_in_order import KEYS, InOrder
 from steelyard.tui.widgets.ordered_input import OrderedInput
 
 
-class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
+class ReasonPrompt(InOrder, ModalScreen[tuple[str, str] | None]):
     """Enter answers (reason, request), either maybe empty; Escape gives None (the save is not made)."""
 
     # Tab moves focus, Enter and Escape close, in the order keys arrive (a burst or a paste over SSH lands
     # field by field, and what follows the Enter reaches the screen beneath: screens.answered_in_order)
-    BINDINGS = [*KEYS,
+    BINDINGS = [*KEYS, Binding("escape", "cancel", "Cancel"),
                 Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
@@ -46,8 +46,7 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
     def on_mount(self) -> None:
         self.query_one("#reason-input", Input).focus()
 
-    async def action_answer(self) -> None:
-        await typed_so_far(self)
+    async def entered(self) -> None:
         self.dismiss((self.query_one("#reason-input", Input).value.strip(),
                       self.query_one("#request-input", Input).value.strip()))
 

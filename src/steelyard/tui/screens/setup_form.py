@@ -30,6 +30,7 @@ from steelyard.core.errors import SteelyardError
 from steelyard.tui.state.setup_fields import (FIELDS, TITLES, Field, RowsError, categories_text, hint, parse,
                                               parse_categories, parse_points, points_text, shown)
 from steelyard.tui.state.setup_tables import NAME_KEY, SINGLE, entries, entry_name, with_entry
+from steelyard.tui.screens.answered_in_order import KEYS, InOrder
 from steelyard.tui.text import clean, literal
 from steelyard.tui.widgets.chart import EnvelopeChart
 
@@ -56,7 +57,7 @@ def _fid(key: str) -> str:
     return "sf-" + "".join(c if c.isalnum() else f"_{ord(c):x}_" for c in key)
 
 
-class SetupForm(ModalScreen[SetupDone | None]):
+class SetupForm(InOrder, ModalScreen[SetupDone | None]):
     DEFAULT_CSS = """
     SetupForm { align: center middle; }
     #setup-box { width: 100%; max-width: 110; height: 100%; border: thick $primary; background: $surface;
@@ -76,7 +77,7 @@ class SetupForm(ModalScreen[SetupDone | None]):
     SetupForm Input.bad, SetupForm TextArea.bad { background: $error 30%; }
     """
     # Tab moves focus in the order keys arrive (a burst or a paste over SSH lands field by field)
-    BINDINGS = [Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "apply", "Apply", show=False),
+    BINDINGS = [*KEYS, Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "apply", "Apply", show=False),
                 Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
@@ -241,9 +242,8 @@ class SetupForm(ModalScreen[SetupDone | None]):
             self._pending.stop()
         self._pending = self.set_timer(0.25, self.check)
 
-    @on(Input.Submitted)
-    def _next_field(self) -> None:
-        self.focus_next()
+    async def entered(self) -> None:
+        self.focus_next()  # in a field: on to the next one
 
     def on_descendant_focus(self, event) -> None:
         widget = event.widget

@@ -23,6 +23,7 @@ from steelyard.core.display import DisplayUnits, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Ledger
 from steelyard.io.report.weighing import Weighing, weighing_summary
+from steelyard.tui.screens.answered_in_order import KEYS, InOrder
 from steelyard.tui.text import clean, literal
 from steelyard.tui.widgets.ordered_input import OrderedInput
 from steelyard.tui.state.weighing_values import (ADJUST_FIELDS, POINT_FIELDS, WeighingFields, fields_from_table, reduce_fields,
@@ -41,9 +42,9 @@ class WeighingDone:
     summary: str
 
 
-class WeighingForm(ModalScreen[WeighingDone | None]):
+class WeighingForm(InOrder, ModalScreen[WeighingDone | None]):
     # Tab as a priority binding moves focus in the order keys arrive (see item_form)
-    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+    BINDINGS = [*KEYS, Binding("escape", "cancel", "Cancel"),
                 Binding("tab", "app.focus_next", "Next field", show=False, priority=True),
                 Binding("shift+tab", "app.focus_previous", "Previous field", show=False, priority=True)]
 
@@ -167,9 +168,8 @@ class WeighingForm(ModalScreen[WeighingDone | None]):
             self.fields = self.fields.with_value(kind, int(row), key, event.value)
         self.check()
 
-    @on(Input.Submitted)
-    def _next_field(self) -> None:
-        self.focus_next()
+    async def entered(self) -> None:
+        self.focus_next()  # in a field: on to the next one
 
     @on(Button.Pressed, ".weigh-add")
     async def _add_row(self, event: Button.Pressed) -> None:
