@@ -12,13 +12,13 @@ import re
 import pytest
 from rich.cells import cell_len
 from textual import events
-from textual.widgets import Button, Input, Label, Select
+from textual.widgets import Input, Label, Select
 
 from steelyard.tui.screens import item_form
 from steelyard.tui.screens.item_form import ItemForm
 from steelyard.tui.widgets.ledger_table import share_text_width
 from support.ledgers import write_ledger
-from support.paths import FIXTURES, TRAINER
+from support.paths import FIXTURES
 from support.tui import SIZE, burst, copy_fixture, cursor_to, editor, screen_text, settle, type_into, wait_for_screen
 from test_scope_room_left import DRONE
 
