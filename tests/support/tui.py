@@ -6,6 +6,7 @@ from the program.
 
 from __future__ import annotations
 
+import asyncio
 import io
 import shutil
 from contextlib import asynccontextmanager
@@ -57,10 +58,16 @@ async def wait_for_screen(app, pilot, screen_type, tries: int = 100, what: str |
     assert isinstance(app.screen, screen_type), what
 
 
-async def settle(pilot, app, rounds: int = 3) -> None:
-    """Let workers (subtotals, saves) finish and the screen repaint."""
+async def settle(pilot, app, rounds: int = 3, timeout: float = 60.0) -> None:
+    """Let workers (subtotals, saves) finish and the screen repaint. A worker still running after
+    `timeout` seconds (one waiting for an answer no test gives) fails the test instead of hanging it."""
     for _ in range(rounds):
-        await app.workers.wait_for_complete()
+        try:
+            await asyncio.wait_for(app.workers.wait_for_complete(), timeout)
+        except TimeoutError:
+            running = [w.description or w.name for w in app.workers if not w.is_finished]
+            raise AssertionError(f"workers still running after {timeout:g} s: {running}; "
+                                 f"top screen {type(app.screen).__name__}") from None
         await pilot.pause(0.05)
 
 

@@ -88,3 +88,31 @@ async def test_the_item_form_applies_what_came_before_its_enter_and_the_next_key
         got = app.session.ledger.item("wing-l").mass  # kg
         assert abs(Fraction(got) - Fraction("88.5") * LB) < Fraction(1, 10**9)  # 88.5 lb, not 88.54 lb
         assert _view(app) == "log"
+
+
+async def test_keys_typed_right_after_ctrl_s_answer_the_reason_question(tmp_path):
+    # the question is on screen before the next key is read: "w" is the first letter of the reason,
+    # not the weighing form's key
+    path = copy_fixture(tmp_path)
+    async with editor(path) as (app, pilot):
+        await _unsaved_change(app, pilot)
+        burst(app, ["ctrl+s", *"wheel fairing", "enter", "4"])
+        await settle(pilot, app)
+        assert not app.session.dirty
+        assert _view(app) == "log"
+    data = tomllib.loads(path.read_text())
+    assert data["change"][-1]["reason"] == "wheel fairing"
+
+
+async def test_keys_typed_right_after_save_as_name_the_file(tmp_path):
+    path = copy_fixture(tmp_path)
+    target = tmp_path / "copy.toml"
+    async with editor(path) as (app, pilot):
+        await _unsaved_change(app, pilot)
+        burst(app, ["W", *str(target), "enter"])
+        await wait_for_screen(app, pilot, ReasonPrompt)  # the next question, asked once the name is known
+        await pilot.press("enter")
+        await settle(pilot, app)
+        assert not app.session.dirty
+    assert [t["id"] for t in tomllib.loads(target.read_text())["item"]].count("wing-l") == 1
+    assert len(tomllib.loads(target.read_text())["item"]) == len(tomllib.loads(path.read_text())["item"]) + 1

@@ -210,31 +210,61 @@ class FileFlows:
         self.update_title()
 
     # ------------------------------------------------------------------ save
-    def action_save(self) -> None:
-        if self.session is not None:
-            self._save_worker(None, False)
+    async def action_save(self) -> None:
+        await self._save_from_key(None)
 
-    def action_save_as(self) -> None:
-        if self.session is not None:
-            self._save_worker("ask", False)
+    async def action_save_as(self) -> None:
+        await self._save_from_key("ask")
+
+    async def _save_from_key(self, path: str | None) -> None:
+        """Start a save with its first question (the file name, or the reason) already on screen.
+
+        The question is mounted before the next key is read, so what is typed right after Ctrl+S
+        answers it; asked from the save's worker, it came a moment later, and those keys ran as
+        commands on the ledger screen."""
+        s = self.session
+        if s is None:
+            return
+        if path == "ask" or (path is None and s.path is None):
+            def named(typed: str | None) -> None:
+                if typed:
+                    self._save_worker("ask", False, typed_path=typed)
+
+            await self.push_screen(self._path_prompt("Save as", s.path or ""), named)
+            return
+        waiting = s.unexplained()
+        if waiting and not s.read_only:
+            def answered(answer: tuple[str, str] | None) -> None:
+                if answer is not None and self.session is s:
+                    self._save_worker(None, False, reason=answer)
+
+            await self.push_screen(ReasonPrompt(len(waiting)), answered)
+            return
+        self._save_worker(None, False)
 
     @work(exclusive=True, group="save", description="save")
-    async def _save_worker(self, path: str | None, quit_after: bool) -> None:
-        if await self.save_steps(path) and quit_after:
+    async def _save_worker(self, path: str | None, quit_after: bool, *, typed_path: str | None = None,
+                           reason: tuple[str, str] | None = None) -> None:
+        if await self.save_steps(path, typed_path=typed_path, reason=reason) and quit_after:
             await self._quit_now()
 
     async def _ask(self, question: str, answers, title: str = "Please choose") -> str:
         return await self.push_screen_wait(ConfirmScreen(question, answers, title=title))
 
-    async def _ask_path(self, title: str, value: str = "") -> str | None:
+    def _path_prompt(self, title: str, value: str = "") -> TextPrompt:
         hint = "a ledger file path (TOML), relative to " + os.getcwd()
-        return await self.push_screen_wait(TextPrompt(title, value, hint=hint, placeholder="ledger.toml"))
+        return TextPrompt(title, value, hint=hint, placeholder="ledger.toml")
 
-    async def save_steps(self, path: str | None) -> bool:
-        """Save, asking whatever needs asking; True when the ledger is on disk."""
+    async def _ask_path(self, title: str, value: str = "") -> str | None:
+        return await self.push_screen_wait(self._path_prompt(title, value))
+
+    async def save_steps(self, path: str | None, *, typed_path: str | None = None,
+                         reason: tuple[str, str] | None = None) -> bool:
+        """Save, asking whatever needs asking; True when the ledger is on disk. `typed_path`, `reason`:
+        answers already given (see _save_from_key)."""
         s = self.session
         if path == "ask" or (path is None and s.path is None):
-            path = await self._ask_path("Save as", s.path or "")
+            path = typed_path or await self._ask_path("Save as", s.path or "")
             if not path:
                 return False
             path = os.path.expanduser(path)
@@ -243,7 +273,7 @@ class FileFlows:
                 if await self._ask(f"{path} exists. Replace it?", [("replace", "Replace"),
                                                                    ("cancel", "Cancel")]) != "replace":
                     return False
-        if (path is not None or not s.read_only) and not await self._ask_reason():
+        if (path is not None or not s.read_only) and not await self._ask_reason(reason):
             return False
         flags: dict[str, bool] = {}
         old_path = s.path
@@ -281,16 +311,16 @@ class FileFlows:
         self.refresh_views()
         return True
 
-    async def _ask_reason(self) -> bool:
+    async def _ask_reason(self, given: tuple[str, str] | None = None) -> bool:
         """Ask why (and under which change request) for the changes this save writes; False: cancelled.
 
         Asked only when some unsaved change has no reason yet; Enter with nothing typed saves
-        without one."""
+        without one. `given`: the answer to the question already asked (see _save_from_key)."""
         s = self.session
         waiting = s.unexplained()
         if not waiting:
             return True
-        answer = await self.push_screen_wait(ReasonPrompt(len(waiting)))
+        answer = given if given is not None else await self.push_screen_wait(ReasonPrompt(len(waiting)))
         if answer is None:
             return False
         s.annotate(*answer)
