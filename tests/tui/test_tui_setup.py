@@ -10,6 +10,8 @@ NIST SP 811 pound), never from the program.
 
 from __future__ import annotations
 
+import pytest
+
 import tomllib
 from fractions import Fraction
 
@@ -276,35 +278,18 @@ async def test_keys_typed_as_the_form_opens_land_in_its_first_field(tmp_path):
         assert app.session.ledger.allocations == ({"group": "avionics", "mass": 60},)
 
 
-async def test_a_burst_of_keys_in_a_set_up_form_lands_field_by_field(tmp_path):
-    # keys posted all at once, as a fast typist or an unbracketed paste over SSH delivers them: the Tabs
-    # must move focus between the characters, not after them (common practice: type-ahead is kept in order)
+@pytest.mark.parametrize("step", ["tab", "enter"])
+async def test_a_burst_of_keys_in_a_set_up_form_lands_field_by_field(tmp_path, step):
+    # keys posted all at once, as a fast typist or an unbracketed paste over SSH delivers them: each Tab,
+    # or Enter (which moves on as Tab does: the form's hint line), must move focus between the characters,
+    # not after them (common practice: type-ahead is kept in order)
     from textual import events
 
     path = copy_fixture(tmp_path)
     async with editor(path) as (app, pilot):
         await open_entry(app, pilot, "limit:new")
-        chars = {"tab": "\t", "space": " "}
-        for key in [*"mtow", "tab", "tab", "tab", "tab", *"7.2", "space", *"kg"]:
-            app.post_message(events.Key(key, chars.get(key, key)))
-        await settle(pilot, app)
-        from steelyard.tui.screens.setup_form import _fid
-
-        assert app.screen.query_one(f"#{_fid('name')}").value == "mtow"
-        assert app.screen.query_one(f"#{_fid('max_mass')}").value == "7.2 kg"
-        await pilot.press("escape")
-
-
-async def test_enter_in_a_burst_moves_on_before_the_next_key(tmp_path):
-    # the same burst with Enter, which moves to the next field as Tab does (the form's own hint line):
-    # each Enter must take effect before the characters typed after it are routed (common practice)
-    from textual import events
-
-    path = copy_fixture(tmp_path)
-    async with editor(path) as (app, pilot):
-        await open_entry(app, pilot, "limit:new")
-        chars = {"enter": "\r", "space": " "}
-        for key in [*"mtow", "enter", "enter", "enter", "enter", *"7.2", "space", *"kg"]:
+        chars = {"tab": "\t", "enter": "\r", "space": " "}
+        for key in [*"mtow", step, step, step, step, *"7.2", "space", *"kg"]:
             app.post_message(events.Key(key, chars.get(key, key)))
         await settle(pilot, app)
         from steelyard.tui.screens.setup_form import _fid
