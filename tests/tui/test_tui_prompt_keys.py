@@ -116,3 +116,30 @@ async def test_keys_typed_right_after_save_as_name_the_file(tmp_path):
         assert not app.session.dirty
     assert [t["id"] for t in tomllib.loads(target.read_text())["item"]].count("wing-l") == 1
     assert len(tomllib.loads(target.read_text())["item"]) == len(tomllib.loads(path.read_text())["item"]) + 1
+
+
+async def test_keys_typed_right_after_ctrl_o_name_the_file_to_open(tmp_path):
+    path = copy_fixture(tmp_path)
+    other = copy_fixture(tmp_path, name="other.toml")
+    async with editor(path) as (app, pilot):
+        burst(app, ["ctrl+o", *str(other), "enter"])  # letters of a path are also ledger-screen keys
+        for _ in range(100):  # the other file loads in a worker
+            await pilot.pause(0.05)
+            if app.session is not None and app.session.path == str(other):
+                break
+        assert app.session.path == str(other)
+        assert app.session.ledger.item("wing-l") is not None and not app.session.dirty
+
+
+async def test_keys_typed_right_after_ctrl_q_answer_the_unsaved_work_question(tmp_path):
+    path = copy_fixture(tmp_path)
+    on_disk = path.read_bytes()
+    async with editor(path) as (app, pilot):
+        await _unsaved_change(app, pilot)
+        burst(app, ["ctrl+q", "tab", "enter"])  # Save, Discard, Cancel: Tab to Discard, Enter
+        for _ in range(100):
+            await pilot.pause(0.05)
+            if app.return_code is not None:
+                break
+        assert app.return_code == 0
+    assert path.read_bytes() == on_disk  # discarded: the file as it was

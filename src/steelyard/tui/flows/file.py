@@ -327,21 +327,30 @@ class FileFlows:
         return True
 
     # ------------------------------------------------------------ open, quit
-    def action_open(self) -> None:
-        self._open_worker()
+    # Each starts with its first question already on screen, as a save does (see _save_from_key).
+    async def action_open(self) -> None:
+        if self.session is not None and self.session.dirty:
+            await self.push_screen(self._keep_work_question("opening another file"), self._open_worker)
+        else:
+            await self.push_screen(self._path_prompt("Open ledger"), self._open_path)
 
     @work(exclusive=True, group="open")
-    async def _open_worker(self) -> None:
-        if self.session is not None and self.session.dirty and not await self._keep_work("opening another file"):
-            return
-        path = await self._ask_path("Open ledger")
+    async def _open_worker(self, choice: str) -> None:
+        if await self._keep_work("opening another file", choice):
+            self._open_path(await self._ask_path("Open ledger"))
+
+    def _open_path(self, path: str | None) -> None:
         if path:
             self.start_load(os.path.expanduser(path), first=False)
 
-    async def _keep_work(self, doing: str) -> bool:
-        """Ask about unsaved work; True when it is safe to go on."""
-        choice = await self._ask(f"There are unsaved changes. Save them before {doing}?",
-                                 [("save", "Save"), ("discard", "Discard"), ("cancel", "Cancel")], "Unsaved work")
+    def _keep_work_question(self, doing: str) -> ConfirmScreen:
+        return ConfirmScreen(f"There are unsaved changes. Save them before {doing}?",
+                             [("save", "Save"), ("discard", "Discard"), ("cancel", "Cancel")], title="Unsaved work")
+
+    async def _keep_work(self, doing: str, choice: str | None = None) -> bool:
+        """Ask about unsaved work (`choice`: already answered); True when it is safe to go on."""
+        if choice is None:
+            choice = await self.push_screen_wait(self._keep_work_question(doing))
         if choice == "save":
             return await self.save_steps(None)
         return choice == "discard"
@@ -350,11 +359,11 @@ class FileFlows:
         if self.session is None or not self.session.dirty:
             await self._quit_now()
         else:
-            self._quit_worker()
+            await self.push_screen(self._keep_work_question("quitting"), self._quit_worker)
 
     @work(exclusive=True, group="quit")
-    async def _quit_worker(self) -> None:
-        if await self._keep_work("quitting"):
+    async def _quit_worker(self, choice: str) -> None:
+        if await self._keep_work("quitting", choice):
             await self._quit_now()
 
     async def _quit_now(self) -> None:

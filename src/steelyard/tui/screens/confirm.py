@@ -15,7 +15,12 @@ from steelyard.tui.text import clean
 class ConfirmScreen(ModalScreen[str]):
     """Dismisses with the chosen answer's key; Escape gives the last answer (the safe one)."""
 
-    BINDINGS = [Binding("escape", "choose_last", "Cancel")]
+    # Every key runs as it arrives (priority), so the keys typed after the answer reach the screen beneath
+    # (see screens.answered_in_order): Tab moves between the answers, Enter takes the focused one.
+    BINDINGS = [Binding("escape", "choose_last", "Cancel", priority=True),
+                Binding("enter", "choose_focused", show=False, priority=True),
+                Binding("tab", "app.focus_next", show=False, priority=True),
+                Binding("shift+tab", "app.focus_previous", show=False, priority=True)]
 
     def __init__(self, question: str, answers: list[tuple[str, str]], *, title: str = "Please choose") -> None:
         super().__init__()
@@ -35,8 +40,16 @@ class ConfirmScreen(ModalScreen[str]):
         self.query(Button).first().focus()
 
     @on(Button.Pressed)
-    def _pressed(self, event: Button.Pressed) -> None:
-        self.dismiss((event.button.id or "answer-")[len("answer-"):])
+    def _pressed(self, event: Button.Pressed) -> None:  # a click
+        self._choose(event.button)
+
+    def action_choose_focused(self) -> None:
+        if isinstance(self.focused, Button):
+            self._choose(self.focused)
+
+    def _choose(self, button: Button) -> None:
+        if self.is_current:  # once: a click and a key may both arrive before the screen has gone
+            self.dismiss((button.id or "answer-")[len("answer-"):])
 
     def action_choose_last(self) -> None:
         self.dismiss(self.answers[-1][0])
