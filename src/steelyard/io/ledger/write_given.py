@@ -11,8 +11,6 @@ to be that text (see `given_texts`). Anything not shown goes through
 
 from __future__ import annotations
 
-import re
-
 import numpy as np
 
 from steelyard.io.ledger.toml_write import _SHORT_HI
@@ -21,46 +19,68 @@ from steelyard.io.ledger.toml_write import _SHORT_HI
 _BULK_LO = 1e-290
 #: below this size "%.14g" writes an exponent
 _POSITIONAL_LO = 1e-4
-#: a cell's characters, one cell a line
-_PLAIN_BYTES = b"0123456789.-\n"
-_LEADING_ZERO = re.compile(r"\n-?0[0-9]")
-_TWO_POINTS = re.compile(r"\.[0-9]*\.")
-_TRAILING_ZERO = re.compile(r"\.[0-9]*0\n")
 #: how far (in ulps of the cell's value) x / factor may lie from it; see `given_texts`
 _NEAR_ULPS = 4
 
 
 def canonical(texts: list[str]) -> np.ndarray | None:
     """(n,) bool: each text is a decimal as printf's "%.14g" writes it, with at most 14 significant
-    digits; None when some text breaks a rule the whole column is checked against at once.
+    digits; None when some text breaks a rule (see `cells`).
 
-    The column, one cell a line, must hold only ASCII digits, '.', '-' and line breaks; a '-' only
-    first in a cell; no point first (after the sign) or last, nor two points; no leading zero before
-    a digit; no trailing zero after the point; and no exponent. Such a cell is "" or "-", or matches
-    -?(0|[1-9][0-9]*)(\\.[0-9]*[1-9])? : what %g prints. A cell is then marked True when it holds at
-    most 15 characters besides its sign (so a point and <= 14 digits, or a whole number; the caller
-    checks sizes).
+    Such a text is "" or "-", or matches -?(0|[1-9][0-9]*)(\\.[0-9]*[1-9])? : what %g prints. A
+    text is then marked True when it holds at most 15 characters besides its sign (so a point
+    and <= 14 digits, or a whole number; the caller checks sizes).
     """
     if not texts:
         return np.zeros(0, bool)
-    joined = "\n" + "\n".join(texts) + "\n"
-    if (not joined.isascii() or joined.encode("ascii").translate(None, _PLAIN_BYTES)
-            or joined.count("-") != joined.count("\n-") or "\n." in joined or "-." in joined or ".\n" in joined
-            or _LEADING_ZERO.search(joined) or _TWO_POINTS.search(joined) or _TRAILING_ZERO.search(joined)):
+    got = cells("\n".join(texts) + "\n")
+    if got is None or not got[0].all():
         return None
-    raw = np.frombuffer(joined.encode("ascii"), np.uint8)
-    ends = np.flatnonzero(raw == 10)  # the n + 1 line breaks around the n cells
+    return got[1]
+
+
+def cells(joined: str) -> tuple[np.ndarray, np.ndarray] | None:
+    """(plain, short) for the cells of `joined` (one a line, each ending "\\n"), each (n,) bool; None
+    when the text is not ASCII.
+
+    plain: the cell is "" or "-", or -?(0|[1-9][0-9]*)(\\.[0-9]*[1-9])? : only ASCII digits, '.' and
+    '-'; a '-' only first; no point first (after the sign) or last, nor two points; no leading
+    zero before a digit; no trailing zero after the point; no exponent. short: at most 15
+    characters besides the sign. Judged a cell at a time, with numpy over the text's bytes.
+    """
+    if not joined.isascii():
+        return None
+    b = np.frombuffer(("\n" + joined).encode("ascii"), np.uint8)
+    nl = b == 10
+    ends = np.flatnonzero(nl)  # the n + 1 line breaks around the n cells
+    n = len(ends) - 1
+    seg = np.cumsum(nl) - 1  # each byte's cell
+    prev = np.concatenate(([10], b[:-1]))
+    nxt = np.concatenate((b[1:], [10]))
+    digit = (b >= 48) & (b <= 57)
+    dot, minus, zero = b == 46, b == 45, b == 48
+    first = (prev == 10) | (prev == 45)  # a byte right after the line break or the sign
+    bad = (~(digit | dot | minus | nl) | (minus & (prev != 10)) | (dot & (first | (nxt == 10)))
+           | (zero & first & (nxt >= 48) & (nxt <= 57)))
+    broken = np.zeros(n + 1, bool)
+    broken[seg[np.flatnonzero(bad)]] = True
+    points = np.bincount(seg[np.flatnonzero(dot)], minlength=n + 1)
+    broken |= points > 1
+    trailing = np.flatnonzero(zero & (nxt == 10))
+    broken[seg[trailing[points[seg[trailing]] > 0]]] = True  # a cell with a point ending in 0
     width = np.diff(ends) - 1
-    sign = raw[ends[:-1] + 1] == ord("-")
-    return width - sign <= 15
+    sign = b[ends[:-1] + 1] == 45
+    return ~broken[:n], width - sign <= 15
 
 
-def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarray
-                ) -> tuple[list[str | None], np.ndarray]:
+def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarray,
+                plain: np.ndarray | None = None) -> tuple[list[str | None], np.ndarray]:
     """(texts, rest): `number(a[i], factor)` where a given text is shown to be it, None elsewhere;
     rest is the indices left to spell. `values[i]` must be `float(texts[i])` (the caller parsed them).
 
-    A text t is `number(x, factor)` when: t is canonical (`canonical`), c = float(t)
+    `plain`: the texts' `cells` (plain & short), if the caller has them.
+
+    A text t is `number(x, factor)` when: t is plain and short (`cells`), c = float(t)
     reads back exactly (c * factor == x), and v = x / factor lies within 4 ulps of c,
     in `numbers`' one-rounding range. Then t, with <= 14 significant digits, is c's
     decimal to within half an ulp; 14-digit decimals lie >= 1e-14 of their size
@@ -78,8 +98,10 @@ def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarr
         av = np.abs(v)
         ok = ((c * factor == a) & (np.abs(v - c) <= _NEAR_ULPS * np.spacing(np.abs(c)))
               & (av >= _BULK_LO) & (av < _SHORT_HI) & (np.abs(a) >= _BULK_LO) & (np.abs(c) >= _POSITIONAL_LO))
-    plain = canonical(texts) if ok.any() else None
-    if plain is None:
+    if plain is None and ok.any():
+        got = cells("\n".join(texts) + "\n")
+        plain = None if got is None else got[0] & got[1]
+    if plain is None or len(plain) != n:
         return [None] * n, np.arange(n)
     ok &= plain
     out: list[str | None] = list(texts)
