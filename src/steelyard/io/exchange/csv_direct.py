@@ -14,7 +14,6 @@ these (density, maturity, growth, tolerances, other) takes the Item path.
 
 from __future__ import annotations
 
-from itertools import chain
 from operator import attrgetter
 
 import numpy as np
@@ -24,7 +23,7 @@ from steelyard.core.control.uncertainty import parse_tolerances
 from steelyard.core.document.model import FileUnits, Frame, Ledger, document_of
 from steelyard.core.errors import SteelyardError
 from steelyard.core.limits.checks import validate
-from steelyard.core.physics.inertia import COMPONENTS
+from steelyard.core.physics.inertia import COMPONENTS, six_from_tensor
 from steelyard.io.exchange.csv_check import CsvPlaces, placed, remember
 from steelyard.io.exchange.csv_same import _ULPS, same_items
 from steelyard.io.ledger.read_stream import ledger_from_text
@@ -71,38 +70,30 @@ def _close(a: np.ndarray, b: np.ndarray) -> bool:
 
 
 def _same(final: Ledger, r, cols) -> bool:
-    """Whether the items read back hold, field for field, what the columns say (as csv_same judges)."""
-    items = document_of(final).items
+    """Whether the ledger read back holds, item for item, what the columns say (as csv_same judges):
+    the texts, and where an inertia is given, from its items; the numbers from its columns (the
+    reader makes both of the same values: `ItemArrays`), whole columns at a time."""
+    doc = document_of(final)
+    items, arrays = doc.items, doc.__dict__.get("arrays")
     n = r.n
-    if len(items) != n:
+    if len(items) != n or arrays is None or len(arrays.unit_mass) != n:
         return False
-
-    def column(name):
-        return list(map(attrgetter(name), items))
-
     for name, expected, default in (("id", r.ids, None), ("name", r.cols.get("name"), ""),
-                                    ("group", r.cols.get("group"), ""), ("quantity", cols.quantity, 1),
-                                    ("variable", cols.variable, False), ("density", None, None)):
-        got = column(name)
+                                    ("group", r.cols.get("group"), ""), ("density", None, None)):
+        got = list(map(attrgetter(name), items))
         same = got == expected if expected is not None else got.count(default) == n
         if not same:
             return False
-    cgs = column("cg")
-    if set(map(len, cgs)) != {3}:
+    quantity = np.asarray(cols.quantity, dtype=float) if cols.quantity is not None else np.ones(n)
+    variable = np.asarray(cols.variable, dtype=bool) if cols.variable is not None else np.zeros(n, bool)
+    if not (np.array_equal(arrays.quantity, quantity) and np.array_equal(arrays.variable, variable)
+            and _close(arrays.unit_mass, cols.mass) and _close(np.asarray(arrays.cg), cols.cg)):
         return False
-    mass = np.fromiter(map(attrgetter("mass"), items), float, n)
-    cg = np.fromiter(chain.from_iterable(cgs), float, 3 * n).reshape(n, 3)
-    if not (_close(mass, cols.mass) and _close(cg, cols.cg)):
-        return False
-    inertia = column("inertia")
-    got_rows = [k for k, six in enumerate(inertia) if six is not None]
+    inertia = list(map(attrgetter("inertia"), items))
     rows = _inertia_rows(r, cols)
-    if got_rows != rows.tolist() or (got_rows and set(map(len, (inertia[k] for k in got_rows))) != {6}):
+    if inertia.count(None) != n - rows.size or (rows.size and None in map(inertia.__getitem__, rows.tolist())):
         return False
-    if not rows.size:
-        return True
-    six = np.fromiter(chain.from_iterable(inertia[k] for k in got_rows), float, 6 * len(got_rows))
-    return _close(six.reshape(-1, 6), cols.six[rows])
+    return not rows.size or _close(six_from_tensor(arrays.own[rows]), cols.six[rows])
 
 
 def check_new(text: str, r, cols, source: str, places: CsvPlaces, build) -> Ledger:

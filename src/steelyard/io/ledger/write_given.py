@@ -11,6 +11,8 @@ to be that text (see `given_texts`). Anything not shown goes through
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 
 from steelyard.io.ledger.toml_write import _SHORT_HI
@@ -50,10 +52,16 @@ def cells(joined: str) -> tuple[np.ndarray, np.ndarray] | None:
     """
     if not joined.isascii():
         return None
-    b = np.frombuffer(("\n" + joined).encode("ascii"), np.uint8)
+    joined = "\n" + joined
+    b = np.frombuffer(joined.encode("ascii"), np.uint8)
     nl = b == 10
     ends = np.flatnonzero(nl)  # the n + 1 line breaks around the n cells
     n = len(ends) - 1
+    width = np.diff(ends) - 1
+    sign = b[ends[:-1] + 1] == 45
+    short = width - sign <= 15
+    if _all_plain(joined):
+        return np.ones(n, bool), short
     seg = np.cumsum(nl) - 1  # each byte's cell
     prev = np.concatenate(([10], b[:-1]))
     nxt = np.concatenate((b[1:], [10]))
@@ -68,9 +76,19 @@ def cells(joined: str) -> tuple[np.ndarray, np.ndarray] | None:
     broken |= points > 1
     trailing = np.flatnonzero(zero & (nxt == 10))
     broken[seg[trailing[points[seg[trailing]] > 0]]] = True  # a cell with a point ending in 0
-    width = np.diff(ends) - 1
-    sign = b[ends[:-1] + 1] == 45
-    return ~broken[:n], width - sign <= 15
+    return ~broken[:n], short
+
+
+#: a cell's characters, one cell a line; and what breaks the rules across a line or a point
+_PLAIN_BYTES = b"0123456789.-\n"
+_BROKEN = re.compile(r"\n-?0[0-9]|\.[0-9]*[.]|\.[0-9]*0\n")
+
+
+def _all_plain(joined: str) -> bool:
+    """Whether every cell of `joined` ("\\n" before each cell and after the last; ASCII) is plain, in
+    a few passes over the whole text (most columns): `cells` then judges no cell alone."""
+    return not (joined.encode("ascii").translate(None, _PLAIN_BYTES) or joined.count("-") != joined.count("\n-")
+                or "\n." in joined or "-." in joined or ".\n" in joined or _BROKEN.search(joined))
 
 
 def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarray,
