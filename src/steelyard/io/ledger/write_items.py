@@ -13,7 +13,7 @@ rotations, a density) go through `item_lines`. The text is byte for byte
 from __future__ import annotations
 
 import math
-from operator import attrgetter
+from operator import attrgetter, itemgetter
 
 import numpy as np
 
@@ -174,12 +174,16 @@ def _more_text(it: Item) -> str:
     return text
 
 
-def _given(given: dict | None, key: str, rows: list[int] | None) -> tuple | None:
-    """given[key] (texts, values[, plain], one per item) at `rows` (all when None), or None."""
+def _given(given: dict | None, key: str, rows) -> tuple | None:
+    """given[key] (texts, values[, plain], one per item) at `rows` (ints, a list or an array; all when
+    None), or None."""
     g = given.get(key) if given else None
     if g is None or rows is None:
         return g
-    return (list(map(g[0].__getitem__, rows)), *(np.asarray(x)[rows] for x in g[1:]))
+    if not isinstance(rows, np.ndarray):
+        rows = np.asarray(rows, dtype=np.intp)
+    texts = list(itemgetter(*rows.tolist())(g[0])) if len(rows) > 1 else [g[0][i] for i in rows.tolist()]
+    return (texts, *(np.asarray(x)[rows] for x in g[1:]))
 
 
 def items_text(items, u: FileUnits, given: dict | None = None) -> list[str]:
@@ -253,7 +257,7 @@ def columns_text(u: FileUnits, ids: list[str], names: list[str], groups: list[st
     if quantity.count(1) != n:
         extra.append([f"\nquantity = {q}" if q != 1 else "" for q in quantity])
     if rows:
-        at_rows = rows if kept is None else [kept[k] for k in rows]
+        at_rows = np.asarray(rows if kept is None else [kept[k] for k in rows], dtype=np.intp)
         texts = [numbers(six[j], fi, _given(given, f"inertia.{c}", at_rows)) for j, c in enumerate(COMPONENTS)]
         col = [""] * n
         for k, text in zip(rows, map("\ninertia = {{ xx = {}, yy = {}, zz = {}, xy = {}, xz = {}, yz = {} }}".format,
