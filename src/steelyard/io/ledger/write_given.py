@@ -11,8 +11,6 @@ to be that text (see `given_texts`). Anything not shown goes through
 
 from __future__ import annotations
 
-import re
-
 import numpy as np
 
 from steelyard.io.ledger.toml_write import _SHORT_HI
@@ -48,47 +46,37 @@ def cells(joined: str) -> tuple[np.ndarray, np.ndarray] | None:
     plain: the cell is "" or "-", or -?(0|[1-9][0-9]*)(\\.[0-9]*[1-9])? : only ASCII digits, '.' and
     '-'; a '-' only first; no point first (after the sign) or last, nor two points; no leading
     zero before a digit; no trailing zero after the point; no exponent. short: at most 15
-    characters besides the sign. Judged a cell at a time, with numpy over the text's bytes.
+    characters besides the sign. Judged a cell at a time, with numpy: over each cell's first and
+    last characters, and over the few kinds of byte that may break a rule inside one.
     """
     if not joined.isascii():
         return None
-    joined = "\n" + joined
-    b = np.frombuffer(joined.encode("ascii"), np.uint8)
-    nl = b == 10
-    ends = np.flatnonzero(nl)  # the n + 1 line breaks around the n cells
+    b = np.frombuffer(("\n" + joined).encode("ascii"), np.uint8)
+    ends = np.flatnonzero(b == 10)  # the n + 1 line breaks around the n cells
     n = len(ends) - 1
-    width = np.diff(ends) - 1
-    sign = b[ends[:-1] + 1] == 45
-    short = width - sign <= 15
-    if _all_plain(joined):
-        return np.ones(n, bool), short
-    seg = np.cumsum(nl) - 1  # each byte's cell
-    prev = np.concatenate(([10], b[:-1]))
-    nxt = np.concatenate((b[1:], [10]))
-    digit = (b >= 48) & (b <= 57)
-    dot, minus, zero = b == 46, b == 45, b == 48
-    first = (prev == 10) | (prev == 45)  # a byte right after the line break or the sign
-    bad = (~(digit | dot | minus | nl) | (minus & (prev != 10)) | (dot & (first | (nxt == 10)))
-           | (zero & first & (nxt >= 48) & (nxt <= 57)))
-    broken = np.zeros(n + 1, bool)
-    broken[seg[np.flatnonzero(bad)]] = True
-    points = np.bincount(seg[np.flatnonzero(dot)], minlength=n + 1)
-    broken |= points > 1
-    trailing = np.flatnonzero(zero & (nxt == 10))
-    broken[seg[trailing[points[seg[trailing]] > 0]]] = True  # a cell with a point ending in 0
-    return ~broken[:n], short
+    start, stop = ends[:-1] + 1, ends[1:]  # cell i is b[start[i]:stop[i]]
+    sign = b[start] == 45  # (an empty cell's "first" byte is the next line break)
+    first = start + sign  # the first byte after the sign (stop when there is none)
+    lead, last = b[first], b[stop - 1]  # (a line break where the cell has no such byte)
+    after = b[np.minimum(first + 1, len(b) - 1)]
+    broken = ((lead == 46) | (last == 46)  # a point first (after the sign) or last
+              | ((lead == 48) & (stop - first >= 2) & (after >= 48) & (after <= 57)))  # a leading zero
+    cell = ends.searchsorted  # a byte's cell: the line breaks before it, less one
+    odd = np.flatnonzero(_OTHER[b])  # a byte that is none of 0-9 . - and the line break
+    minus = np.flatnonzero(b == 45)
+    broken[cell(odd) - 1] = True
+    broken[cell(minus[b[minus - 1] != 10]) - 1] = True  # a '-' not first
+    points = cell(np.flatnonzero(b == 46)) - 1
+    broken[points[1:][points[1:] == points[:-1]]] = True  # two points in one cell
+    dotted = np.zeros(n, bool)
+    dotted[points] = True
+    broken |= dotted & (last == 48)  # a trailing zero after the point
+    return ~broken, stop - start - sign <= 15
 
 
-#: a cell's characters, one cell a line; and what breaks the rules across a line or a point
-_PLAIN_BYTES = b"0123456789.-\n"
-_BROKEN = re.compile(r"\n-?0[0-9]|\.[0-9]*[.]|\.[0-9]*0\n")
-
-
-def _all_plain(joined: str) -> bool:
-    """Whether every cell of `joined` ("\\n" before each cell and after the last; ASCII) is plain, in
-    a few passes over the whole text (most columns): `cells` then judges no cell alone."""
-    return not (joined.encode("ascii").translate(None, _PLAIN_BYTES) or joined.count("-") != joined.count("\n-")
-                or "\n." in joined or "-." in joined or ".\n" in joined or _BROKEN.search(joined))
+#: the bytes that may not stand in a plain cell: all but 0-9 . - and the line break
+_OTHER = np.ones(256, bool)
+_OTHER[list(b"0123456789.-\n")] = False
 
 
 def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarray,
