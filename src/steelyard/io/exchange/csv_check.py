@@ -99,7 +99,6 @@ def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None, g
     `given`: the CSV's number cells for the writer (`ledger_to_toml`), emptied
     once the text is written, so its cells are freed before the read-back.
     """
-    global _last
     if _last is not None and _last[0]() is ledger:
         return _last[1]
     try:

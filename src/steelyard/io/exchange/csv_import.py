@@ -286,7 +286,9 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
     The result is always written out and read back with the ledger reader, any
     problem named by CSV line and column, whatever `check` says (kept for callers
     that check the final text again after adding a change-log entry; they can
-    pass `places` to that check to keep the CSV locations).
+    pass `places` to that check to keep the CSV locations). A new ledger of v1
+    columns only is written from the columns (csv_direct): its `ledger` is then
+    the one the text reads back as, which `check_ledger` knows (its text again).
     """
     with _no_cycle_collection():
         return _read_csv(text, source=source, decimal_comma=decimal_comma, into=into)
