@@ -26,7 +26,7 @@ from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, re
     tensor_from_six
 from steelyard.core.units import number_problem, unit_factor
 from steelyard.io.exchange.csv_cells import CONTROL_KEYS, FALSE, TOL_COLUMNS, TRUE
-from steelyard.io.exchange.csv_check import CsvPlaces, RowPlaces, check_ledger
+from steelyard.io.exchange.csv_check import CsvPlaces, RowPlaces, check_ledger, placed
 from steelyard.io.exchange.csv_direct import check_new, direct, new_ledger_text
 from steelyard.io.exchange.csv_model import file_units, item_more, make_item, more_problem
 from steelyard.io.exchange.csv_read import CsvTable
@@ -299,14 +299,17 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
     units = into.units if into is not None else _new_units(r)
     cols = _Columns(r, into, units)
     if into is None and direct(r):  # no Items to build: the text written from the columns, checked by column
+        places = CsvPlaces(RowPlaces(r.lines, r.ids), r.labels)
         given = _given(r)
-        text = new_ledger_text(r, cols, units, given)
+        try:
+            text = new_ledger_text(r, cols, units, given)
+        except SteelyardError as exc:  # located as csv_check locates what its writer raises
+            raise placed(exc, source, places) from None
         given.clear()
         for key in [k for k in r.cols if k not in ("id", "name", "group")]:
             del r.cols[key]  # the number cells (millions of strings): freed before the read-back needs the memory
         r.values.clear()
         r.joined.clear()
-        places = CsvPlaces(RowPlaces(r.lines, r.ids), r.labels)
         ledger = check_new(text, r, cols, source, places, lambda: _new_items(r, cols))
         return CsvImport(ledger, tuple(r.ids), (), (), places)
     if into is None:
