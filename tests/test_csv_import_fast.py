@@ -30,7 +30,7 @@ from hypothesis import strategies as st
 
 from steelyard.core.document.model import Ledger
 from steelyard.core.errors import SteelyardError
-from steelyard.io.exchange import csv_check
+from steelyard.io.exchange import csv_check, csv_direct
 from steelyard.io.exchange.csv_cells import parse_cells
 from steelyard.io.exchange.csv_io import check_ledger, ledger_to_csv, read_csv
 from steelyard.io.ledger.file import load_ledger
@@ -202,16 +202,20 @@ def test_bad_cell_in_the_cli_exits_2_with_one_line(tmp_path):
     assert "column 'variable'" in lines[0] and "'maybe'" in lines[0]
 
 
-def test_a_written_ledger_that_reads_back_different_is_refused(monkeypatch):
+@pytest.mark.parametrize("writer,density", [("item path", True), ("column path", False)])
+def test_a_written_ledger_that_reads_back_different_is_refused(monkeypatch, writer, density):
     # a writer that changed one number: the read-back comparison must name the CSV line and column
-    real = csv_check.ledger_to_toml
+    # (a CSV with a density column is written from Items, one of v1 columns only from its columns)
+    module, name = (csv_check, "ledger_to_toml") if density else (csv_direct, "items_only_text")
+    real = getattr(module, name)
 
-    def off_by_one(ledger, **kw):
-        return real(ledger, **kw).replace("mass = 2.5\n", "mass = 2.6\n", 1)
+    def off_by_one(*args, **kw):
+        return real(*args, **kw).replace("mass = 2.5\n", "mass = 2.6\n", 1)
 
-    monkeypatch.setattr(csv_check, "ledger_to_toml", off_by_one)
+    monkeypatch.setattr(module, name, off_by_one)
+    head, cell = (",density [kg/m**3]", ",7") if density else ("", "")
     with pytest.raises(SteelyardError) as err:
-        read_csv("id,mass [kg],x [m],y [m],z [m]\na,1,0,0,0\nb,2.5,0,0,0\n", source="w.csv")
+        read_csv(f"id,mass [kg],x [m],y [m],z [m]{head}\na,1,0,0,0{cell}\nb,2.5,0,0,0{cell}\n", source="w.csv")
     msg = str(err.value)
     assert "line 3" in msg and "item 'b'" in msg and "column 'mass [kg]'" in msg and "2.6" in msg, msg
 

@@ -190,10 +190,21 @@ def _bare_floats(joined: str, work: list[str], blank: np.ndarray, n: int) -> np.
         if not blank.any():
             return np.fromiter(map(float, work), float, n)
         vals = np.full(n, np.nan)
-        vals[~blank] = np.fromiter(map(float, compress(work, (~blank).tolist())), float)
+        # the text holds no white space but its line breaks: split() gives the non-blank cells, in order
+        vals[~blank] = np.fromiter(map(float, joined.split()), float)
     except ValueError:  # "1e", "+", "1.2.3": the pattern refuses them too
         return None
     return vals
+
+
+def _blanks(lines: str, n: int) -> np.ndarray:
+    """(n,) bool: which of the `n` cells of `lines` (each ending "\\n", none holding one) are empty."""
+    if not lines.startswith("\n") and "\n\n" not in lines:
+        return np.zeros(n, bool)
+    if lines.isascii():
+        ends = np.flatnonzero(np.frombuffer(lines.encode("ascii"), np.uint8) == 10)
+        return np.diff(ends, prepend=-1) == 1
+    return np.fromiter(map(operator.not_, lines.split("\n")), bool, n + 1)[:n]
 
 
 def parse_cells(cells: list[str], decimal_comma: bool, lines: str | None = None
@@ -207,7 +218,10 @@ def parse_cells(cells: list[str], decimal_comma: bool, lines: str | None = None
     Messages quote the cell as written.
     """
     n = len(cells)
-    blank = np.fromiter(map(operator.not_, cells), bool, n) if "" in cells else np.zeros(n, bool)
+    if lines is not None and not decimal_comma and lines.count("\n") == n:
+        blank = _blanks(lines, n)
+    else:
+        blank = np.fromiter(map(operator.not_, cells), bool, n) if "" in cells else np.zeros(n, bool)
     work = cells
     if decimal_comma:
         dot = next((k for k, c in enumerate(cells) if "." in c), None)

@@ -56,7 +56,7 @@ def _column(ledger_field: str | None, labels: dict[str, str]) -> str | None:
     return key if key in labels else None
 
 
-def _placed(exc: SteelyardError, source: str, places: CsvPlaces | None) -> SteelyardError:
+def placed(exc: SteelyardError, source: str, places: CsvPlaces | None) -> SteelyardError:
     if places is None or exc.subject not in places.rows:
         return exc.located(file=source)
     line, ident = places.rows[exc.subject]
@@ -99,7 +99,6 @@ def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None, g
     `given`: the CSV's number cells for the writer (`ledger_to_toml`), emptied
     once the text is written, so its cells are freed before the read-back.
     """
-    global _last
     if _last is not None and _last[0]() is ledger:
         return _last[1]
     try:
@@ -112,9 +111,15 @@ def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None, g
         validate(final)
         same_items(document_of(ledger).items, document_of(final).items)
     except SteelyardError as exc:
-        raise _placed(exc, source, places) from None
+        raise placed(exc, source, places) from None
+    remember(ledger, text)
+    return text
+
+
+def remember(ledger: Ledger, text: str) -> None:
+    """Note that `ledger` was checked and reads back from `text`: a second check of it returns the text."""
+    global _last
     try:
         _last = (weakref.ref(ledger), text)
     except TypeError:  # a ledger type without weak references: no memo
         _last = None
-    return text

@@ -26,12 +26,14 @@ from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, re
     tensor_from_six
 from steelyard.core.units import number_problem, unit_factor
 from steelyard.io.exchange.csv_cells import CONTROL_KEYS, FALSE, TOL_COLUMNS, TRUE
-from steelyard.io.exchange.csv_check import CsvPlaces, RowPlaces, check_ledger
+from steelyard.io.exchange.csv_check import CsvPlaces, RowPlaces, check_ledger, placed
+from steelyard.io.exchange.csv_direct import check_new, direct, new_ledger_text
 from steelyard.io.exchange.csv_model import file_units, item_more, make_item, more_problem
 from steelyard.io.exchange.csv_read import CsvTable
 from steelyard.io.ledger.file import read_bytes
 from steelyard.io.ledger.read_items import ITEM_KEYS
 from steelyard.io.ledger.toml_read import decode
+from steelyard.io.ledger.write_given import cells
 
 #: an item whose inertia cells match its shape's inertia this closely keeps its shape
 SHAPE_MATCH_RTOL = 1e-9
@@ -284,7 +286,9 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
     The result is always written out and read back with the ledger reader, any
     problem named by CSV line and column, whatever `check` says (kept for callers
     that check the final text again after adding a change-log entry; they can
-    pass `places` to that check to keep the CSV locations).
+    pass `places` to that check to keep the CSV locations). A new ledger of v1
+    columns only is written from the columns (csv_direct): its `ledger` is then
+    the one the text reads back as, which `check_ledger` knows (its text again).
     """
     with _no_cycle_collection():
         return _read_csv(text, source=source, decimal_comma=decimal_comma, into=into)
@@ -294,6 +298,20 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
     r = CsvTable(text, source, decimal_comma)
     units = into.units if into is not None else _new_units(r)
     cols = _Columns(r, into, units)
+    if into is None and direct(r):  # no Items to build: the text written from the columns, checked by column
+        places = CsvPlaces(RowPlaces(r.lines, r.ids), r.labels)
+        given = _given(r)
+        try:
+            text = new_ledger_text(r, cols, units, given)
+        except SteelyardError as exc:  # located as csv_check locates what its writer raises
+            raise placed(exc, source, places) from None
+        given.clear()
+        for key in [k for k in r.cols if k not in ("id", "name", "group")]:
+            del r.cols[key]  # the number cells (millions of strings): freed before the read-back needs the memory
+        r.values.clear()
+        r.joined.clear()
+        ledger = check_new(text, r, cols, source, places, lambda: _new_items(r, cols))
+        return CsvImport(ledger, tuple(r.ids), (), (), places)
     if into is None:
         ledger = Ledger(tuple(_new_items(r, cols)), units)
         ids = r.ids
@@ -342,8 +360,16 @@ _NUMBER_FIELDS = {"mass": "mass", "cg.0": "x", "cg.1": "y", "cg.2": "z", **{f"in
 
 def _given(r: CsvTable) -> dict:
     """The number cells of a new ledger's items and their values, for the writer to take those that
-    already are its text: field -> (cells, float of each cell), one per item."""
-    return {name: (r.cols[key], r.values[key]) for name, key in _NUMBER_FIELDS.items() if key in r.values}
+    already are its text: field -> (cells, float of each cell[, whether each is plain and short
+    (write_given.cells), judged on the column text the reading joined]), one per item."""
+    out = {}
+    for name, key in _NUMBER_FIELDS.items():
+        if key in r.values:
+            joined = r.joined.get(key)
+            judged = cells(joined) if joined is not None else None
+            out[name] = (r.cols[key], r.values[key]) if judged is None else (r.cols[key], r.values[key],
+                                                                              judged[0] & judged[1])
+    return out
 
 
 def _new_items(r: CsvTable, cols: _Columns) -> list[Item]:

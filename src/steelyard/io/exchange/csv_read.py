@@ -72,6 +72,7 @@ class CsvTable:
         self.cols: dict[str, list[str]] = {}
         self.values: dict[str, np.ndarray] = {}  # key -> float of each (stripped) cell, once `floats` read it
         self._lines: dict[str, str] = {}  # key -> its cells one a line (each ending "\n"), kept for `floats`
+        self.joined: dict[str, str] = {}  # key -> the same, once `floats` read it (the writer judges its cells)
         apostrophes = "'" in text
         for key, j in self.index.items():
             col = columns[j]
@@ -233,7 +234,10 @@ class CsvTable:
 
     def floats(self, key: str) -> tuple[np.ndarray, np.ndarray]:
         """(values in the column's unit, blank mask); NaN where blank."""
-        vals, blank, bad, why = parse_cells(self.cols[key], self.comma, self._lines.pop(key, None))
+        lines = self._lines.pop(key, None)
+        vals, blank, bad, why = parse_cells(self.cols[key], self.comma, lines)
+        if lines is not None and not self.comma:
+            self.joined[key] = lines
         if bad is not None:
             raise self.fail(bad, key, why)
         self.values[key] = vals

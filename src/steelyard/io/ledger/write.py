@@ -202,11 +202,22 @@ def ledger_to_toml(ledger: Ledger, *, snapshot: bool = True, given: dict | None 
     u = ledger.units
     from steelyard.io.ledger.write_items import items_text
 
-    blocks = ["steelyard = 1", "\n".join(table_lines("units", units_fields(u))),
-              "\n".join(table_lines("frame", frame_fields(ledger.frame))), *items_text(ledger.items, u, given)]
+    blocks = [*head_blocks(u, ledger.frame), *items_text(ledger.items, u, given)]
     blocks.extend("\n".join(loadout_lines(lo)) for lo in ledger.loadouts)
     blocks.extend("\n".join(envelope_lines(env, u)) for env in ledger.envelopes)
     return "\n\n".join(blocks) + "\n" + other_text(ledger, snapshot=snapshot)
+
+
+def head_blocks(u: FileUnits, frame: Frame) -> list[str]:
+    """The blocks before the items: the version line, [units], [frame]."""
+    return ["steelyard = 1", "\n".join(table_lines("units", units_fields(u))),
+            "\n".join(table_lines("frame", frame_fields(frame)))]
+
+
+def items_only_text(u: FileUnits, frame: Frame, item_texts: list[str]) -> str:
+    """`ledger_to_toml` of a ledger that holds only units, a frame and items, from the items' texts
+    (`write_items.columns_text`): what an import of a new ledger writes."""
+    return "\n\n".join([*head_blocks(u, frame), *item_texts]) + "\n"
 
 
 def other_text(ledger: Ledger, *, snapshot: bool = True) -> str:

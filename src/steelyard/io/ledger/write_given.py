@@ -11,8 +11,6 @@ to be that text (see `given_texts`). Anything not shown goes through
 
 from __future__ import annotations
 
-import re
-
 import numpy as np
 
 from steelyard.io.ledger.toml_write import _SHORT_HI
@@ -21,46 +19,74 @@ from steelyard.io.ledger.toml_write import _SHORT_HI
 _BULK_LO = 1e-290
 #: below this size "%.14g" writes an exponent
 _POSITIONAL_LO = 1e-4
-#: a cell's characters, one cell a line
-_PLAIN_BYTES = b"0123456789.-\n"
-_LEADING_ZERO = re.compile(r"\n-?0[0-9]")
-_TWO_POINTS = re.compile(r"\.[0-9]*\.")
-_TRAILING_ZERO = re.compile(r"\.[0-9]*0\n")
 #: how far (in ulps of the cell's value) x / factor may lie from it; see `given_texts`
 _NEAR_ULPS = 4
 
 
 def canonical(texts: list[str]) -> np.ndarray | None:
     """(n,) bool: each text is a decimal as printf's "%.14g" writes it, with at most 14 significant
-    digits; None when some text breaks a rule the whole column is checked against at once.
+    digits; None when some text breaks a rule (see `cells`).
 
-    The column, one cell a line, must hold only ASCII digits, '.', '-' and line breaks; a '-' only
-    first in a cell; no point first (after the sign) or last, nor two points; no leading zero before
-    a digit; no trailing zero after the point; and no exponent. Such a cell is "" or "-", or matches
-    -?(0|[1-9][0-9]*)(\\.[0-9]*[1-9])? : what %g prints. A cell is then marked True when it holds at
-    most 15 characters besides its sign (so a point and <= 14 digits, or a whole number; the caller
-    checks sizes).
+    Such a text is "" or "-", or matches -?(0|[1-9][0-9]*)(\\.[0-9]*[1-9])? : what %g prints. A
+    text is then marked True when it holds at most 15 characters besides its sign (so a point
+    and <= 14 digits, or a whole number; the caller checks sizes).
     """
     if not texts:
         return np.zeros(0, bool)
-    joined = "\n" + "\n".join(texts) + "\n"
-    if (not joined.isascii() or joined.encode("ascii").translate(None, _PLAIN_BYTES)
-            or joined.count("-") != joined.count("\n-") or "\n." in joined or "-." in joined or ".\n" in joined
-            or _LEADING_ZERO.search(joined) or _TWO_POINTS.search(joined) or _TRAILING_ZERO.search(joined)):
+    got = cells("\n".join(texts) + "\n")
+    if got is None or not got[0].all():
         return None
-    raw = np.frombuffer(joined.encode("ascii"), np.uint8)
-    ends = np.flatnonzero(raw == 10)  # the n + 1 line breaks around the n cells
-    width = np.diff(ends) - 1
-    sign = raw[ends[:-1] + 1] == ord("-")
-    return width - sign <= 15
+    return got[1]
 
 
-def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarray
-                ) -> tuple[list[str | None], np.ndarray]:
+def cells(joined: str) -> tuple[np.ndarray, np.ndarray] | None:
+    """(plain, short) for the cells of `joined` (one a line, each ending "\\n"), each (n,) bool; None
+    when the text is not ASCII.
+
+    plain: the cell is "" or "-", or -?(0|[1-9][0-9]*)(\\.[0-9]*[1-9])? : only ASCII digits, '.' and
+    '-'; a '-' only first; no point first (after the sign) or last, nor two points; no leading
+    zero before a digit; no trailing zero after the point; no exponent. short: at most 15
+    characters besides the sign. Judged a cell at a time, with numpy: over each cell's first and
+    last characters, and over the few kinds of byte that may break a rule inside one.
+    """
+    if not joined.isascii():
+        return None
+    b = np.frombuffer(("\n" + joined).encode("ascii"), np.uint8)
+    ends = np.flatnonzero(b == 10)  # the n + 1 line breaks around the n cells
+    n = len(ends) - 1
+    start, stop = ends[:-1] + 1, ends[1:]  # cell i is b[start[i]:stop[i]]
+    sign = b[start] == 45  # (an empty cell's "first" byte is the next line break)
+    first = start + sign  # the first byte after the sign (stop when there is none)
+    lead, last = b[first], b[stop - 1]  # (a line break where the cell has no such byte)
+    after = b[np.minimum(first + 1, len(b) - 1)]
+    broken = ((lead == 46) | (last == 46)  # a point first (after the sign) or last
+              | ((lead == 48) & (stop - first >= 2) & (after >= 48) & (after <= 57)))  # a leading zero
+    cell = ends.searchsorted  # a byte's cell: the line breaks before it, less one
+    odd = np.flatnonzero(_OTHER[b])  # a byte that is none of 0-9 . - and the line break
+    minus = np.flatnonzero(b == 45)
+    broken[cell(odd) - 1] = True
+    broken[cell(minus[b[minus - 1] != 10]) - 1] = True  # a '-' not first
+    points = cell(np.flatnonzero(b == 46)) - 1
+    broken[points[1:][points[1:] == points[:-1]]] = True  # two points in one cell
+    dotted = np.zeros(n, bool)
+    dotted[points] = True
+    broken |= dotted & (last == 48)  # a trailing zero after the point
+    return ~broken, stop - start - sign <= 15
+
+
+#: the bytes that may not stand in a plain cell: all but 0-9 . - and the line break
+_OTHER = np.ones(256, bool)
+_OTHER[list(b"0123456789.-\n")] = False
+
+
+def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarray,
+                plain: np.ndarray | None = None) -> tuple[list[str | None], np.ndarray]:
     """(texts, rest): `number(a[i], factor)` where a given text is shown to be it, None elsewhere;
     rest is the indices left to spell. `values[i]` must be `float(texts[i])` (the caller parsed them).
 
-    A text t is `number(x, factor)` when: t is canonical (`canonical`), c = float(t)
+    `plain`: the texts' `cells` (plain & short), if the caller has them.
+
+    A text t is `number(x, factor)` when: t is plain and short (`cells`), c = float(t)
     reads back exactly (c * factor == x), and v = x / factor lies within 4 ulps of c,
     in `numbers`' one-rounding range. Then t, with <= 14 significant digits, is c's
     decimal to within half an ulp; 14-digit decimals lie >= 1e-14 of their size
@@ -78,8 +104,10 @@ def given_texts(a: np.ndarray, factor: float, texts: list[str], values: np.ndarr
         av = np.abs(v)
         ok = ((c * factor == a) & (np.abs(v - c) <= _NEAR_ULPS * np.spacing(np.abs(c)))
               & (av >= _BULK_LO) & (av < _SHORT_HI) & (np.abs(a) >= _BULK_LO) & (np.abs(c) >= _POSITIONAL_LO))
-    plain = canonical(texts) if ok.any() else None
-    if plain is None:
+    if plain is None and ok.any():
+        got = cells("\n".join(texts) + "\n")
+        plain = None if got is None else got[0] & got[1]
+    if plain is None or len(plain) != n:
         return [None] * n, np.arange(n)
     ok &= plain
     out: list[str | None] = list(texts)

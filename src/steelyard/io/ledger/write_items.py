@@ -13,7 +13,7 @@ rotations, a density) go through `item_lines`. The text is byte for byte
 from __future__ import annotations
 
 import math
-from operator import attrgetter
+from operator import attrgetter, itemgetter
 
 import numpy as np
 
@@ -174,13 +174,16 @@ def _more_text(it: Item) -> str:
     return text
 
 
-def _given(given: dict | None, key: str, rows: list[int] | None) -> tuple[list[str], np.ndarray] | None:
-    """given[key] (texts, values, one per item) at `rows` (all when None), or None."""
+def _given(given: dict | None, key: str, rows) -> tuple | None:
+    """given[key] (texts, values[, plain], one per item) at `rows` (ints, a list or an array; all when
+    None), or None."""
     g = given.get(key) if given else None
     if g is None or rows is None:
         return g
-    texts, values = g
-    return list(map(texts.__getitem__, rows)), np.asarray(values)[rows]
+    if not isinstance(rows, np.ndarray):
+        rows = np.asarray(rows, dtype=np.intp)
+    texts = list(itemgetter(*rows.tolist())(g[0])) if len(rows) > 1 else [g[0][i] for i in rows.tolist()]
+    return (texts, *(np.asarray(x)[rows] for x in g[1:]))
 
 
 def items_text(items, u: FileUnits, given: dict | None = None) -> list[str]:
@@ -202,42 +205,19 @@ def items_text(items, u: FileUnits, given: dict | None = None) -> list[str]:
     at = set(odd)
     plain = [it for k, it in enumerate(items) if k not in at] if odd else items
     kept = [k for k in range(len(items)) if k not in at] if odd else None
-    fm, fl, fi = unit_factor(u.mass, "mass"), unit_factor(u.length, "length"), unit_factor(u.inertia, "inertia")
     n = len(plain)
     cg = list(zip(*map(attrgetter("cg"), plain))) if n else [(), (), ()]  # x, y, z columns
-    cols = [_strings(list(map(attrgetter("id"), plain)), "[[item]]\nid = "),
-            _strings(list(map(attrgetter("name"), plain)), "\nname = "),
-            _strings(list(map(attrgetter("group"), plain)), "\ngroup = "),
-            list(map("\nmass = {}\ncg = [{}, {}, {}]".format,
-                     numbers(list(map(attrgetter("mass"), plain)), fm, _given(given, "mass", kept)),
-                     *(numbers(cg[k], fl, _given(given, f"cg.{k}", kept)) for k in range(3))))]
-    quantity = list(map(attrgetter("quantity"), plain))
-    if quantity.count(1) != n:
-        cols.append([f"\nquantity = {q}" if q != 1 else "" for q in quantity])
     inertia = list(map(attrgetter("inertia"), plain))
     rows = [k for k, six in enumerate(inertia) if six is not None]
-    if rows:
-        at_rows = rows if kept is None else [kept[k] for k in rows]
-        columns = list(zip(*(inertia[k] for k in rows)))  # COMPONENTS order
-        six = [numbers(columns[j], fi, _given(given, f"inertia.{c}", at_rows)) for j, c in enumerate(COMPONENTS)]
-        col = [""] * n
-        for k, text in zip(rows, map("\ninertia = {{ xx = {}, yy = {}, zz = {}, xy = {}, xz = {}, yz = {} }}".format,
-                                     *six)):
-            col[k] = text
-        cols.append(col)
-    variable = list(map(attrgetter("variable"), plain))
-    if any(variable):
-        cols.append(["\nvariable = true" if v else "" for v in variable])
     held = list(map(_MORE_OF, plain))
     more = ([] if held.count(_NO_MORE_REMOVABLE) + held.count(_NO_MORE) == n else
             [k for k, h in enumerate(held) if h != _NO_MORE_REMOVABLE and h != _NO_MORE])
     del held
-    if more:
-        col = [""] * n
-        for k in more:
-            col[k] = _more_text(plain[k])
-        cols.append(col)
-    texts = list(map("".join, zip(*cols))) if n else []
+    texts = columns_text(
+        u, list(map(attrgetter("id"), plain)), list(map(attrgetter("name"), plain)),
+        list(map(attrgetter("group"), plain)), list(map(attrgetter("mass"), plain)), cg,
+        list(map(attrgetter("quantity"), plain)), rows, list(zip(*(inertia[k] for k in rows))),
+        list(map(attrgetter("variable"), plain)), {k: _more_text(plain[k]) for k in more}, given, kept)
     if not odd:
         return texts
     out, j = [], 0
@@ -248,3 +228,60 @@ def items_text(items, u: FileUnits, given: dict | None = None) -> list[str]:
             out.append(texts[j])
             j += 1
     return out
+
+
+def columns_text(u: FileUnits, ids: list[str], names: list[str], groups: list[str], mass: list[float],
+                 cg: list, quantity: list[int], rows: list[int], six: list, variable: list[bool],
+                 more: dict[int, str], given: dict | None = None, kept: list[int] | None = None) -> list[str]:
+    """The `[[item]]` block of each of n items the template writes, from their fields as columns.
+
+    `cg`: the x, y and z columns; `rows`: the items (ascending) with an own inertia, `six` its
+    six columns (COMPONENTS order, one value per row in `rows`); `more`: item -> the text of its
+    keys beyond v1 (`_more_text`), for the items that have any. Values are SI, as in an Item.
+    `given` as in `items_text`, `kept` the items' rows in it (None: row k is item k).
+    An import writes a new ledger's items with this straight from the CSV's columns.
+    """
+    n = len(ids)
+    fm, fl, fi = unit_factor(u.mass, "mass"), unit_factor(u.length, "length"), unit_factor(u.inertia, "inertia")
+    # one template per item, "{}" for each column: a text column that needs no escape is quoted in it
+    template, args = "", []
+    for texts, lead in ((ids, "[[item]]\nid = "), (names, "\nname = "), (groups, "\ngroup = ")):
+        piece, column = _text_column(texts, lead)
+        template += piece
+        if column is not None:
+            args.append(column)
+    template += "\nmass = {}\ncg = [{}, {}, {}]"
+    args.append(numbers(mass, fm, _given(given, "mass", kept)))
+    args.extend(numbers(cg[k], fl, _given(given, f"cg.{k}", kept)) for k in range(3))
+    extra = []
+    if quantity.count(1) != n:
+        extra.append([f"\nquantity = {q}" if q != 1 else "" for q in quantity])
+    if rows:
+        at_rows = np.asarray(rows if kept is None else [kept[k] for k in rows], dtype=np.intp)
+        texts = [numbers(six[j], fi, _given(given, f"inertia.{c}", at_rows)) for j, c in enumerate(COMPONENTS)]
+        col = [""] * n
+        for k, text in zip(rows, map("\ninertia = {{ xx = {}, yy = {}, zz = {}, xy = {}, xz = {}, yz = {} }}".format,
+                                     *texts)):
+            col[k] = text
+        extra.append(col)
+    if any(variable):
+        extra.append(["\nvariable = true" if v else "" for v in variable])
+    if more:
+        col = [""] * n
+        for k, text in more.items():
+            col[k] = text
+        extra.append(col)
+    template += "{}" * len(extra)
+    return list(map(template.format, *args, *extra)) if n else []
+
+
+def _text_column(texts: list[str], lead: str) -> tuple[str, list[str] | None]:
+    """(template piece, its column): `_strings(texts, lead)` as "{}", or, when no text needs an escape
+    and none is left out, `lead` and the quotes in the template around the texts themselves; a
+    column of only empty names or groups (written only when not empty) is left out: ("", None)."""
+    skips = lead.startswith("\n")
+    if skips and texts.count("") == len(texts):
+        return "", None
+    if not (skips and "" in texts) and _NEEDS_ESCAPE.search("".join(texts)) is None:
+        return lead + '"{}"', texts
+    return "{}", _strings(texts, lead)
