@@ -105,6 +105,22 @@ def test_output_elsewhere_leaves_the_source_alone(tmp_path):
     _close(_rollup(src, "--loadout", "takeoff"), _rollup(out, "--loadout", "takeoff"))
 
 
+def test_output_elsewhere_keeps_the_files_comments_as_in_place(tmp_path):
+    # the comments are what people wrote in the source: a converted copy keeps them, byte for byte as the
+    # same conversion in place writes (the source's own lines are the reference)
+    src, inplace = tmp_path / "t.toml", tmp_path / "in-place.toml"
+    shutil.copy(FIXTURES / "trainer.toml", src)
+    shutil.copy(FIXTURES / "trainer.toml", inplace)
+    out = tmp_path / "metric.toml"
+    assert run_cli("convert-units", src, "--mass", "kg", "--length", "m", "-o", out)[0] == 0
+    assert run_cli("convert-units", inplace, "--mass", "kg", "--length", "m")[0] == 0
+    comments = [line for line in src.read_text().splitlines() if line.lstrip().startswith("#")]
+    assert len(comments) > 10
+    written = out.read_text().splitlines()
+    assert all(c in written for c in comments)
+    assert out.read_bytes() == inplace.read_bytes()
+
+
 @pytest.mark.parametrize("args, field", [(("--mass", "stone-ish"), "--mass"), (("--length", "kg"), "--length"),
                                          ((), "--mass")])
 def test_bad_units_are_one_line_and_exit_2(tmp_path, args, field):

@@ -200,6 +200,13 @@ class _Columns:
         self.tol = self._tolerances(r, units) if any(r.has(c) for c in TOL_COLUMNS) else None
         self.other = ([_other(r, k, c) if c else {} for k, c in enumerate(r.cols["other"])]
                       if r.has("other") else None)
+        if self.other is not None and r.units["x"] != units.length:  # a tank table's lengths: into the file's unit
+            from steelyard.io.exchange.csv_cg_table import rescaled
+
+            f_csv, f_file = unit_factor(r.units["x"], "length"), unit_factor(units.length, "length")
+            for o in self.other:
+                if "cg_table" in o:
+                    o["cg_table"] = rescaled(o["cg_table"], f_csv, f_file)
 
     @staticmethod
     def _tolerances(r: CsvTable, units: FileUnits) -> list:

@@ -185,6 +185,10 @@ def csv_parts(ledger: Ledger, *, system: str | None = None, decimal_comma: bool 
             for k, c in zip(("tol x", "tol y", "tol z"), cg or (None, None, None)):
                 row[k] = num(k, c)
         rest = {k: v for k, v in e.items() if k not in CONTROL_KEYS}
+        if "cg_table" in rest and u["length"] != ledger.units.length:  # its lengths in the CSV's unit
+            from steelyard.io.exchange.csv_cg_table import exported
+
+            rest["cg_table"] = exported(ledger, i, f["x"])
         if rest:
             from steelyard.io.ledger.toml_write import value as toml_value  # here: few ledgers have such keys
 

@@ -262,29 +262,37 @@ class LedgerRewrite:
         self.target = target
         self.in_place = in_place
         self._expect = expect  # the target's hash when the lock was taken (ABSENT: no file)
-        self._original: Ledger | None = None  # what the target's text reads as, when it is rewritten in place
-        self.not_kept = ""  # after `text_for` in place: why the file's own layout could not be kept
+        self._layout: LoadedLedger | None = None  # the file whose layout the text keeps (see `replaces`)
+        self.not_kept = ""  # after `text_for`: why that file's layout could not be kept
 
     def replaces(self, loaded: LoadedLedger) -> None:
-        """Say that what is written replaces `loaded`: call right after loading, before the slow work.
+        """Say that what is written comes from `loaded`: call right after loading, before the slow work.
 
-        If `loaded` is the target itself, the write will go ahead only if the
-        file still has the bytes that were read, and `text_for` keeps its layout.
+        `text_for` then keeps the layout of the file `loaded` was read from
+        (its comments, order, the text of unchanged values), whether the
+        result goes back over that file or to another (`-o OUT`): a ledger
+        derived from a file keeps what its people wrote there. Over the file
+        itself, the write goes ahead only if it still has the bytes that were
+        read. A file read at a git revision (FILE@REV) has no bytes here to
+        keep: the text is canonical.
         """
-        if not (self.in_place and same_file(loaded.path, self.target)):
+        from steelyard.io.vcs.revision import names_revision
+
+        if self.in_place and same_file(loaded.path, self.target):
+            self._expect = loaded.sha256
+        elif names_revision(loaded.path):
             return
-        self._expect = loaded.sha256
-        self._original = loaded.ledger
+        self._layout = loaded
 
     def text_for(self, ledger: Ledger, *, canonical: str | None = None) -> str:
-        """The text to write for `ledger`: over the file it replaces, that file's layout kept (comments,
-        order, the text of unchanged values); otherwise canonical (`canonical`, if already made)."""
-        if self._original is None:
+        """The text to write for `ledger`: the layout of the file it comes from kept (see `replaces`);
+        otherwise canonical (`canonical`, if already made)."""
+        if self._layout is None:
             from steelyard.io.ledger.write import ledger_to_toml
 
             return canonical if canonical is not None else ledger_to_toml(ledger)
-        text, self.not_kept = _kept_layout(os.path.realpath(self.target), self._expect, self._original, ledger,
-                                           canonical)
+        src = self._layout
+        text, self.not_kept = _kept_layout(os.path.realpath(src.path), src.sha256, src.ledger, ledger, canonical)
         return text
 
     def write(self, text: str) -> str:
