@@ -160,3 +160,28 @@ async def test_a_long_load_runs_in_a_thread_and_reports_progress(tmp_path):
         assert len(app.session.ledger.items) == 20_000
     assert any(m.phase == "checking items" for m in seen)
     assert not lock_path(path).exists()  # released when the app ended
+
+
+async def test_save_as_keeps_the_files_comments_and_layout(tmp_path):
+    # what people wrote in the file (its comments, the text of untouched values) goes with it to the new
+    # name; the source's own lines are the reference, the items are read back with tomllib
+    import tomllib
+
+    path = copy_fixture(tmp_path)
+    target = tmp_path / "copy.toml"
+    async with editor(path) as (app, pilot):
+        await cursor_to(app, pilot, "wing-l")
+        await pilot.press("d")  # one change: a duplicate of wing-l
+        await settle(pilot, app)
+        await pilot.press("W")
+        await pilot.pause()
+        await type_into(app, pilot, "prompt-input", str(target))
+        await pilot.press("enter")
+        await answer_reason(app, pilot)
+        await settle(pilot, app)
+        assert not app.session.dirty and app.session.path == str(target)
+    source = path.read_text().splitlines()
+    comments = [line for line in source if line.lstrip().startswith("#")]
+    assert len(comments) > 10
+    assert [line for line in target.read_text().splitlines() if line.lstrip().startswith("#")] == comments
+    assert len(tomllib.loads(target.read_text())["item"]) == len(tomllib.loads(path.read_text())["item"]) + 1

@@ -228,13 +228,16 @@ def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger
                 overwrite_changed: bool = False) -> LoadedLedger:
     """Write the ledger atomically; returns the new on-disk record.
 
-    With `loaded` (what this session read from the same path) the save stops
-    with `ChangedOnDisk` if the file changed meanwhile (unless
-    `overwrite_changed`), and what did not change keeps its bytes: comments,
-    order, blank lines, number text (io.ledger.layout). Otherwise, and over a
-    file changed on disk, the canonical text is written.
+    With `loaded` (what this session read) what did not change keeps the
+    bytes of the file it was read from: comments, order, blank lines, number
+    text (io.ledger.layout), whether the save goes over that file or to
+    another (save as). Over the same path the save stops with `ChangedOnDisk`
+    if the file changed meanwhile (unless `overwrite_changed`). Without
+    `loaded`, from a file changed on disk, or from one read at a git revision
+    (FILE@REV), the canonical text is written.
     """
     from steelyard.io.ledger.write import ledger_to_toml
+    from steelyard.io.vcs.revision import names_revision
 
     target = str(path)
     same = loaded is not None and os.path.realpath(loaded.path) == os.path.realpath(target)
@@ -245,8 +248,8 @@ def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger
             raise ChangedOnDisk("changed on disk since it was opened; reload or save elsewhere", file=target)
         expect = now  # checked again just before the rename: the text below takes a while on a big ledger
     why = ""
-    if same:
-        text, why = _kept_layout(os.path.realpath(target), loaded.sha256, loaded.ledger, ledger)
+    if loaded is not None and (same or not names_revision(loaded.path)):
+        text, why = _kept_layout(os.path.realpath(loaded.path), loaded.sha256, loaded.ledger, ledger)
     else:
         text = ledger_to_toml(ledger)
     data = text.encode("utf-8")

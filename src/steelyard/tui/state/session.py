@@ -396,7 +396,7 @@ class Session:
                 raise
         try:
             record = save_ledger(target, ledger_with_log(ledger, log),
-                                 loaded=self.loaded if same else None, overwrite_changed=overwrite_changed)
+                                 loaded=self.loaded, overwrite_changed=overwrite_changed)
         except BaseException:
             if new_lock is not None:
                 new_lock.release()
