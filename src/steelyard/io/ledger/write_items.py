@@ -97,9 +97,10 @@ def searched(x: np.ndarray, v: np.ndarray, factor: float) -> list[str]:
         cands.append(np.fromiter(map(float, texts), float, m))
     cands.append(v)
     up = down = v
-    for _ in range(_ULPS):
-        up, down = np.nextafter(up, np.inf), np.nextafter(down, -np.inf)
-        cands += [up, down]
+    with np.errstate(over="ignore"):  # the largest finite float's neighbour is inf: a candidate that loses
+        for _ in range(_ULPS):
+            up, down = np.nextafter(up, np.inf), np.nextafter(down, -np.inf)
+            cands += [up, down]
     c = np.stack(cands, axis=1)  # (m, k)
     with np.errstate(all="ignore"):
         err = np.abs(c * factor - x[:, None])
