@@ -130,3 +130,16 @@ def test_bad_units_are_one_line_and_exit_2(tmp_path, args, field):
     code, _, err = run_cli("convert-units", path, *args)
     one_line_error(code, err, field)
     assert path.read_bytes() == data
+
+
+def test_converting_there_and_back_gives_the_files_own_bytes(tmp_path):
+    # every number comes back digit for digit and nothing the file wrote is dropped, not even a key
+    # that says the default (trainer.toml writes `axis = "z"` on its rods); the source bytes are the reference
+    src = tmp_path / "t.toml"
+    shutil.copy(FIXTURES / "trainer.toml", src)
+    assert 'axis = "z"' in src.read_text()
+    metric, back = tmp_path / "si.toml", tmp_path / "back.toml"
+    assert run_cli("convert-units", src, "--mass", "kg", "--length", "m", "--inertia", "kg*m**2", "-o", metric)[0] == 0
+    assert run_cli("convert-units", metric, "--mass", "lb", "--length", "in", "--inertia", "lb*in**2",
+                   "-o", back)[0] == 0
+    assert back.read_bytes() == src.read_bytes()

@@ -42,6 +42,8 @@ class Shape:
     kind: str
     params: Mapping[str, float] = field(default_factory=dict)
     axis: str = "z"
+    #: the file wrote `axis` (even the default z): a rewrite keeps it; not part of the meaning
+    axis_written: bool = field(default=False, compare=False)
 
     def local_tensor(self, mass: float) -> np.ndarray:
         from steelyard.core.physics.shapes import shape_tensor  # shapes imports model-free helpers only

@@ -62,6 +62,8 @@ def item_to_json(it: Item) -> dict:
         d["shape"] = {"kind": it.shape.kind, "axis": it.shape.axis,
                       **{k: [float(x) for x in v] if isinstance(v, (tuple, list)) else float(v)
                          for k, v in it.shape.params.items()}}
+        if it.shape.axis_written:  # the file wrote its axis: a save after a restore keeps it
+            d["shape"]["axis_written"] = True
     if it.rotate:
         d["rotate"] = [[a, float(deg)] for a, deg in it.rotate]
     if it.density is not None:
@@ -89,8 +91,9 @@ def item_from_json(d: dict) -> Item:
     shape = None
     if d.get("shape") is not None:
         s = dict(d["shape"])
-        kind, axis = s.pop("kind"), s.pop("axis", "z")
-        shape = Shape(kind, {k: tuple(v) if isinstance(v, list) else v for k, v in s.items()}, axis)
+        kind, axis, written = s.pop("kind"), s.pop("axis", "z"), s.pop("axis_written", False) is True
+        shape = Shape(kind, {k: tuple(v) if isinstance(v, list) else v for k, v in s.items()}, axis,
+                      axis_written=written)
     inertia = d.get("inertia")
     return Item(
         id=d["id"], mass=_finite(d["mass"], "mass"), cg=tuple(_finite(c, "cg") for c in cg),

@@ -314,7 +314,7 @@ class ItemsReader:
             validate_shape(kind, params)
         except SteelyardError as exc:
             raise exc.located(file=self.source, subject=subject)
-        return Shape(kind, params, axis)
+        return Shape(kind, params, axis, axis_written="axis" in raw)
 
     def _rotate(self, i: int, raw: object) -> tuple:
         if type(raw) is not list:

@@ -75,7 +75,7 @@ def item_fields(it: Item, u: FileUnits) -> list[tuple[str, str]]:
                 parts.append(f"{key(k)} = [" + ", ".join(_qty(x, "length", u.length, None) for x in v) + "]")
             else:
                 parts.append(f"{key(k)} = {_qty(v, 'length', u.length, None)}")
-        if it.shape.axis != "z":
+        if it.shape.axis != "z" or it.shape.axis_written:
             parts.append(f"axis = {string(it.shape.axis)}")
         out.append(("shape", "{ " + ", ".join(parts) + " }"))
     if it.rotate:

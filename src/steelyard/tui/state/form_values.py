@@ -237,7 +237,7 @@ def _shape(kind: str, fields: dict[str, str], u: FileUnits, o: Item | None) -> S
     except SteelyardError as exc:
         field = exc.field.replace("shape.", "dim.") if exc.field else "kind"
         raise SteelyardError(exc.message, field=field) from None
-    return Shape(kind, params, axis)
+    return Shape(kind, params, axis, axis_written=bool(old) and o.shape.axis_written)  # as the file had it
 
 
 def check_loadouts(ledger: Ledger, item: Item) -> None:
