@@ -146,15 +146,15 @@ class AssemblyForm(InOrder, ModalScreen[PlacementResult | None]):
 
     @on(Input.Changed)
     def _changed(self, event: Input.Changed) -> None:
-        if event.input.id and event.input.id.startswith("a-"):
-            self.values[event.input.id[2:]] = event.value
+        if self._take(event.input):
             self.check()
 
-    def _take_fields(self) -> None:
-        """Every field as typed (their change messages may still be on the way)."""
-        for field in self.query(Input):
-            if field.id and field.id.startswith("a-"):
-                self.values[field.id[2:]] = field.value
+    def _take(self, field: Input) -> bool:
+        """Note a field's text as typed; False for an input that is not one of the placement's fields."""
+        if not (field.id and field.id.startswith("a-")):
+            return False
+        self.values[field.id[2:]] = field.value
+        return True
 
     @on(Select.Changed, "#a-mirror")
     def _mirror(self, _event) -> None:
@@ -163,7 +163,8 @@ class AssemblyForm(InOrder, ModalScreen[PlacementResult | None]):
     # ---------------------------------------------------------------- finish
     async def entered(self) -> None:
         """Enter in a field: Apply, on the fields as typed."""
-        self._take_fields()
+        for field in self.query(Input):  # as typed: their change messages may still be on the way
+            self._take(field)
         self.action_apply()
 
     @on(Button.Pressed, "#asm-apply")
