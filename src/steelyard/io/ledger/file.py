@@ -205,21 +205,25 @@ def disk_changed(loaded: LoadedLedger) -> bool:
     return hashlib.sha256(data).hexdigest() != loaded.sha256
 
 
-def _kept_layout(path: str, sha256: str, original: Ledger, ledger: Ledger,
-                 canonical: str | None = None) -> tuple[str, str]:
-    """(text, why not kept): `ledger` over the file at `path`, keeping its layout if it still holds the
-    bytes (`sha256`) that `original` was read from; else the canonical text (`canonical`, when given)."""
+def _kept_layout(loaded: LoadedLedger | None, ledger: Ledger, canonical: str | None = None) -> tuple[str, str]:
+    """(text, why not kept): `ledger` written over the layout of the file `loaded` was read from (its
+    comments, order, the text of unchanged values), wherever the text goes, if that file still holds the
+    bytes that were read; else the canonical text (`canonical`, when given). Without `loaded`, or from a
+    file read at a git revision (FILE@REV: no bytes here to keep), canonical with no reason to give."""
     from steelyard.io.ledger.layout import preserve
     from steelyard.io.ledger.write import ledger_to_toml
+    from steelyard.io.vcs.revision import names_revision
 
+    if loaded is None or names_revision(loaded.path):
+        return (canonical if canonical is not None else ledger_to_toml(ledger)), ""
     try:
-        data = Path(path).read_bytes()
+        data = Path(os.path.realpath(loaded.path)).read_bytes()
     except OSError:
         data = b""
-    if not data or hashlib.sha256(data).hexdigest() != sha256:
+    if not data or hashlib.sha256(data).hexdigest() != loaded.sha256:
         why = "the file is not the one that was read" if data else "the file is gone"
         return (canonical if canonical is not None else ledger_to_toml(ledger)), why
-    done = preserve(data.decode("utf-8-sig"), original, ledger, canonical=canonical)
+    done = preserve(data.decode("utf-8-sig"), loaded.ledger, ledger, canonical=canonical)
     text = "\ufeff" + done.text if data.startswith(codecs.BOM_UTF8) else done.text  # a byte-order mark stays
     return text, done.why if done.how == "canonical" else ""
 
@@ -236,9 +240,6 @@ def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger
     `loaded`, from a file changed on disk, or from one read at a git revision
     (FILE@REV), the canonical text is written.
     """
-    from steelyard.io.ledger.write import ledger_to_toml
-    from steelyard.io.vcs.revision import names_revision
-
     target = str(path)
     same = loaded is not None and os.path.realpath(loaded.path) == os.path.realpath(target)
     expect = None
@@ -247,11 +248,7 @@ def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger
         if now not in (loaded.sha256, ABSENT):  # a deleted file may be written again
             raise ChangedOnDisk("changed on disk since it was opened; reload or save elsewhere", file=target)
         expect = now  # checked again just before the rename: the text below takes a while on a big ledger
-    why = ""
-    if loaded is not None and (same or not names_revision(loaded.path)):
-        text, why = _kept_layout(os.path.realpath(loaded.path), loaded.sha256, loaded.ledger, ledger)
-    else:
-        text = ledger_to_toml(ledger)
+    text, why = _kept_layout(loaded, ledger)
     data = text.encode("utf-8")
     write_atomic(target, data, through_symlink=True, expect_sha256=expect)
     return LoadedLedger(ledger, target, hashlib.sha256(data).hexdigest(), has_comments(text), time.time(), why)
@@ -279,23 +276,14 @@ class LedgerRewrite:
         read. A file read at a git revision (FILE@REV) has no bytes here to
         keep: the text is canonical.
         """
-        from steelyard.io.vcs.revision import names_revision
-
         if self.in_place and same_file(loaded.path, self.target):
             self._expect = loaded.sha256
-        elif names_revision(loaded.path):
-            return
         self._layout = loaded
 
     def text_for(self, ledger: Ledger, *, canonical: str | None = None) -> str:
         """The text to write for `ledger`: the layout of the file it comes from kept (see `replaces`);
         otherwise canonical (`canonical`, if already made)."""
-        if self._layout is None:
-            from steelyard.io.ledger.write import ledger_to_toml
-
-            return canonical if canonical is not None else ledger_to_toml(ledger)
-        src = self._layout
-        text, self.not_kept = _kept_layout(os.path.realpath(src.path), src.sha256, src.ledger, ledger, canonical)
+        text, self.not_kept = _kept_layout(self._layout, ledger, canonical)
         return text
 
     def write(self, text: str) -> str:
