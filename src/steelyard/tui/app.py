@@ -26,6 +26,7 @@ from steelyard.tui.flows.file import FileFlows, groups_of
 from steelyard.tui.flows.journal import JournalFlows
 from steelyard.tui.flows.revision import RevisionFlows
 from steelyard.tui.flows.setup import SetupFlows
+from steelyard.tui.key_hold import KeyHold
 from steelyard.tui.screens.main_screen import MainScreen
 from steelyard.tui.messages import ExtrasReady, SubtotalsReady
 from steelyard.tui.state.session import Session
@@ -64,7 +65,7 @@ PALETTE = (
 )
 
 
-class SteelyardApp(AssemblyFlows, SetupFlows, RevisionFlows, FileFlows, EditFlows, JournalFlows, CompareFlows,
+class SteelyardApp(KeyHold, AssemblyFlows, SetupFlows, RevisionFlows, FileFlows, EditFlows, JournalFlows, CompareFlows,
                    App[int]):
     CSS_PATH = "app.tcss"
     TITLE = "steelyard"

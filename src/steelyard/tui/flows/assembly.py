@@ -148,7 +148,7 @@ class AssemblyFlows:
         if not self._stack():
             self.notify("This is the top file: there is no parent to go back to.", markup=False, timeout=3)
             return
-        self._back_worker()
+        self.hold_keys(self._back_worker())  # its question, if any, takes the keys typed next
 
     @work(exclusive=True, group="assembly-back", description="back to the parent file")
     async def _back_worker(self) -> None:
@@ -214,7 +214,7 @@ class AssemblyFlows:
 
             await FileFlows.action_quit(self)
             return
-        self._quit_tree_worker()
+        self.hold_keys(self._quit_tree_worker())
 
     @work(exclusive=True, group="quit")
     async def _quit_tree_worker(self) -> None:

@@ -80,7 +80,7 @@ class CompareFlows:
         if key is None or s is None:
             return
         if key == "file":
-            self._compare_file_worker()
+            self.hold_keys(self._compare_file_worker())
             return
         if key == "saved":
             lo = s.loadout if s.loadout in {x.name for x in s.saved.loadouts} else None

@@ -228,7 +228,7 @@ class FileFlows:
         if path == "ask" or (path is None and s.path is None):
             def named(typed: str | None) -> None:
                 if typed:
-                    self._save_worker("ask", False, typed_path=typed)
+                    self.hold_keys(self._save_worker("ask", False, typed_path=typed))
 
             await self.push_screen(self._path_prompt("Save as", s.path or ""), named)
             return
@@ -236,11 +236,11 @@ class FileFlows:
         if waiting and not s.read_only:
             def answered(answer: tuple[str, str] | None) -> None:
                 if answer is not None and self.session is s:
-                    self._save_worker(None, False, reason=answer)
+                    self.hold_keys(self._save_worker(None, False, reason=answer))
 
             await self.push_screen(ReasonPrompt(len(waiting)), answered)
             return
-        self._save_worker(None, False)
+        self.hold_keys(self._save_worker(None, False))
 
     @work(exclusive=True, group="save", description="save")
     async def _save_worker(self, path: str | None, quit_after: bool, *, typed_path: str | None = None,
@@ -330,7 +330,8 @@ class FileFlows:
     # Each starts with its first question already on screen, as a save does (see _save_from_key).
     async def action_open(self) -> None:
         if self.session is not None and self.session.dirty:
-            await self.push_screen(self._keep_work_question("opening another file"), self._open_worker)
+            await self.push_screen(self._keep_work_question("opening another file"),
+                                   lambda choice: self.hold_keys(self._open_worker(choice)))
         else:
             await self.push_screen(self._path_prompt("Open ledger"), self._open_path)
 
@@ -359,7 +360,8 @@ class FileFlows:
         if self.session is None or not self.session.dirty:
             await self._quit_now()
         else:
-            await self.push_screen(self._keep_work_question("quitting"), self._quit_worker)
+            await self.push_screen(self._keep_work_question("quitting"),
+                                   lambda choice: self.hold_keys(self._quit_worker(choice)))
 
     @work(exclusive=True, group="quit")
     async def _quit_worker(self, choice: str) -> None:
