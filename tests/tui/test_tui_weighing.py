@@ -17,7 +17,7 @@ from pathlib import Path
 from support.sigfig import length_text, sig_text
 from steelyard.tui.screens.weighing_form import WeighingForm
 from support.paths import FIXTURES
-from support.tui import copy_fixture, editor, screen_text, settle, type_into
+from support.tui import burst, copy_fixture, editor, screen_text, settle, type_into
 from support.units import IN as INCH
 from support.units import LB
 
@@ -136,3 +136,23 @@ async def test_a_ledger_without_a_weighing_table_starts_empty_and_takes_typed_po
         new = app.session.ledger.item("empty-vehicle")
         assert abs(Fraction(new.cg[0]) - moment / sum(NET) * INCH) < Fraction(1, 10 ** 12)
         assert app.session.ledger.weighing["point"][2]["reading"] == 225.0
+
+
+async def test_apply_typed_right_behind_a_reading_takes_that_reading(tmp_path):
+    # a burst (a fast typist, a paste over SSH): the nose tare 2.5 -> 12.5 lb, Tab to Apply, Enter, all
+    # queued at once; Apply must see 12.5 (net nose 212.5 lb), not the 2.5 whose change is on its way
+    path = copy_fixture(tmp_path, EXAMPLE)
+    async with editor(path) as (app, pilot):
+        await pilot.press("w")
+        await pilot.pause(0.3)
+        form = app.screen
+        field = form.query_one("#w-point-2-tare")
+        field.focus()
+        await pilot.pause()
+        chain = form.focus_chain
+        tabs = chain.index(form.query_one("#weigh-apply")) - chain.index(field)
+        burst(app, [*["end", "home"] * 40, "1", *["tab"] * tabs, "enter"])  # many keys for the field to take
+        await settle(pilot, app)
+        assert not isinstance(app.screen, WeighingForm)
+        new = app.session.ledger.item("empty-vehicle")
+        assert abs(Fraction(new.mass) - (EMPTY - 10) * LB) < Fraction(1, 10 ** 12)

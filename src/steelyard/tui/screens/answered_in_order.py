@@ -18,7 +18,7 @@ from __future__ import annotations
 import asyncio
 
 from textual.binding import Binding
-from textual.widgets import Input
+from textual.widgets import Input, TextArea
 
 #: for a dialog's BINDINGS, beside its own Escape binding: in a field, Enter runs `entered` and Escape
 #: `action_cancel`, both as the key arrives (elsewhere, on a button or an open list, the keys keep their meaning)
@@ -27,9 +27,10 @@ KEYS = [Binding("escape", "escape_in_field", show=False, priority=True),
 
 
 async def typed_so_far(screen) -> None:
-    """Return once every field on `screen` has handled the keys queued on it before this call."""
+    """Return once every field (line or text area) on `screen` has handled the keys queued on it
+    before this call."""
     waits = []
-    for field in screen.query(Input):
+    for field in [*screen.query(Input), *screen.query(TextArea)]:
         done = asyncio.Event()
         if field.call_later(done.set):  # False: the field is closed and takes no more keys
             waits.append(done)

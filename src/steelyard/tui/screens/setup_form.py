@@ -30,7 +30,7 @@ from steelyard.core.errors import SteelyardError
 from steelyard.tui.state.setup_fields import (FIELDS, TITLES, Field, RowsError, categories_text, hint, parse,
                                               parse_categories, parse_points, points_text, shown)
 from steelyard.tui.state.setup_tables import NAME_KEY, SINGLE, entries, entry_name, with_entry
-from steelyard.tui.screens.answered_in_order import KEYS, InOrder
+from steelyard.tui.screens.answered_in_order import KEYS, InOrder, typed_so_far
 from steelyard.tui.text import clean, literal
 from steelyard.tui.widgets.chart import EnvelopeChart
 
@@ -255,7 +255,8 @@ class SetupForm(InOrder, ModalScreen[SetupDone | None]):
 
     # ---------------------------------------------------------------- finish
     @on(Button.Pressed, "#setup-apply")
-    def action_apply(self) -> None:
+    async def action_apply(self) -> None:
+        await typed_so_far(self)  # keys sent to a field before Apply are in it (check reads the fields)
         self.check()
         if self.result is None:
             self.app.bell()

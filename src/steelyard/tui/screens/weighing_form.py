@@ -23,7 +23,7 @@ from steelyard.core.display import DisplayUnits, pretty_unit
 from steelyard.core.errors import SteelyardError
 from steelyard.core.document.model import Ledger
 from steelyard.io.report.weighing import Weighing, weighing_summary
-from steelyard.tui.screens.answered_in_order import KEYS, InOrder
+from steelyard.tui.screens.answered_in_order import KEYS, InOrder, typed_so_far
 from steelyard.tui.text import clean, literal
 from steelyard.tui.widgets.ordered_input import OrderedInput
 from steelyard.tui.state.weighing_values import (ADJUST_FIELDS, POINT_FIELDS, WeighingFields, fields_from_table, reduce_fields,
@@ -158,15 +158,18 @@ class WeighingForm(InOrder, ModalScreen[WeighingDone | None]):
 
     @on(Input.Changed)
     def _changed(self, event: Input.Changed) -> None:
-        wid = event.input.id or ""
+        self._take(event.input.id or "", event.value)
+        self.check()
+
+    def _take(self, wid: str, value: str) -> None:
+        """Note a field's text in `fields` (from its change message, or read off the field by Apply)."""
         if wid == "weigh-replaces":
-            self.fields = replace(self.fields, replaces=event.value.strip() or None)
+            self.fields = replace(self.fields, replaces=value.strip() or None)
         elif wid == "weigh-vertical":
-            self.fields = replace(self.fields, vertical_cg=event.value)
+            self.fields = replace(self.fields, vertical_cg=value)
         elif wid.startswith("w-"):
             _, kind, row, key = wid.split("-", 3)
-            self.fields = self.fields.with_value(kind, int(row), key, event.value)
-        self.check()
+            self.fields = self.fields.with_value(kind, int(row), key, value)
 
     async def entered(self) -> None:
         self.focus_next()  # in a field: on to the next one
@@ -183,7 +186,12 @@ class WeighingForm(InOrder, ModalScreen[WeighingDone | None]):
 
     # ---------------------------------------------------------------- finish
     @on(Button.Pressed, "#weigh-apply")
-    def action_apply(self) -> None:
+    async def action_apply(self) -> None:
+        # the fields as typed: keys sent to a field before the press are taken first, and its text is
+        # read off it (its change message may still be on the way)
+        await typed_so_far(self)
+        for field in self.query(Input):
+            self._take(field.id or "", field.value)
         self.check()
         if self.reduced is None or self.reduced[1].new is None:
             self.app.bell()
