@@ -16,7 +16,9 @@ import tomllib
 from textual.widgets import ContentSwitcher
 
 from steelyard.tui import key_hold
-from support.tui import burst, copy_fixture, cursor_to, editor, settle
+from steelyard.tui.screens.confirm import ConfirmScreen
+from steelyard.tui.screens.reason_prompt import ReasonPrompt
+from support.tui import burst, copy_fixture, cursor_to, editor, settle, wait_for_screen
 
 
 def _view(app) -> str:
@@ -55,13 +57,21 @@ async def test_the_reason_typed_right_after_the_save_as_name_answers_the_reason_
     assert _last_reason(target) == "wheel"  # every letter, none taken as a command
 
 
-async def test_keys_wait_through_the_replace_question_and_the_reason(tmp_path):
+async def test_keys_typed_ahead_never_answer_replace_it(tmp_path):
+    # "Replace it?" may come unexpected: an Enter typed ahead for the reason must not overwrite a file
     path = copy_fixture(tmp_path)
     other = copy_fixture(tmp_path, name="other.toml")
+    on_disk = other.read_bytes()
     async with editor(path) as (app, pilot):
         await _unsaved_change(app, pilot)
-        # Replace? (Replace is focused) Enter; the reason; Enter
         burst(app, ["W", *str(other), "enter", "enter", *"why", "enter"])
+        await wait_for_screen(app, pilot, ConfirmScreen, what="Replace it? is asked")
+        await pilot.pause(0.3)
+        assert isinstance(app.screen, ConfirmScreen)  # still asked: the keys typed ahead were dropped
+        assert other.read_bytes() == on_disk and app.session.dirty and app.keys_held == 0
+        await pilot.press("enter")  # Replace, now that it is on screen
+        await wait_for_screen(app, pilot, ReasonPrompt)
+        burst(app, [*"why", "enter"])
         await settle(pilot, app)
         assert not app.session.dirty and app.session.path == str(other)
     assert _last_reason(other) == "why"
@@ -71,16 +81,15 @@ async def test_keys_wait_through_the_replace_question_and_the_reason(tmp_path):
 
 async def test_keys_after_a_cancelled_question_act_on_the_ledger_screen(tmp_path):
     path = copy_fixture(tmp_path)
-    other = copy_fixture(tmp_path, name="other.toml")
-    on_disk = other.read_bytes()
+    target = tmp_path / "copy.toml"
     async with editor(path) as (app, pilot):
         await _unsaved_change(app, pilot)
-        burst(app, ["W", *str(other), "enter", "escape", "4"])  # Replace? Escape: the flow ends there
+        burst(app, ["W", *str(target), "enter", "escape", "4"])  # the reason: Escape, and the save ends there
         await settle(pilot, app)
         assert app.session.dirty and app.session.path == str(path)
         assert _view(app) == "log"  # the 4 was handed on when the flow ended, not lost
         assert getattr(app, "keys_held", 0) == 0
-    assert other.read_bytes() == on_disk
+    assert not target.exists()
 
 
 async def test_quit_save_then_the_reason_in_one_burst(tmp_path):

@@ -13,6 +13,15 @@ ended, and after `HOLD_SECONDS` at the latest: a hold never freezes the
 keyboard. A key handed on that answers a question starting another wait
 (the next Enter of a chain) stops the hand-over, and the rest wait again.
 
+Only a question one types ahead into on purpose takes the kept keys: a
+file name, a reason, a choice of loadout (a screen class with
+`TAKES_KEYS_TYPED_AHEAD`). A question that may come unexpected ("Replace
+it?", "changed on disk", unsaved work) never does: an Enter typed for the
+reason must not confirm an overwrite. When one of those comes up, the kept
+keys are dropped, and so is every key made before its first paint (a key
+event carries the time it was read: one still on its way when the question
+was put up was not typed in answer to it), with a bell and a note.
+
 A hold starts when a dialog a worker awaits (`push_screen_wait`) is
 dismissed, and where a dialog's answer or a key starts a flow's worker
 (`hold_keys`). Mouse events are never held.
@@ -20,13 +29,14 @@ dismissed, and where a dialog's answer or a key starts a flow's worker
 
 from __future__ import annotations
 
-from textual import events
+from textual import _time, events
 from textual.worker import NoActiveWorker, Worker, WorkerState, get_current_worker
 
 #: the longest keys wait for a worker's next question
 HOLD_SECONDS = 3.0
 
 _ENDED = (WorkerState.SUCCESS, WorkerState.ERROR, WorkerState.CANCELLED)
+_ANY = object()  # a screen that takes every key (no `_shown_at`)
 
 
 class KeyHold:
@@ -36,6 +46,7 @@ class KeyHold:
     _holder: Worker | None = None  # the worker whose next question the keys wait for
     _handing_on = False
     _hold_timer = None
+    _drop_count = 0  # keys dropped and not yet told
 
     # ------------------------------------------------------------ holding
     def hold_keys(self, worker: Worker | None) -> None:
@@ -79,9 +90,14 @@ class KeyHold:
 
     # ---------------------------------------------------- the App's events
     async def on_event(self, event: events.Event) -> None:
-        if self._held is not None and isinstance(event, events.Key) and not event.is_forwarded:
-            self._held.append(event)
-            return
+        if isinstance(event, events.Key) and not event.is_forwarded:
+            if self._held is not None:
+                self._held.append(event)
+                return
+            shown = getattr(self.screen, "_shown_at", _ANY)
+            if shown is not _ANY and (shown is None or event.time < shown):
+                self._dropped(1)  # made before the question was on screen: not an answer to it
+                return
         await super().on_event(event)
 
     def push_screen(self, screen, callback=None, wait_for_dismiss: bool = False, **kwargs):
@@ -92,8 +108,37 @@ class KeyHold:
                 pass
         result = super().push_screen(screen, callback, wait_for_dismiss, **kwargs)
         if self._held is not None and not self._handing_on and not isinstance(screen, str):
-            self._release_when_mounted(screen)
+            if getattr(screen, "TAKES_KEYS_TYPED_AHEAD", False):
+                self._release_when_mounted(screen)
+            else:
+                self._guard(screen)
         return result
+
+    def _guard(self, screen) -> None:
+        """A question the keys were not typed for: none of them, nor any key made before its first
+        paint, answers it."""
+        n = len(self._held or ())
+        self._held, self._holder = None, None
+        if self._hold_timer is not None:
+            self._hold_timer.stop()
+            self._hold_timer = None
+        screen._shown_at = None  # until painted: every key is older than the question
+        screen.call_after_refresh(lambda: setattr(screen, "_shown_at", _time.get_time()))
+        if n:
+            self._dropped(n)
+
+    def _dropped(self, n: int) -> None:
+        """Count keys not used; one bell and one note for those dropped close together."""
+        if not self._drop_count:
+            self.bell()
+            self.set_timer(0.3, self._note_dropped)
+        self._drop_count += n
+
+    def _note_dropped(self) -> None:
+        n, self._drop_count = self._drop_count, 0
+        self.notify(f"{n} key{'s' if n != 1 else ''} typed before this question came up "
+                    f"{'were' if n != 1 else 'was'} not used: answer it now that it is shown.",
+                    severity="warning", markup=False, timeout=6)
 
     def pop_screen(self):
         top = self.screen_stack[-1] if self.screen_stack else None

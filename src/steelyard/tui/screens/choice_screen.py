@@ -15,6 +15,7 @@ from steelyard.tui.text import clean
 
 class ChoiceScreen(ModalScreen[str | None]):
     """Dismisses with the chosen entry's key, or None on Escape."""
+    TAKES_KEYS_TYPED_AHEAD = True  # keys typed while it was coming answer it (tui/key_hold.py)
 
     BINDINGS = [Binding("escape", "cancel", "Cancel")]
 

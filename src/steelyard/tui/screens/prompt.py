@@ -15,6 +15,7 @@ from steelyard.tui.widgets.ordered_input import OrderedInput
 
 class TextPrompt(InOrder, ModalScreen[str | None]):
     """Enter answers (the text, stripped), Escape gives None."""
+    TAKES_KEYS_TYPED_AHEAD = True  # keys typed while it was coming answer it (tui/key_hold.py)
 
     # Tab moves focus, Enter and Escape close, in the order keys arrive (see screens.answered_in_order)
     BINDINGS = [*KEYS, Binding("escape", "cancel", "Cancel"),

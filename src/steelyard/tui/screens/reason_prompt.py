@@ -20,6 +20,7 @@ from steelyard.tui.widgets.ordered_input import OrderedInput
 
 class ReasonPrompt(InOrder, ModalScreen[tuple[str, str] | None]):
     """Enter answers (reason, request), either maybe empty; Escape gives None (the save is not made)."""
+    TAKES_KEYS_TYPED_AHEAD = True  # keys typed while it was coming answer it (tui/key_hold.py)
 
     # Tab moves focus, Enter and Escape close, in the order keys arrive (a burst or a paste over SSH lands
     # field by field, and what follows the Enter reaches the screen beneath: screens.answered_in_order)
