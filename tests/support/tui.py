@@ -126,3 +126,18 @@ def burst(app, keys) -> None:
 
     for key in keys:
         app.post_message(events.Key(key, CHARACTERS.get(key, key if len(key) == 1 else None)))
+
+
+def current_view(app) -> str:
+    """The main screen's view (table, log, ...): which ContentSwitcher pane is shown."""
+    from textual.widgets import ContentSwitcher
+
+    return app.main.query_one(ContentSwitcher).current
+
+
+async def unsaved_change(app, pilot) -> None:
+    """Duplicate wing-l (fixtures/trainer.toml): one unsaved change with no reason yet."""
+    await cursor_to(app, pilot, "wing-l")
+    await pilot.press("d")
+    await settle(pilot, app)
+    assert app.session.dirty

@@ -13,23 +13,10 @@ from __future__ import annotations
 import asyncio
 import tomllib
 
-from textual.widgets import ContentSwitcher
-
 from steelyard.tui import key_hold
 from steelyard.tui.screens.confirm import ConfirmScreen
 from steelyard.tui.screens.reason_prompt import ReasonPrompt
-from support.tui import burst, copy_fixture, cursor_to, editor, settle, wait_for_screen
-
-
-def _view(app) -> str:
-    return app.main.query_one(ContentSwitcher).current
-
-
-async def _unsaved_change(app, pilot) -> None:
-    await cursor_to(app, pilot, "wing-l")
-    await pilot.press("d")  # duplicate the item: one unsaved change with no reason yet
-    await settle(pilot, app)
-    assert app.session.dirty
+from support.tui import burst, copy_fixture, current_view, editor, settle, unsaved_change, wait_for_screen
 
 
 async def _until_exit(app, pilot) -> None:
@@ -47,12 +34,12 @@ async def test_the_reason_typed_right_after_the_save_as_name_answers_the_reason_
     path = copy_fixture(tmp_path)
     target = tmp_path / "copy.toml"
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         # name, Enter, then the reason (asked from the save's worker), Enter, then 4 (the log view)
         burst(app, ["W", *str(target), "enter", *"wheel", "enter", "4"])
         await settle(pilot, app)
         assert not app.session.dirty and app.session.path == str(target)
-        assert _view(app) == "log"  # the key after the last Enter still reached the ledger screen
+        assert current_view(app) == "log"  # the key after the last Enter still reached the ledger screen
         assert getattr(app, "keys_held", 0) == 0
     assert _last_reason(target) == "wheel"  # every letter, none taken as a command
 
@@ -63,7 +50,7 @@ async def test_keys_typed_ahead_never_answer_replace_it(tmp_path):
     other = copy_fixture(tmp_path, name="other.toml")
     on_disk = other.read_bytes()
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         burst(app, ["W", *str(other), "enter", "enter", *"why", "enter"])
         await wait_for_screen(app, pilot, ConfirmScreen, what="Replace it? is asked")
         await pilot.pause(0.3)
@@ -83,11 +70,11 @@ async def test_keys_after_a_cancelled_question_act_on_the_ledger_screen(tmp_path
     path = copy_fixture(tmp_path)
     target = tmp_path / "copy.toml"
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         burst(app, ["W", *str(target), "enter", "escape", "4"])  # the reason: Escape, and the save ends there
         await settle(pilot, app)
         assert app.session.dirty and app.session.path == str(path)
-        assert _view(app) == "log"  # the 4 was handed on when the flow ended, not lost
+        assert current_view(app) == "log"  # the 4 was handed on when the flow ended, not lost
         assert getattr(app, "keys_held", 0) == 0
     assert not target.exists()
 
@@ -95,7 +82,7 @@ async def test_keys_after_a_cancelled_question_act_on_the_ledger_screen(tmp_path
 async def test_quit_save_then_the_reason_in_one_burst(tmp_path):
     path = copy_fixture(tmp_path)
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         # Save (focused) on the unsaved-work question; the reason comes from the quit's worker
         burst(app, ["ctrl+q", "enter", *"why", "enter"])
         await _until_exit(app, pilot)
@@ -113,8 +100,8 @@ async def test_a_hold_for_a_worker_that_never_asks_lets_go_after_the_bound(tmp_p
         app.hold_keys(worker)
         burst(app, ["4"])
         await pilot.pause(0.1)
-        assert app.keys_held == 1 and _view(app) != "log"  # kept while the worker may still ask
+        assert app.keys_held == 1 and current_view(app) != "log"  # kept while the worker may still ask
         await pilot.pause(0.6)
-        assert app.keys_held == 0 and _view(app) == "log"  # handed on after the bound, not lost
+        assert app.keys_held == 0 and current_view(app) == "log"  # handed on after the bound, not lost
         gate.set()
         await settle(pilot, app)

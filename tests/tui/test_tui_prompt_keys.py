@@ -12,39 +12,28 @@ from __future__ import annotations
 import tomllib
 from fractions import Fraction
 
-from textual.widgets import ContentSwitcher
 
 from steelyard.tui.screens.item_form import ItemForm
 from steelyard.tui.screens.prompt import TextPrompt
 from steelyard.tui.screens.reason_prompt import ReasonPrompt
-from support.tui import burst, copy_fixture, cursor_to, editor, settle, wait_for_screen
+from support.tui import (burst, copy_fixture, current_view, cursor_to, editor, settle, unsaved_change,
+                         wait_for_screen)
 
 
 LB = Fraction("0.45359237")  # kg in one pound, exact by definition (NIST SP 811)
 
 
-def _view(app) -> str:
-    return app.screen.query_one(ContentSwitcher).current
-
-
-async def _unsaved_change(app, pilot) -> None:
-    await cursor_to(app, pilot, "wing-l")
-    await pilot.press("d")  # duplicate the item: one unsaved change with no reason yet
-    await settle(pilot, app)
-    assert app.session.dirty
-
-
 async def test_a_key_typed_after_the_reasons_enter_goes_to_the_table_not_the_reason(tmp_path):
     path = copy_fixture(tmp_path)
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         await pilot.press("ctrl+s")
         await wait_for_screen(app, pilot, ReasonPrompt)
         burst(app, [*"doubler", "enter", "4"])
         await settle(pilot, app)
         assert not isinstance(app.screen, ReasonPrompt)
         assert not app.session.dirty  # saved
-        assert _view(app) == "log"  # the 4 typed after the Enter switched the view
+        assert current_view(app) == "log"  # the 4 typed after the Enter switched the view
     data = tomllib.loads(path.read_text())
     assert data["change"][-1]["reason"] == "doubler"  # not "doubler4", not cut short
 
@@ -53,14 +42,14 @@ async def test_a_key_typed_after_escape_at_the_reason_goes_to_the_table(tmp_path
     path = copy_fixture(tmp_path)
     on_disk = path.read_bytes()
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         await pilot.press("ctrl+s")
         await wait_for_screen(app, pilot, ReasonPrompt)
         burst(app, [*"abc", "escape", "4"])
         await settle(pilot, app)
         assert not isinstance(app.screen, ReasonPrompt)
         assert app.session.dirty and path.read_bytes() == on_disk  # Escape: no save
-        assert _view(app) == "log"
+        assert current_view(app) == "log"
 
 
 async def test_the_group_prompt_takes_what_came_before_its_enter_only(tmp_path):
@@ -74,7 +63,7 @@ async def test_the_group_prompt_takes_what_came_before_its_enter_only(tmp_path):
         await settle(pilot, app)
         assert not isinstance(app.screen, TextPrompt)
         assert app.session.ledger.item("wing-l").group == "structure/wing/spar"
-        assert _view(app) == "log"
+        assert current_view(app) == "log"
 
 
 async def test_the_item_form_applies_what_came_before_its_enter_and_the_next_key_reaches_the_table(tmp_path):
@@ -87,7 +76,7 @@ async def test_the_item_form_applies_what_came_before_its_enter_and_the_next_key
         assert not isinstance(app.screen, ItemForm)
         got = app.session.ledger.item("wing-l").mass  # kg
         assert abs(Fraction(got) - Fraction("88.5") * LB) < Fraction(1, 10**9)  # 88.5 lb, not 88.54 lb
-        assert _view(app) == "log"
+        assert current_view(app) == "log"
 
 
 async def test_keys_typed_right_after_ctrl_s_answer_the_reason_question(tmp_path):
@@ -95,11 +84,11 @@ async def test_keys_typed_right_after_ctrl_s_answer_the_reason_question(tmp_path
     # not the weighing form's key
     path = copy_fixture(tmp_path)
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         burst(app, ["ctrl+s", *"wheel fairing", "enter", "4"])
         await settle(pilot, app)
         assert not app.session.dirty
-        assert _view(app) == "log"
+        assert current_view(app) == "log"
     data = tomllib.loads(path.read_text())
     assert data["change"][-1]["reason"] == "wheel fairing"
 
@@ -108,7 +97,7 @@ async def test_keys_typed_right_after_save_as_name_the_file(tmp_path):
     path = copy_fixture(tmp_path)
     target = tmp_path / "copy.toml"
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         burst(app, ["W", *str(target), "enter"])
         await wait_for_screen(app, pilot, ReasonPrompt)  # the next question, asked once the name is known
         await pilot.press("enter")
@@ -135,7 +124,7 @@ async def test_keys_typed_right_after_ctrl_q_answer_the_unsaved_work_question(tm
     path = copy_fixture(tmp_path)
     on_disk = path.read_bytes()
     async with editor(path) as (app, pilot):
-        await _unsaved_change(app, pilot)
+        await unsaved_change(app, pilot)
         burst(app, ["ctrl+q", "tab", "enter"])  # Save, Discard, Cancel: Tab to Discard, Enter
         for _ in range(100):
             await pilot.pause(0.05)
