@@ -53,7 +53,7 @@ def run(args) -> int:
         if loaded is not None:
             out.replaces(loaded)
         imp = read_csv_file(args.csv, decimal_comma=args.decimal_comma, into=loaded.ledger if loaded else None,
-                            check=False)
+                            check=False, at=target)
         ledger = imp.ledger
         logged = False
         if loaded is not None and (imp.added or imp.replaced):
@@ -61,7 +61,7 @@ def run(args) -> int:
                 ledger, logged = _log(loaded.ledger, ledger, imp, args.csv, _author(args))
             except SteelyardError as exc:
                 raise exc.located(file=args.csv)
-        text = check_ledger(ledger, args.csv)  # everything read back before anything is written
+        text = check_ledger(ledger, args.csv, at=target)  # everything read back before anything is written
         out.write(out.text_for(ledger, canonical=text))  # in place: the file's comments and layout kept
     if out.not_kept:
         print(f"steelyard: note: {target}: written in canonical form; its own layout could not be kept "

@@ -90,7 +90,8 @@ class RowPlaces(Mapping):
 _last: tuple[weakref.ref, str] | None = None
 
 
-def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None, given: dict | None = None) -> str:
+def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None, given: dict | None = None,
+                 at: str | None = None) -> str:
     """Write the ledger to text and read it back with the full loader: what is saved will open.
 
     Returns the text, ready to write. With `places`, a problem on an item from
@@ -98,6 +99,8 @@ def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None, g
     checked again gets the text of its first check, without a second pass.
     `given`: the CSV's number cells for the writer (`ledger_to_toml`), emptied
     once the text is written, so its cells are freed before the read-back.
+    `at`: where the ledger will be written (an import --into): its placements
+    ([[assembly]]) are read from that file's folder, not the CSV's.
     """
     if _last is not None and _last[0]() is ledger:
         return _last[1]
@@ -105,7 +108,12 @@ def check_ledger(ledger: Ledger, source: str, places: CsvPlaces | None = None, g
         text = ledger_to_toml(ledger, given=given)
         if given:
             given.clear()
-        final = ledger_from_text(text, source=source)
+        tree_source = None
+        if at is not None and ledger.assemblies:
+            from steelyard.io.ledger.tree import DiskSource
+
+            tree_source = DiskSource(at)
+        final = ledger_from_text(text, source=source, tree_source=tree_source)
         growth_fractions(final)
         parse_tolerances(final)
         validate(final)

@@ -14,7 +14,7 @@ import gc
 import tomllib
 from collections.abc import Iterator
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -30,6 +30,7 @@ from steelyard.io.exchange.csv_check import CsvPlaces, RowPlaces, check_ledger, 
 from steelyard.io.exchange.csv_direct import check_new, direct, new_ledger_text
 from steelyard.io.exchange.csv_model import file_units, item_more, make_item, more_problem
 from steelyard.io.exchange.csv_read import CsvTable
+from steelyard.io.exchange.csv_same import same_items
 from steelyard.io.ledger.file import read_bytes
 from steelyard.io.ledger.read_items import ITEM_KEYS
 from steelyard.io.ledger.toml_read import decode
@@ -287,7 +288,7 @@ def _no_cycle_collection() -> Iterator[None]:
 
 
 def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledger | None = None,
-             check: bool = True) -> CsvImport:
+             check: bool = True, at: str | None = None) -> CsvImport:
     """Build the ledger a CSV describes (alone, or merged `into` an existing ledger); raises on any bad cell.
 
     The result is always written out and read back with the ledger reader, any
@@ -298,10 +299,10 @@ def read_csv(text: str, *, source: str, decimal_comma: bool = False, into: Ledge
     the one the text reads back as, which `check_ledger` knows (its text again).
     """
     with _no_cycle_collection():
-        return _read_csv(text, source=source, decimal_comma=decimal_comma, into=into)
+        return _read_csv(text, source=source, decimal_comma=decimal_comma, into=into, at=at)
 
 
-def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | None) -> CsvImport:
+def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | None, at: str | None) -> CsvImport:
     r = CsvTable(text, source, decimal_comma)
     units = into.units if into is not None else _new_units(r)
     cols = _Columns(r, into, units)
@@ -347,6 +348,10 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
                 given_units=dict(base.given_units) if base else {})
         except SteelyardError as exc:
             raise r.fail(k, "other" if r.has("other") else None, exc.message) from None
+        if base is not None and base.source is not None:  # placed from an assembly: its own file holds it
+            _same_placed(r, k, base, item)
+            same.append(ident)
+            continue
         if j is None:
             items.append(item)
             added.append(ident)
@@ -357,9 +362,23 @@ def _read_csv(text: str, *, source: str, decimal_comma: bool, into: Ledger | Non
             replaced.append(ident)
     ledger = into.evolve(items=tuple(items))
     places = CsvPlaces(RowPlaces(r.lines, r.ids), r.labels)
-    check_ledger(ledger, source, places)
+    check_ledger(ledger, source, places, at=at)
     return CsvImport(ledger, tuple(added), tuple(replaced), tuple(same), places)
 
+
+def _same_placed(r: CsvTable, k: int, base: Item, item: Item) -> None:
+    """A row of an item placed from an assembly (an export of the parent lists them) merges as it is;
+    a changed value is refused, naming the assembly: only its own file can change it."""
+    try:
+        same_items((replace(base, source=None),), (item,))
+    except SteelyardError as exc:
+        raise r.fail(k, _CSV_COLUMN.get(exc.field or ""), f"comes from assembly {base.source!r} and differs from "
+                     f"it ({exc.field}): change it in that assembly's own file") from None
+
+
+#: Item field -> the CSV column of its first value
+_CSV_COLUMN = {"id": "id", "name": "name", "group": "group", "quantity": "quantity", "variable": "variable",
+               "mass": "mass", "cg": "x", "density": "density", "inertia": "xx"}
 
 #: writer field (write_items.items_text) -> the CSV column that gives it
 _NUMBER_FIELDS = {"mass": "mass", "cg.0": "x", "cg.1": "y", "cg.2": "z", **{f"inertia.{c}": c for c in COMPONENTS}}
@@ -414,6 +433,8 @@ def _new_items(r: CsvTable, cols: _Columns) -> list[Item]:
 
 
 def read_csv_file(path: str, *, decimal_comma: bool = False, into: Ledger | None = None,
-                  check: bool = True) -> CsvImport:
+                  check: bool = True, at: str | None = None) -> CsvImport:
+    """`read_csv` of the file at `path`; `at`: where the merged ledger goes (its placements are read from
+    there)."""
     text = decode(read_bytes(path), source=str(path))
-    return read_csv(text, source=str(path), decimal_comma=decimal_comma, into=into, check=check)
+    return read_csv(text, source=str(path), decimal_comma=decimal_comma, into=into, check=check, at=at)

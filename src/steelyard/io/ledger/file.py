@@ -28,6 +28,7 @@ from steelyard.io.durability.atomic import (  # noqa: F401 - ChangedOnDisk re-ex
     ABSENT, ChangedOnDisk, check_output, file_sha256, mark_failed, mark_loaded, same_file, writable_check,
     write_atomic,
 )
+from steelyard.io.ledger.placement_folder import refuse_moved_placements
 from steelyard.io.ledger.read import Progress
 from steelyard.io.ledger.read_stream import ledger_from_text
 from steelyard.io.ledger.snapshot_bytes import file_hashes
@@ -241,6 +242,8 @@ def save_ledger(path: str | os.PathLike, ledger: Ledger, *, loaded: LoadedLedger
     (FILE@REV), the canonical text is written.
     """
     target = str(path)
+    if loaded is not None:
+        refuse_moved_placements(ledger, loaded.path, target)
     same = loaded is not None and os.path.realpath(loaded.path) == os.path.realpath(target)
     expect = None
     if same and not overwrite_changed:
@@ -276,6 +279,7 @@ class LedgerRewrite:
         read. A file read at a git revision (FILE@REV) has no bytes here to
         keep: the text is canonical.
         """
+        refuse_moved_placements(loaded.ledger, loaded.path, self.target)
         if self.in_place and same_file(loaded.path, self.target):
             self._expect = loaded.sha256
         self._layout = loaded
