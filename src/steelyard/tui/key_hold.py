@@ -123,7 +123,13 @@ class KeyHold:
             self._hold_timer.stop()
             self._hold_timer = None
         screen._shown_at = None  # until painted: every key is older than the question
-        screen.call_after_refresh(lambda: setattr(screen, "_shown_at", _time.get_time()))
+
+        def shown() -> None:
+            if screen._shown_at is None:
+                screen._shown_at = _time.get_time()
+
+        screen.call_after_refresh(shown)
+        self.set_timer(0.5, shown)  # at the latest: the question always takes the keys typed once it is up
         if n:
             self._dropped(n)
 
