@@ -37,7 +37,7 @@ class CsvPlaces:
     labels: dict[str, str] = field(default_factory=dict)
 
 
-def _column(ledger_field: str | None, labels: dict[str, str]) -> str | None:
+def csv_column(ledger_field: str | None, labels: dict[str, str]) -> str | None:
     """The CSV column that holds a ledger field ("cg.1" -> "y", "cg_table" -> "other"), if the CSV has it."""
     if not ledger_field:
         return None
@@ -60,7 +60,7 @@ def placed(exc: SteelyardError, source: str, places: CsvPlaces | None) -> Steely
     if places is None or exc.subject not in places.rows:
         return exc.located(file=source)
     line, ident = places.rows[exc.subject]
-    key = _column(exc.field, places.labels)
+    key = csv_column(exc.field, places.labels)
     where = f"column {said(places.labels[key])}" if key else exc.field
     return SteelyardError(exc.message, file=source, subject=f"line {line} (item {said(ident)})", field=where)
 

@@ -26,7 +26,7 @@ from steelyard.core.physics.inertia import COMPONENTS, realisability_problem, re
     tensor_from_six
 from steelyard.core.units import number_problem, unit_factor
 from steelyard.io.exchange.csv_cells import CONTROL_KEYS, FALSE, TOL_COLUMNS, TRUE
-from steelyard.io.exchange.csv_check import CsvPlaces, RowPlaces, check_ledger, placed
+from steelyard.io.exchange.csv_check import CsvPlaces, RowPlaces, check_ledger, csv_column, placed
 from steelyard.io.exchange.csv_direct import check_new, direct, new_ledger_text
 from steelyard.io.exchange.csv_model import file_units, item_more, make_item, more_problem
 from steelyard.io.exchange.csv_read import CsvTable
@@ -372,13 +372,8 @@ def _same_placed(r: CsvTable, k: int, base: Item, item: Item) -> None:
     try:
         same_items((replace(base, source=None),), (item,))
     except SteelyardError as exc:
-        raise r.fail(k, _CSV_COLUMN.get(exc.field or ""), f"comes from assembly {base.source!r} and differs from "
+        raise r.fail(k, csv_column(exc.field, r.labels), f"comes from assembly {base.source!r} and differs from "
                      f"it ({exc.field}): change it in that assembly's own file") from None
-
-
-#: Item field -> the CSV column of its first value
-_CSV_COLUMN = {"id": "id", "name": "name", "group": "group", "quantity": "quantity", "variable": "variable",
-               "mass": "mass", "cg": "x", "density": "density", "inertia": "xx"}
 
 #: writer field (write_items.items_text) -> the CSV column that gives it
 _NUMBER_FIELDS = {"mass": "mass", "cg.0": "x", "cg.1": "y", "cg.2": "z", **{f"inertia.{c}": c for c in COMPONENTS}}
