@@ -141,3 +141,19 @@ async def unsaved_change(app, pilot) -> None:
     await pilot.press("d")
     await settle(pilot, app)
     assert app.session.dirty
+
+
+async def key_on_item(app, pilot, item_id: str, key: str, screen_type) -> None:
+    """Put the cursor on `item_id`, press `key` and wait for the `screen_type` it opens."""
+    await cursor_to(app, pilot, item_id)
+    await pilot.press(key)
+    await wait_for_screen(app, pilot, screen_type)
+
+
+async def at_the_reason(app, pilot) -> None:
+    """One unsaved change (`unsaved_change`), then Ctrl+S, up to its reason question."""
+    from steelyard.tui.screens.reason_prompt import ReasonPrompt
+
+    await unsaved_change(app, pilot)
+    await pilot.press("ctrl+s")
+    await wait_for_screen(app, pilot, ReasonPrompt)

@@ -16,8 +16,8 @@ from fractions import Fraction
 from steelyard.tui.screens.item_form import ItemForm
 from steelyard.tui.screens.prompt import TextPrompt
 from steelyard.tui.screens.reason_prompt import ReasonPrompt
-from support.tui import (burst, copy_fixture, current_view, cursor_to, editor, settle, unsaved_change,
-                         wait_for_screen)
+from support.tui import (at_the_reason, burst, copy_fixture, current_view, cursor_to, editor, key_on_item, settle,
+                         unsaved_change, wait_for_screen)
 
 
 LB = Fraction("0.45359237")  # kg in one pound, exact by definition (NIST SP 811)
@@ -26,9 +26,7 @@ LB = Fraction("0.45359237")  # kg in one pound, exact by definition (NIST SP 811
 async def test_a_key_typed_after_the_reasons_enter_goes_to_the_table_not_the_reason(tmp_path):
     path = copy_fixture(tmp_path)
     async with editor(path) as (app, pilot):
-        await unsaved_change(app, pilot)
-        await pilot.press("ctrl+s")
-        await wait_for_screen(app, pilot, ReasonPrompt)
+        await at_the_reason(app, pilot)
         burst(app, [*"doubler", "enter", "4"])
         await settle(pilot, app)
         assert not isinstance(app.screen, ReasonPrompt)
@@ -42,9 +40,7 @@ async def test_a_key_typed_after_escape_at_the_reason_goes_to_the_table(tmp_path
     path = copy_fixture(tmp_path)
     on_disk = path.read_bytes()
     async with editor(path) as (app, pilot):
-        await unsaved_change(app, pilot)
-        await pilot.press("ctrl+s")
-        await wait_for_screen(app, pilot, ReasonPrompt)
+        await at_the_reason(app, pilot)
         burst(app, [*"abc", "escape", "4"])
         await settle(pilot, app)
         assert not isinstance(app.screen, ReasonPrompt)
@@ -55,9 +51,7 @@ async def test_a_key_typed_after_escape_at_the_reason_goes_to_the_table(tmp_path
 async def test_the_group_prompt_takes_what_came_before_its_enter_only(tmp_path):
     path = copy_fixture(tmp_path)
     async with editor(path) as (app, pilot):
-        await cursor_to(app, pilot, "wing-l")
-        await pilot.press("m")
-        await wait_for_screen(app, pilot, TextPrompt)
+        await key_on_item(app, pilot, "wing-l", "m", TextPrompt)
         # the prompt opens on the item's group, "structure/wing" (fixtures/trainer.toml), selected: End keeps it
         burst(app, ["end", *"/spar", "enter", "4"])
         await settle(pilot, app)

@@ -19,7 +19,8 @@ from steelyard.tui.screens.item_form import ItemForm
 from steelyard.tui.widgets.ledger_table import share_text_width
 from support.ledgers import write_ledger
 from support.paths import FIXTURES
-from support.tui import SIZE, burst, copy_fixture, cursor_to, editor, screen_text, settle, type_into, wait_for_screen
+from support.tui import (SIZE, burst, copy_fixture, cursor_to, editor, key_on_item, screen_text, settle, type_into,
+                         wait_for_screen)
 from test_scope_room_left import DRONE
 
 def spelled(text: str) -> list[str]:
@@ -118,9 +119,7 @@ async def test_paste_right_after_opening_lands_in_the_id(tmp_path):
 async def test_the_valid_line_follows_every_key(tmp_path):
     path = copy_fixture(tmp_path)
     async with editor(path) as (app, pilot):
-        await cursor_to(app, pilot, "wing-l")
-        await pilot.press("e")
-        await wait_for_screen(app, pilot, ItemForm)
+        await key_on_item(app, pilot, "wing-l", "e", ItemForm)
         form = app.screen
         form.query_one("#f-mass", Input).value = ""
         form.query_one("#f-mass", Input).focus()
