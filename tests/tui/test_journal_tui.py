@@ -76,7 +76,7 @@ def test_killed_mid_edit_then_reopened_offers_and_restores_the_edit(tmp_path, si
     screen = tmux.wait_for("second", "Unsaved edits found")
     flat = " ".join(screen.split())
     assert "1 unsaved edit by" in flat and "Items: shelf" in flat
-    assert "edited shelf: mass 4.4 → 5.25" in flat  # what would be restored
+    assert "edited shelf: mass 4.4 lb → 5.25 lb" in flat  # what would be restored, each number with its unit
     assert "as it is on disk" in flat  # the journal matches the file
     tmux.keys("second", "Enter")  # Restore
     tmux.wait_for("second", "Restored 1 unsaved edit")

@@ -70,6 +70,8 @@ async def test_the_item_form_applies_what_came_before_its_enter_and_the_next_key
         assert not isinstance(app.screen, ItemForm)
         got = app.session.ledger.item("wing-l").mass  # kg
         assert abs(Fraction(got) - Fraction("88.5") * LB) < Fraction(1, 10**9)  # 88.5 lb, not 88.54 lb
+        # the change log says each number with its unit (trainer.toml: lb, mass = 99.0)
+        assert app.session.log[-1].summary == "edited wing-l: mass 99.0 lb → 88.5 lb"
         assert current_view(app) == "log"
 
 

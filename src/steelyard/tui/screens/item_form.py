@@ -190,6 +190,19 @@ class ItemForm(InOrder, ModalScreen[FormResult | None]):
         self._show_preview(preview)
         return True
 
+    def _worded(self, key: str, text: str) -> str:
+        """A field's text for the change log: a plain number with the unit the form reads it in (its label's),
+        so "1.2 kg → 3.1" reads "1.2 kg → 3.1 lb"; a text with its own unit, or none to have, as typed."""
+        text = text.strip()
+        label = self.labels.get(key, "")
+        if not text or not label.endswith("]"):
+            return text
+        try:
+            float(text)
+        except ValueError:
+            return text
+        return f"{text} {label[label.rindex('[') + 1:-1]}"
+
     def _changed_fields(self, fields: dict[str, str]) -> list[str]:
         return [k for k in fields if fields[k].strip() != self.start.get(k, "").strip()]
 
@@ -232,7 +245,8 @@ class ItemForm(InOrder, ModalScreen[FormResult | None]):
             summary = ""
         else:
             summary = f"edited {self.original.id}: " + "; ".join(
-                f"{k} {self.start.get(k, '') or '—'} → {fields[k] or '—'}" for k in changed)
+                f"{k} {self._worded(k, self.start.get(k, '')) or '—'} → {self._worded(k, fields[k]) or '—'}"
+                for k in changed)
         result = FormResult(new, item, "add" if self.original is None else "edit", summary) if (
             self.original is None or changed) else None
         return result, self.preview(new)
